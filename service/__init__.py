@@ -1,0 +1,3 @@
+"""cycleledger: fatigue damage and life from measured load histories."""
+
+__version__ = "0.1.0"

@@ -1,0 +1,536 @@
+"""Rainflow cycle counting per ASTM E1049-85, with gating and continuation.
+
+Public entry points
+-------------------
+``astm_e1049``      count a whole history (residue as half cycles, or the
+                    history treated as a repeating block).
+``count_block``     count one block of a longer history and carry the
+                    unclosed residue forward in a :class:`CountingState`.
+``close_residue``   what the carried residue adds if the history ends now.
+``turning_points``  the peaks and valleys that the counting sees.
+
+Conventions (see DEVELOPERS.md, glossary): samples are stresses in MPa
+(the counting itself is unit-free); sample indices are 0-based positions in
+the whole history, across blocks; a plateau counts once, at its last sample;
+the first and the last sample of a history are always points.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from functools import cached_property
+
+import numpy as np
+
+from . import _counting_kernels as _k
+from .errors import IncompatibleState, InvalidLoadHistory, InvalidParameter, unknown
+
+#: Residue treatments for :func:`astm_e1049`, keyed by their public names.
+RESIDUE_TREATMENTS = ("half_cycles", "repeating_block")
+
+# Headroom kept in a cycle table before it is trimmed by a copy.
+_SLACK_ROWS = 64
+
+
+@dataclass(frozen=True, eq=False)
+class CycleTable:
+    """Counted cycles, one row per full or half cycle.
+
+    Attributes
+    ----------
+    stress_from, stress_to : ndarray of float64
+        Values of the cycle's first and second turning point, in time order
+        of the counting. [MPa]
+    count : ndarray of float64
+        1.0 for a full cycle, 0.5 for a half cycle. [cycles]
+    start_index, end_index : ndarray of int64
+        Sample indices of the two turning points in the whole history. For a
+        repeating block ``end_index`` may precede ``start_index`` where the
+        cycle wraps round the end of the block. [-]
+
+    Range, mean, amplitude, maximum and minimum are derived on first use and
+    cached.
+    """
+
+    stress_from: np.ndarray
+    stress_to: np.ndarray
+    count: np.ndarray
+    start_index: np.ndarray
+    end_index: np.ndarray
+
+    @cached_property
+    def stress_range(self) -> np.ndarray:
+        """Stress range of each cycle, :math:`\\Delta\\sigma`. [MPa]"""
+        return np.abs(self.stress_from - self.stress_to)
+
+    @cached_property
+    def stress_mean(self) -> np.ndarray:
+        """Mean stress of each cycle, :math:`\\sigma_m`. [MPa]"""
+        return 0.5 * (self.stress_from + self.stress_to)
+
+    @cached_property
+    def stress_amplitude(self) -> np.ndarray:
+        """Stress amplitude, half the range, :math:`\\sigma_a`. [MPa]"""
+        return 0.5 * self.stress_range
+
+    @cached_property
+    def stress_max(self) -> np.ndarray:
+        """Larger of the cycle's two extremes. [MPa]"""
+        return np.maximum(self.stress_from, self.stress_to)
+
+    @cached_property
+    def stress_min(self) -> np.ndarray:
+        """Smaller of the cycle's two extremes. [MPa]"""
+        return np.minimum(self.stress_from, self.stress_to)
+
+    def __len__(self) -> int:
+        return int(self.count.shape[0])
+
+    @property
+    def total_count(self) -> float:
+        """Sum of the counts: (points - 1) / 2 for a whole history. [cycles]"""
+        return float(self.count.sum())
+
+    def to_frame(self):
+        """The table as a pandas DataFrame, one row per cycle."""
+        import pandas as pd
+
+        return pd.DataFrame({
+            "stress_range": self.stress_range,
+            "stress_mean": self.stress_mean,
+            "count": self.count,
+            "start_index": self.start_index,
+            "end_index": self.end_index,
+            "stress_from": self.stress_from,
+            "stress_to": self.stress_to,
+        })
+
+    def range_counts(self) -> dict[float, float]:
+        """Total count per distinct range, ``{range: count}``, ranges sorted."""
+        ranges, inverse = np.unique(self.stress_range, return_inverse=True)
+        totals = np.bincount(inverse, weights=self.count, minlength=ranges.size)
+        return {float(r): float(c) for r, c in zip(ranges, totals)}
+
+    @classmethod
+    def empty(cls) -> "CycleTable":
+        f = np.empty(0, np.float64)
+        i = np.empty(0, np.int64)
+        return cls(f, f.copy(), f.copy(), i, i.copy())
+
+    @classmethod
+    def concat(cls, tables) -> "CycleTable":
+        """Rows of several tables, one after another."""
+        tables = list(tables)
+        if not tables:
+            return cls.empty()
+        return cls(*(np.concatenate([getattr(t, name) for t in tables])
+                     for name in ("stress_from", "stress_to", "count",
+                                  "start_index", "end_index")))
+
+
+@dataclass(frozen=True, eq=False)
+class CountingState:
+    """What counting must remember between blocks of one history.
+
+    Attributes
+    ----------
+    gate : float
+        Hysteresis gate the history is counted with; fixed for its life. [MPa]
+    samples_seen : int
+        Samples counted so far; the next block starts at this index. [-]
+    direction : int
+        +1 rising, -1 falling, 0 not yet moved (beyond the gate). [-]
+    candidate_value, candidate_index : float, int
+        The pending extreme in ``direction`` (ungated: the last sample). [MPa], [-]
+    start_max_value, start_max_index, start_min_value, start_min_index
+        Running extremes before the first reversal (gated counting). [MPa], [-]
+    residue_values, residue_indices : ndarray
+        Turning points not yet closed into a cycle, oldest first. [MPa], [-]
+    """
+
+    gate: float
+    samples_seen: int
+    direction: int
+    candidate_value: float
+    candidate_index: int
+    start_max_value: float
+    start_max_index: int
+    start_min_value: float
+    start_min_index: int
+    residue_values: np.ndarray = field(repr=False)
+    residue_indices: np.ndarray = field(repr=False)
+
+    def to_dict(self) -> dict:
+        """Plain-JSON form, for storing the state between requests."""
+        out = {name: getattr(self, name) for name in self.__dataclass_fields__}
+        out["residue_values"] = [float(v) for v in self.residue_values]
+        out["residue_indices"] = [int(i) for i in self.residue_indices]
+        return out
+
+    @classmethod
+    def from_dict(cls, data: dict) -> "CountingState":
+        try:
+            return cls(
+                gate=float(data["gate"]), samples_seen=int(data["samples_seen"]),
+                direction=int(data["direction"]),
+                candidate_value=float(data["candidate_value"]),
+                candidate_index=int(data["candidate_index"]),
+                start_max_value=float(data["start_max_value"]),
+                start_max_index=int(data["start_max_index"]),
+                start_min_value=float(data["start_min_value"]),
+                start_min_index=int(data["start_min_index"]),
+                residue_values=np.asarray(data["residue_values"], np.float64),
+                residue_indices=np.asarray(data["residue_indices"], np.int64),
+            )
+        except (KeyError, TypeError, ValueError) as exc:
+            raise IncompatibleState(f"counting state is malformed: {exc}",
+                                    field="state") from exc
+
+
+# --------------------------------------------------------------------------
+# validation
+
+
+def as_history(samples, *, min_samples: int = 2, field_name: str = "samples") -> np.ndarray:
+    """Return ``samples`` as a contiguous float64 vector, or raise.
+
+    Raises
+    ------
+    InvalidLoadHistory
+        If the input is not a one-dimensional numeric sequence or is shorter
+        than ``min_samples``. Non-finite values are caught later, inside the
+        counting pass, where the check costs nothing extra.
+    """
+    if isinstance(samples, np.ndarray):
+        arr = samples
+    else:
+        try:
+            arr = np.asarray(samples)
+        except (TypeError, ValueError) as exc:
+            raise InvalidLoadHistory(f"{field_name} is not a numeric sequence: {exc}",
+                                     field=field_name) from exc
+    if arr.dtype.kind not in "iuf":
+        bad = _first_non_numeric(arr)
+        raise InvalidLoadHistory(
+            f"{field_name} must be numbers; sample {bad} is "
+            f"{arr.flat[bad]!r}" if bad is not None else
+            f"{field_name} must be numbers, got dtype {arr.dtype}",
+            sample_index=bad, field=field_name)
+    if arr.ndim != 1:
+        raise InvalidLoadHistory(
+            f"{field_name} must be one-dimensional, got shape {arr.shape}",
+            field=field_name)
+    if arr.shape[0] < min_samples:
+        raise InvalidLoadHistory(
+            f"{field_name} has {arr.shape[0]} sample(s); at least {min_samples} are needed",
+            field=field_name)
+    return np.ascontiguousarray(arr, dtype=np.float64)
+
+
+def _first_non_numeric(arr: np.ndarray) -> int | None:
+    if arr.ndim != 1:
+        return None
+    for i, value in enumerate(arr.tolist()):
+        if isinstance(value, bool) or not isinstance(value, (int, float)):
+            return i
+    return None
+
+
+def _first_non_finite(x: np.ndarray) -> int:
+    return int(np.flatnonzero(~np.isfinite(x))[0])
+
+
+def resolve_gate(x: np.ndarray | None, gate: float = 0.0,
+                 gate_fraction: float | None = None) -> float:
+    """Absolute gate from ``gate`` [MPa] or ``gate_fraction`` of the range [-]."""
+    if gate_fraction is not None:
+        if gate:
+            raise InvalidParameter("give gate or gate_fraction, not both",
+                                   field="gate_fraction", value=gate_fraction)
+        if not (0.0 <= gate_fraction < 1.0):
+            raise InvalidParameter(
+                f"gate_fraction {gate_fraction} must be in [0, 1)",
+                field="gate_fraction", value=gate_fraction, limit=[0.0, 1.0])
+        if x is None:
+            raise InvalidParameter("gate_fraction needs the whole history; "
+                                   "give an absolute gate for block counting",
+                                   field="gate_fraction", value=gate_fraction)
+        span = float(np.max(x) - np.min(x)) if x.size else 0.0
+        return gate_fraction * span if np.isfinite(span) else 0.0
+    gate = float(gate)
+    if not np.isfinite(gate) or gate < 0.0:
+        raise InvalidParameter(f"gate {gate} MPa must be finite and >= 0",
+                               field="gate", value=gate, limit=0.0)
+    return gate
+
+
+# --------------------------------------------------------------------------
+# passes
+
+
+def _points(x: np.ndarray, state: CountingState | None, gate: float, final: bool):
+    """First pass over one block: turning-point codes and the state after it.
+
+    Returns ``(codes, k, pre_v, pre_i, after)`` where ``after`` is the tuple of
+    scalar state fields after the block.
+    """
+    n = x.shape[0]
+    first = state is None
+    offset = 0 if first else state.samples_seen
+    xbits = x.view(np.int64)
+    codes = np.empty(n + 1, np.int32 if n < 2**31 - 2 else np.int64)
+    if gate == 0.0:
+        prev = 0.0 if first else state.candidate_value
+        k, d, bad = _k.turning_points_plain(x, xbits, first, prev,
+                                            0 if first else state.direction, codes)
+        pre_v = np.array([prev, 0.0, 0.0])
+        pre_i = np.array([0 if first else state.candidate_index, 0, 0], np.int64)
+        if n:
+            cand = (float(x[-1]), offset + n - 1)
+        else:
+            cand = (state.candidate_value, state.candidate_index)
+        x0 = (float(x[0]), 0) if first else (state.start_max_value, state.start_max_index)
+        after = (int(d), *cand, *x0, *x0)
+        if final and d != 0:
+            codes[k] = n - 1 if n else -1
+            k += 1
+    else:
+        if first:
+            st_v = np.zeros(3)
+            pre_i = np.zeros(3, np.int64)
+            d0 = 0
+        else:
+            st_v = np.array([state.candidate_value, state.start_max_value,
+                             state.start_min_value])
+            pre_i = np.array([state.candidate_index, state.start_max_index,
+                              state.start_min_index], np.int64)
+            d0 = state.direction
+        k, d, c, jc, cmax, jmax, cmin, jmin, bad = _k.turning_points_gated(
+            x, xbits, gate, first, st_v, d0, codes)
+        pre_v = st_v
+
+        def glob(j):
+            return int(offset + j) if j >= 0 else int(pre_i[-j - 1])
+
+        after = (int(d), float(c), glob(jc), float(cmax), glob(jmax),
+                 float(cmin), glob(jmin))
+        if final and d != 0:
+            codes[k] = jc
+            k += 1
+    if bad:
+        j = _first_non_finite(x)
+        raise InvalidLoadHistory(
+            f"sample {offset + j} is {x[j]}; samples must be finite numbers",
+            sample_index=offset + j)
+    return codes, int(k), pre_v, pre_i, after
+
+
+def _grow(arr: np.ndarray, size: int) -> np.ndarray:
+    out = np.empty(size, arr.dtype)
+    out[:arr.shape[0]] = arr
+    return out
+
+
+def _stack(codes, k, x, offset, pre_v, pre_i, sv, si, sp, half_rule, final, cap):
+    """Second pass: run the stack kernel, growing its arrays when it asks.
+
+    Returns ``(CycleTable, residue_values, residue_indices)``.
+    """
+    cols = [np.empty(cap, np.float64), np.empty(cap, np.float64),
+            np.empty(cap, np.float64), np.empty(cap, np.int64), np.empty(cap, np.int64)]
+    j, m = 0, 0
+    while True:
+        j, sp, m = _k.stack_pass(codes, j, k, x, offset, pre_v, pre_i, sv, si, sp,
+                                 half_rule, *cols, m)
+        if j >= k:
+            break
+        if sp + 1 > sv.shape[0]:
+            sv, si = _grow(sv, 2 * sp + 64), _grow(si, 2 * sp + 64)
+        if m + sp + 1 > cols[0].shape[0]:
+            size = max(m + m // 2, m + sp + 1) + 64
+            cols = [_grow(c, size) for c in cols]
+    rv, ri = sv[:sp].copy(), si[:sp].copy()
+    if final and sp > 1:
+        # What is left open is counted as half cycles, oldest first.
+        need = m + sp - 1
+        if need > cols[0].shape[0]:
+            cols = [_grow(c, need) for c in cols]
+        frm, to, cnt, s_ix, e_ix = cols
+        frm[m:need], to[m:need], cnt[m:need] = rv[:-1], rv[1:], 0.5
+        s_ix[m:need], e_ix[m:need] = ri[:-1], ri[1:]
+        m = need
+    if cols[0].shape[0] - m > max(_SLACK_ROWS, m // 4):
+        table = CycleTable(*(c[:m].copy() for c in cols))
+    else:
+        table = CycleTable(*(c[:m] for c in cols))
+    return table, rv, ri
+
+
+def count_block(samples, state: CountingState | None = None, *, gate: float = 0.0,
+                final: bool = False) -> tuple[CycleTable, CountingState]:
+    """Count one block of a history, carrying the unclosed residue forward.
+
+    Parameters
+    ----------
+    samples : array-like
+        The block's samples, in time order. [MPa]
+    state : CountingState, optional
+        The state returned for the previous block; ``None`` starts a history.
+    gate : float
+        Hysteresis gate: reversals smaller than this are not counted; the
+        same for every block of a history. [MPa]
+    final : bool
+        If true the history ends with this block and the residue is counted
+        as half cycles (as :func:`astm_e1049` does).
+
+    Returns
+    -------
+    (CycleTable, CountingState)
+        Cycles closed in this block, and the state to pass with the next one.
+
+    Notes
+    -----
+    Counting blocks one after another and then :func:`close_residue` gives the
+    very same rows as counting the concatenated history at once: the state
+    keeps the pending extreme and the residue stack of the three-point method.
+    """
+    x = as_history(samples, min_samples=2 if state is None else 0)
+    if state is not None:
+        if float(gate) != state.gate:
+            raise IncompatibleState(
+                f"gate {gate} MPa differs from the history's gate {state.gate} MPa",
+                field="gate", value=float(gate), history_gate=state.gate)
+        gate = state.gate
+    else:
+        gate = resolve_gate(None, gate)
+    offset = 0 if state is None else state.samples_seen
+    codes, k, pre_v, pre_i, after = _points(x, state, gate, final)
+    if state is None:
+        sv = np.empty(64, np.float64)
+        si = np.empty(64, np.int64)
+        sp = 0
+    else:
+        sp = state.residue_values.shape[0]
+        sv = np.empty(sp + 64, np.float64)
+        si = np.empty(sp + 64, np.int64)
+        sv[:sp] = state.residue_values
+        si[:sp] = state.residue_indices
+    table, rv, ri = _stack(codes, k, x, offset, pre_v, pre_i, sv, si, sp, True,
+                           final, k // 2 + sp + 16)
+    return table, CountingState(gate, offset + x.shape[0], *after, rv, ri)
+
+
+def close_residue(state: CountingState) -> CycleTable:
+    """Half cycles the residue would add if the history ended after ``state``.
+
+    Includes the pending last extreme, so ``count_block`` of every block plus
+    this equals :func:`astm_e1049` of the whole history.
+    """
+    table, _ = count_block(np.empty(0), state, gate=state.gate, final=True)
+    return table
+
+
+def astm_e1049(samples, *, gate: float = 0.0, gate_fraction: float | None = None,
+               residue: str = "half_cycles") -> CycleTable:
+    r"""
+    Rainflow cycles of a whole history by the ASTM E1049-85 three-point method.
+
+    Parameters
+    ----------
+    samples : array-like
+        Stress history, in time order. [MPa]
+    gate : float, optional
+        Hysteresis gate: reversals with a range below it are removed before
+        counting. [MPa]
+    gate_fraction : float, optional
+        The gate as a fraction of the history's range (max - min), instead
+        of ``gate``. [-]
+    residue : {"half_cycles", "repeating_block"}
+        ``half_cycles`` (the standard's default) counts what is left open at
+        the end as half cycles. ``repeating_block`` treats the history as one
+        period of a load that repeats in service: it is rearranged to start
+        at its largest absolute turning point, and every cycle closes.
+
+    Returns
+    -------
+    CycleTable
+        One row per cycle with range, mean, count and sample indices.
+
+    Raises
+    ------
+    InvalidLoadHistory
+        Fewer than two samples, a non-numeric sample, or a sample that is
+        NaN or infinite (the first such index is named).
+    InvalidParameter, UnknownMethod
+        A negative or non-finite gate, or an unknown residue treatment.
+
+    Notes
+    -----
+    Let X be the range between the newest two points and Y the range before
+    it. While X >= Y: if Y contains the starting point it is a half cycle and
+    the starting point is dropped; otherwise Y is a full cycle and both its
+    points are dropped. The counts sum to (points - 1) / 2. A constant history
+    has no cycles. Rows are in the order the cycles close.
+
+    References
+    ----------
+    .. [1] ASTM E1049-85 (Reapproved 2017), *Standard Practices for Cycle
+       Counting in Fatigue Analysis*, sec. 5.4.4 and 5.4.4.1 (simplified
+       counting for repeating histories). ASTM International. doi:10.1520/E1049-85R17
+    .. [2] M. Matsuishi and T. Endo, "Fatigue of metals subjected to varying
+       stress," Japan Soc. Mech. Eng., Fukuoka, 1968.
+    """
+    if residue not in RESIDUE_TREATMENTS:
+        raise unknown("residue", residue, RESIDUE_TREATMENTS)
+    x = as_history(samples)
+    g = resolve_gate(x, gate, gate_fraction)
+    if residue == "half_cycles":
+        table, _ = count_block(x, None, gate=g, final=True)
+        return table
+    return _repeating_block(x, g)
+
+
+def _repeating_block(x: np.ndarray, gate: float) -> CycleTable:
+    codes, k, _, _, _ = _points(x, None, gate, True)
+    if k < 2:
+        return CycleTable.empty()
+    idx = codes[:k].astype(np.int64)
+    vals = x[idx]
+    j = int(np.argmax(np.abs(vals)))
+    # One period, from the largest point round to the same point again; the
+    # junction of end and start may hide or create reversals, so re-extract.
+    seq_v = np.concatenate([vals[j:], vals[:j], vals[j:j + 1]])
+    seq_i = np.concatenate([idx[j:], idx[:j], idx[j:j + 1]])
+    codes2, k2, pre_v, pre_i, _ = _points(seq_v, None, gate, True)
+    table, _, _ = _stack(codes2, k2, seq_v, 0, pre_v, pre_i, np.empty(64),
+                         np.empty(64, np.int64), 0, False, True, k2 // 2 + 16)
+    return CycleTable(table.stress_from, table.stress_to, table.count,
+                      seq_i[table.start_index], seq_i[table.end_index])
+
+
+def turning_points(samples, *, gate: float = 0.0,
+                   gate_fraction: float | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """Peaks and valleys the counting sees, with the first and last point.
+
+    Returns
+    -------
+    (indices, values) : (ndarray of int64, ndarray of float64)
+        Sample index [-] and value [MPa] of each turning point, in time order.
+        A plateau is reported once, at its last sample.
+    """
+    x = as_history(samples)
+    g = resolve_gate(x, gate, gate_fraction)
+    codes, k, _, _, _ = _points(x, None, g, True)
+    idx = codes[:k].astype(np.int64)
+    return idx, x[idx]
+
+
+def warm_up() -> None:
+    """Compile (or load from cache) every kernel signature used in service."""
+    x = np.array([0.0, 2.0, -1.0, 3.0, -2.0, 1.0])
+    astm_e1049(x)
+    astm_e1049(x, gate=0.5)
+    astm_e1049(x, residue="repeating_block")
+    _, st = count_block(x[:3])
+    count_block(x[3:], st)
+    close_residue(st)
