@@ -20,6 +20,8 @@ from __future__ import annotations
 from dataclasses import dataclass, field
 from functools import cached_property
 
+import threading
+
 import numpy as np
 
 from . import _counting_kernels as _k
@@ -30,6 +32,22 @@ RESIDUE_TREATMENTS = ("half_cycles", "repeating_block")
 
 # Headroom kept in a cycle table before it is trimmed by a copy.
 _SLACK_ROWS = 64
+# Turning-point scratch kept per thread between calls, up to this many bytes:
+# fresh pages cost a fault each, which is a fifth of the time on short signals.
+_SCRATCH_MAX_BYTES = 32 * 2**20
+_scratch = threading.local()
+
+
+def _codes_buffer(n: int) -> np.ndarray:
+    """A buffer for ``n`` turning-point codes, reused when small enough."""
+    dtype = np.int32 if n < 2**31 - 2 else np.int64
+    if n * np.dtype(dtype).itemsize > _SCRATCH_MAX_BYTES:
+        return np.empty(n, dtype)
+    buf = getattr(_scratch, "codes", None)
+    if buf is None or buf.shape[0] < n or buf.dtype != dtype:
+        buf = np.empty(max(n, 4096), dtype)
+        _scratch.codes = buf
+    return buf
 
 
 @dataclass(frozen=True, eq=False)
@@ -210,10 +228,11 @@ def as_history(samples, *, min_samples: int = 2, field_name: str = "samples") ->
             raise InvalidLoadHistory(f"{field_name} is not a numeric sequence: {exc}",
                                      field=field_name) from exc
     if arr.dtype.kind not in "iuf":
-        bad = _first_non_numeric(arr)
+        items = arr.tolist() if isinstance(samples, np.ndarray) else samples
+        bad = _first_non_numeric(items) if arr.ndim == 1 else None
         raise InvalidLoadHistory(
-            f"{field_name} must be numbers; sample {bad} is "
-            f"{arr.flat[bad]!r}" if bad is not None else
+            f"{field_name} must be numbers; sample {bad} is {items[bad]!r}"
+            if bad is not None else
             f"{field_name} must be numbers, got dtype {arr.dtype}",
             sample_index=bad, field=field_name)
     if arr.ndim != 1:
@@ -227,11 +246,10 @@ def as_history(samples, *, min_samples: int = 2, field_name: str = "samples") ->
     return np.ascontiguousarray(arr, dtype=np.float64)
 
 
-def _first_non_numeric(arr: np.ndarray) -> int | None:
-    if arr.ndim != 1:
-        return None
-    for i, value in enumerate(arr.tolist()):
-        if isinstance(value, bool) or not isinstance(value, (int, float)):
+def _first_non_numeric(items) -> int | None:
+    for i, value in enumerate(items):
+        if isinstance(value, (bool, np.bool_)) or not isinstance(
+                value, (int, float, np.integer, np.floating)):
             return i
     return None
 
@@ -278,7 +296,7 @@ def _points(x: np.ndarray, state: CountingState | None, gate: float, final: bool
     first = state is None
     offset = 0 if first else state.samples_seen
     xbits = x.view(np.int64)
-    codes = np.empty(n + 1, np.int32 if n < 2**31 - 2 else np.int64)
+    codes = _codes_buffer(n + 1)
     if gate == 0.0:
         prev = 0.0 if first else state.candidate_value
         k, d, bad = _k.turning_points_plain(x, xbits, first, prev,
@@ -325,10 +343,19 @@ def _points(x: np.ndarray, state: CountingState | None, gate: float, final: bool
     return codes, int(k), pre_v, pre_i, after
 
 
-def _grow(arr: np.ndarray, size: int) -> np.ndarray:
-    out = np.empty(size, arr.dtype)
-    out[:arr.shape[0]] = arr
-    return out
+def _columns(rows: int, keep=None, m: int = 0) -> list[np.ndarray]:
+    """Five cycle columns of ``rows`` rows (copying ``keep[:m]`` over).
+
+    Five separate arrays, not one block: above 4 MB numpy asks the kernel for
+    huge pages, and on this kind of machine (THP defrag on madvise) that
+    stalled some calls for tens of milliseconds while memory was compacted.
+    """
+    cols = [np.empty(rows, np.float64) for _ in range(3)] + [
+        np.empty(rows, np.int64) for _ in range(2)]
+    if keep is not None:
+        for new, old in zip(cols, keep):
+            new[:m] = old[:m]
+    return cols
 
 
 def _stack(codes, k, x, offset, pre_v, pre_i, sv, si, sp, half_rule, final, cap):
@@ -336,8 +363,7 @@ def _stack(codes, k, x, offset, pre_v, pre_i, sv, si, sp, half_rule, final, cap)
 
     Returns ``(CycleTable, residue_values, residue_indices)``.
     """
-    cols = [np.empty(cap, np.float64), np.empty(cap, np.float64),
-            np.empty(cap, np.float64), np.empty(cap, np.int64), np.empty(cap, np.int64)]
+    cols = _columns(cap)
     j, m = 0, 0
     while True:
         j, sp, m = _k.stack_pass(codes, j, k, x, offset, pre_v, pre_i, sv, si, sp,
@@ -345,16 +371,18 @@ def _stack(codes, k, x, offset, pre_v, pre_i, sv, si, sp, half_rule, final, cap)
         if j >= k:
             break
         if sp + 1 > sv.shape[0]:
-            sv, si = _grow(sv, 2 * sp + 64), _grow(si, 2 * sp + 64)
+            size = 2 * sp + 64
+            sv2, si2 = np.empty(size), np.empty(size, np.int64)
+            sv2[:sp], si2[:sp] = sv[:sp], si[:sp]
+            sv, si = sv2, si2
         if m + sp + 1 > cols[0].shape[0]:
-            size = max(m + m // 2, m + sp + 1) + 64
-            cols = [_grow(c, size) for c in cols]
+            cols = _columns(max(m + m // 2, m + sp + 1) + 64, cols, m)
     rv, ri = sv[:sp].copy(), si[:sp].copy()
     if final and sp > 1:
         # What is left open is counted as half cycles, oldest first.
         need = m + sp - 1
         if need > cols[0].shape[0]:
-            cols = [_grow(c, need) for c in cols]
+            cols = _columns(need, cols, m)
         frm, to, cnt, s_ix, e_ix = cols
         frm[m:need], to[m:need], cnt[m:need] = rv[:-1], rv[1:], 0.5
         s_ix[m:need], e_ix[m:need] = ri[:-1], ri[1:]
@@ -394,7 +422,7 @@ def count_block(samples, state: CountingState | None = None, *, gate: float = 0.
     very same rows as counting the concatenated history at once: the state
     keeps the pending extreme and the residue stack of the three-point method.
     """
-    x = as_history(samples, min_samples=2 if state is None else 0)
+    x = as_history(samples, min_samples=1 if state is None else 0)
     if state is not None:
         if float(gate) != state.gate:
             raise IncompatibleState(
