@@ -1,0 +1,465 @@
+"""Palmgren-Miner damage, life and margins of one measured point.
+
+``assess`` turns a counted history into what an engineer reports: damage,
+life in repeats / hours / cycles, the stress reserve factor, the
+damage-equivalent range, the cycles that hurt most, flags and cautions.
+``assess_many`` does the same for many points in one call.
+"""
+
+from __future__ import annotations
+
+import math
+from concurrent.futures import ThreadPoolExecutor
+from dataclasses import asdict, dataclass, field
+
+import numpy as np
+
+from . import _damage_kernels as _dk
+from .errors import InvalidParameter
+from .mean_stress import (COMPRESSIVE_MEAN_POLICIES, MEAN_STRESS_METHODS,
+                          check_strengths, equivalent_amplitude)
+from .rainflow import CycleTable, astm_e1049, as_history
+from .sn_curve import SNCurve
+
+#: Shown with every result: what the numbers are and are not.
+CAUTIONS = (
+    "Fatigue lives scatter by a factor of several; this is an estimate, to be "
+    "confirmed by test.",
+    "The result depends on the chosen S-N curve, mean-stress method and factors; "
+    "check them against the applicable code.",
+    "Decisions on safety need the judgment and sign-off of a qualified engineer.",
+)
+
+#: Flag -> caution text added to a result that carries the flag.
+FLAG_CAUTIONS = {
+    "static_overload": "At least one cycle reaches the static strength: this is not a "
+                       "fatigue problem; damage is infinite and life zero.",
+    "below_fatigue_limit": "Every cycle is below the curve's limit or cut-off: no damage is "
+                           "predicted, which holds only if the curve's limit holds for this "
+                           "detail and loading.",
+    "no_cycles": "The history has no cycles (constant, or everything under the gate).",
+    "low_cycle_regime": "Some cycles fail in under 1e4 cycles, where stress-based life "
+                        "estimates lose accuracy (plasticity); consider a strain-life method.",
+}
+
+_LOW_CYCLE_LIMIT = 1e4
+
+
+@dataclass(frozen=True)
+class AssessmentOptions:
+    """How a point is assessed. Stresses in MPa; the rest dimensionless.
+
+    Attributes
+    ----------
+    mean_stress_method : str
+        A key of ``MEAN_STRESS_METHODS``; ``none`` for as-welded details.
+    compressive_mean : str
+        Policy for compressive means, see ``equivalent_amplitude``.
+    ultimate_strength, yield_strength, fatigue_strength_coefficient : float
+        Material strengths. [MPa]
+    walker_exponent : float
+        Walker's gamma. [-]
+    allowable_damage : float
+        Miner sum at which failure is predicted (1.0; 0.5 is common for
+        variable-amplitude welded details). [-]
+    load_factor : float
+        Partial factor on the fatigue load, gamma_Ff: multiplies the history. [-]
+    strength_factor : float
+        Partial factor on fatigue strength, gamma_Mf: divides the curve. [-]
+    thickness_factor : float
+        Multiplies the range entering the curve (e.g. (t/t_ref)^k). [-]
+    equivalent_slope, equivalent_cycles : float
+        Slope m [-] and reference cycles [cycles] of the equivalent range.
+    top_cycles : int
+        How many of the most damaging cycles to report.
+    reserve_factor : bool
+        Whether to solve for the stress reserve factor.
+    """
+
+    mean_stress_method: str = "none"
+    compressive_mean: str = "no_benefit"
+    ultimate_strength: float | None = None
+    yield_strength: float | None = None
+    fatigue_strength_coefficient: float | None = None
+    walker_exponent: float | None = None
+    allowable_damage: float = 1.0
+    load_factor: float = 1.0
+    strength_factor: float = 1.0
+    thickness_factor: float = 1.0
+    equivalent_slope: float = 3.0
+    equivalent_cycles: float = 2e6
+    top_cycles: int = 5
+    reserve_factor: bool = True
+
+    def __post_init__(self):
+        # Reuse the dispatcher's checks so every caller gets the same errors.
+        equivalent_amplitude(np.zeros(1), np.zeros(1), self.mean_stress_method,
+                             ultimate_strength=self.ultimate_strength,
+                             yield_strength=self.yield_strength,
+                             fatigue_strength_coefficient=self.fatigue_strength_coefficient,
+                             walker_exponent=self.walker_exponent,
+                             compressive_mean=self.compressive_mean)
+        for name in ("allowable_damage", "load_factor", "strength_factor",
+                     "thickness_factor", "equivalent_slope", "equivalent_cycles"):
+            v = getattr(self, name)
+            if not isinstance(v, (int, float)) or not math.isfinite(v) or v <= 0:
+                raise InvalidParameter(f"{name} {v} must be a positive number",
+                                       field=name, value=v, limit=0.0)
+        if not isinstance(self.top_cycles, int) or self.top_cycles < 0:
+            raise InvalidParameter(f"top_cycles {self.top_cycles} must be a whole number >= 0",
+                                   field="top_cycles", value=self.top_cycles, limit=0)
+
+    def echo(self) -> dict:
+        return asdict(self)
+
+
+@dataclass(frozen=True)
+class PointAssessment:
+    """Everything reported for one point. Stresses in MPa.
+
+    ``damage`` [-] is the Miner sum of one pass of the history;
+    ``life_repeats`` [-], ``life_hours`` [h] and ``life_cycles`` [cycles]
+    are how long the point lasts at that rate until ``allowable_damage``;
+    ``reserve_factor`` [-] is the factor on the whole history that brings the
+    damage to ``allowable_damage``; ``equivalent_range`` [MPa] is the constant
+    range that, applied ``equivalent_cycles`` times with slope
+    ``equivalent_slope``, does the same damage as the corrected ranges.
+    Infinite values mean no damage (lives, reserve) or static overload
+    (damage); they are never NaN.
+    """
+
+    damage: float
+    life_repeats: float
+    life_hours: float | None
+    life_cycles: float
+    reserve_factor: float | None
+    equivalent_range: float
+    cycles_counted: float
+    max_range: float
+    overload_cycles: int
+    flags: tuple
+    top_cycles: list
+    cautions: tuple
+    options: dict
+    curve: dict
+    damage_per_cycle: np.ndarray = field(repr=False, compare=False)
+
+    def summary(self) -> dict:
+        """Plain values for a table or JSON (no per-cycle array)."""
+        out = {k: getattr(self, k) for k in (
+            "damage", "life_repeats", "life_hours", "life_cycles", "reserve_factor",
+            "equivalent_range", "cycles_counted", "max_range", "overload_cycles")}
+        out["flags"] = list(self.flags)
+        return out
+
+
+# ---------------------------------------------------------------------------- Miner
+
+
+def palmgren_miner(count, cycles_to_failure):
+    r"""
+    Miner damage of each cycle, :math:`d_i = n_i / N_i`.
+
+    Parameters
+    ----------
+    count : array-like
+        Cycles counted (0.5 or 1.0 per row). [cycles]
+    cycles_to_failure : array-like
+        :math:`N_i` from the S-N curve; ``inf`` for no damage, ``0`` for a
+        static failure. [cycles]
+
+    Returns
+    -------
+    ndarray
+        Damage of each row, :math:`D = \sum d_i`. [-]
+
+    References
+    ----------
+    .. [1] A. Palmgren, "Die Lebensdauer von Kugellagern," *Z. Ver. Dtsch.
+       Ing.*, vol. 68, pp. 339-341, 1924.
+    .. [2] M. A. Miner, "Cumulative damage in fatigue," *J. Appl. Mech.*,
+       vol. 12, no. 3, pp. A159-A164, 1945.
+    """
+    n = np.asarray(count, dtype=np.float64)
+    nf = np.asarray(cycles_to_failure, dtype=np.float64)
+    with np.errstate(divide="ignore"):
+        return np.where(np.isinf(nf), 0.0, n / nf)
+
+
+def equivalent_range(stress_range, count, slope: float = 3.0,
+                     reference_cycles: float = 2e6) -> float:
+    r"""
+    Damage-equivalent constant range at ``reference_cycles``.
+
+    :math:`\Delta\sigma_{eq} = (\sum n_i \Delta\sigma_i^m / N_{ref})^{1/m}`;
+    infinite ranges (overloads) are left out. [MPa]
+
+    References
+    ----------
+    .. [1] EN 1993-1-9:2005, sec. 6.3 and Annex A (damage equivalent range
+       at 2e6 cycles).
+    """
+    r = np.asarray(stress_range, dtype=np.float64)
+    n = np.asarray(count, dtype=np.float64)
+    ok = np.isfinite(r) & (r > 0)
+    total = float(np.sum(n[ok] * r[ok] ** slope))
+    return float((total / reference_cycles) ** (1.0 / slope))
+
+
+# ---------------------------------------------------------------------------- kernel glue
+
+
+class _Evaluator:
+    """Damage of the history scaled by ``s``, through the compiled loop."""
+
+    def __init__(self, table: CycleTable, curve: SNCurve, opts: AssessmentOptions):
+        anchors_n, anchors_s = curve._anchors()
+        method = opts.mean_stress_method
+        needs = MEAN_STRESS_METHODS[method][1]
+        param = {"ultimate_strength": opts.ultimate_strength,
+                 "yield_strength": opts.yield_strength,
+                 "fatigue_strength_coefficient": opts.fatigue_strength_coefficient,
+                 "walker_exponent": opts.walker_exponent}.get(needs) or 1.0
+        clip = method in ("goodman", "soderberg", "morrow", "gerber") and (
+            opts.compressive_mean == "zero"
+            or (opts.compressive_mean == "no_benefit" and method != "gerber"))
+        self.args = (_dk.METHOD_CODES[method], float(param), bool(clip),
+                     float(opts.ultimate_strength) if opts.ultimate_strength else math.inf,
+                     opts.thickness_factor * opts.strength_factor,
+                     anchors_s, anchors_n, np.asarray(curve.slopes, np.float64),
+                     anchors_s[1:].copy(), float(curve.cutoff_range),
+                     float(opts.equivalent_slope))
+        self.load_factor = opts.load_factor
+        self.cols = (table.stress_from, table.stress_to, table.count)
+        self.calls = 0
+
+    def __call__(self, s: float, per_cycle=None):
+        """``(damage, overloads, slope, max_inv_life, eq_sum, max_range)`` at scale s."""
+        self.calls += 1
+        out = _dk.fused_damage(*self.cols, s * self.load_factor, *self.args,
+                               np.empty(0) if per_cycle is None else per_cycle)
+        d, over, weight = out[0], out[1], out[2]
+        slope = weight / d if 0 < d < math.inf else None
+        return (d, over, slope) + tuple(out[3:])
+
+    def restrict(self, s_max: float, damage_at_s_max=None) -> None:
+        """Keep only cycles that do damage at scale ``s_max``.
+
+        Every model's equivalent amplitude grows with the scale, so a cycle
+        without damage at ``s_max`` has none at any smaller scale: the search
+        below ``s_max`` may drop it. ``damage_at_s_max`` saves an evaluation
+        when the per-cycle damage there is already known.
+        """
+        d = damage_at_s_max
+        if d is None:
+            d = np.empty(self.cols[0].shape[0])
+            self(s_max, d)
+        keep = d > 0
+        if keep.mean() < 0.5:
+            self.cols = tuple(np.ascontiguousarray(c[keep]) for c in self.cols)
+
+
+def _reserve_factor(evaluate, target: float, first, per_cycle=None) -> float | None:
+    """Smallest scale s with damage(s) >= target.
+
+    damage(s) is non-decreasing in s and close to a power law, so Newton
+    steps in log-log space (the local slope comes with each evaluation)
+    converge in two or three evaluations; a bracket [lo, hi] with
+    damage(lo) < target <= damage(hi) is kept, and a step that leaves it, or
+    meets a zero or infinite damage (cut-off, overload), bisects instead.
+    Returns None if no scale within 1e-6..1e6 reaches the target.
+    """
+    log_t = math.log(target)
+    lo, hi = 1e-6, 1e6
+    flo = fhi = None
+    s, (d, _, slope) = 1.0, first[:3]
+    x_lo, x_hi = math.log(lo), math.log(hi)
+    restricted = False
+    prev = None
+    for _ in range(100):
+        if d == 0.0:
+            f = -math.inf
+        elif math.isinf(d):
+            f = math.inf
+        else:
+            f = math.log(d) - log_t
+        # 1e-8 on log damage is ~3e-9 on the factor: far below what is reported.
+        if abs(f) < 1e-8:
+            return s
+        x = math.log(s)
+        if f < 0:
+            x_lo, flo = x, f
+        else:
+            x_hi, fhi = x, f
+            if not restricted:
+                evaluate.restrict(s, per_cycle if s == 1.0 else None)
+                restricted = True
+        if x_hi - x_lo < 1e-10:
+            break
+        if (prev is not None and math.isfinite(f) and math.isfinite(prev[1])
+                and 0 < abs(x - prev[0]) < 0.05):
+            # Secant slope over a short step: it sees knees and the cut-off,
+            # the local slope does not; over a long step it is the worse guess.
+            secant = (f - prev[1]) / (x - prev[0])
+            slope = secant if secant > 0 else slope
+        prev = (x, f)
+        if slope and math.isfinite(f):
+            x_new = x - f / slope
+        elif flo is not None and fhi is not None and math.isfinite(flo) and math.isfinite(fhi):
+            x_new = x_hi - fhi * (x_hi - x_lo) / (fhi - flo)
+        else:
+            x_new = None
+        if x_new is None or not (x_lo < x_new < x_hi):
+            # Grow the bracket geometrically from the side we know, else bisect.
+            if fhi is None:
+                x_new = min(x_lo + math.log(4.0), x_hi)
+            elif flo is None:
+                x_new = max(x_hi - math.log(4.0), x_lo)
+            else:
+                x_new = 0.5 * (x_lo + x_hi)
+        if x_new == x:
+            break
+        s = math.exp(x_new)
+        d, _, slope = evaluate(s)[:3]
+    if fhi is None:
+        return None
+    return math.exp(x_hi)
+
+
+# ---------------------------------------------------------------------------- assess
+
+
+def assess(table: CycleTable, curve: SNCurve, options: AssessmentOptions | None = None,
+           *, duration_s: float | None = None) -> PointAssessment:
+    """
+    Assess one point's counted cycles against an S-N curve by Miner's rule.
+
+    Parameters
+    ----------
+    table : CycleTable
+        Rainflow cycles of one pass of the history. [MPa]
+    curve : SNCurve
+        The curve, already with any below-limit treatment applied.
+    options : AssessmentOptions
+        Mean-stress method, strengths, factors, allowable damage.
+    duration_s : float, optional
+        Duration of the history, for the life in hours. [s]
+
+    Returns
+    -------
+    PointAssessment
+
+    Notes
+    -----
+    Each cycle's amplitude and mean are multiplied by ``load_factor``,
+    corrected for mean stress, doubled to a range, multiplied by
+    ``thickness_factor * strength_factor`` and entered in the curve;
+    :math:`D = \\sum n_i / N_i`. The reserve factor is the scale on the whole
+    history (before every factor) at which :math:`D` reaches
+    ``allowable_damage``, found on the real curve (all segments, cut-off and
+    mean-stress correction included).
+
+    References
+    ----------
+    .. [1] M. A. Miner, "Cumulative damage in fatigue," *J. Appl. Mech.*,
+       vol. 12, no. 3, pp. A159-A164, 1945.
+    .. [2] EN 1993-1-9:2005, sec. 6 and 8 (partial factors, damage sum).
+    """
+    opts = options or AssessmentOptions()
+    if duration_s is not None and (not math.isfinite(duration_s) or duration_s <= 0):
+        raise InvalidParameter(f"duration_s {duration_s} must be positive", field="duration_s",
+                               value=duration_s, limit=0.0)
+    evaluate = _Evaluator(table, curve, opts)
+    n = len(table)
+    per_cycle = np.empty(n)
+    first = evaluate(1.0, per_cycle)
+    damage, overloads, _, max_inv_life, eq_sum, max_range = first
+    total_count = table.total_count
+    flags = []
+    if n == 0:
+        flags.append("no_cycles")
+    if overloads:
+        flags.append("static_overload")
+    elif n and damage == 0.0:
+        flags.append("below_fatigue_limit")
+    if not overloads and max_inv_life > 1.0 / _LOW_CYCLE_LIMIT:
+        flags.append("low_cycle_regime")
+    target = opts.allowable_damage
+    life = math.inf if damage == 0 else target / damage
+    reserve = None
+    if opts.reserve_factor and n and max_range > 0:
+        reserve = _reserve_factor(evaluate, target, first, per_cycle)
+    top = []
+    if opts.top_cycles and n:
+        for i in _dk.top_k(per_cycle, opts.top_cycles):
+            if per_cycle[i] == 0:
+                break
+            f, t = float(table.stress_from[i]), float(table.stress_to[i])
+            top.append({
+                "start_index": int(table.start_index[i]), "end_index": int(table.end_index[i]),
+                "stress_range": abs(f - t), "stress_mean": 0.5 * (f + t),
+                "count": float(table.count[i]), "damage": float(per_cycle[i]),
+                "damage_share": float(per_cycle[i] / damage) if math.isfinite(damage) else None,
+            })
+    eq_range = float((eq_sum / opts.equivalent_cycles) ** (1.0 / opts.equivalent_slope))
+    cautions = CAUTIONS + tuple(FLAG_CAUTIONS[f] for f in flags) + tuple(curve.notes)
+    return PointAssessment(
+        damage=float(damage), life_repeats=float(life),
+        life_hours=None if duration_s is None else float(life * duration_s / 3600.0),
+        life_cycles=float(life * total_count), reserve_factor=reserve,
+        equivalent_range=eq_range, cycles_counted=total_count, max_range=float(max_range),
+        overload_cycles=int(overloads), flags=tuple(flags), top_cycles=top,
+        cautions=cautions, options=opts.echo(), curve=curve.describe(),
+        damage_per_cycle=per_cycle)
+
+
+def assess_history(samples, curve: SNCurve, options: AssessmentOptions | None = None, *,
+                   gate: float = 0.0, residue: str = "half_cycles",
+                   duration_s: float | None = None) -> PointAssessment:
+    """Count ``samples`` by rainflow and :func:`assess` the cycles."""
+    table = astm_e1049(samples, gate=gate, residue=residue)
+    return assess(table, curve, options, duration_s=duration_s)
+
+
+def assess_many(histories, curve: SNCurve, options: AssessmentOptions | None = None, *,
+                gate: float = 0.0, residue: str = "half_cycles",
+                duration_s: float | None = None, workers: int = 2) -> dict:
+    """
+    Assess many points at once: ``{name: samples}`` or a 2-D array (one
+    column per point) in, ``{name: PointAssessment}`` out.
+
+    The compiled kernels release the GIL, so ``workers`` threads count
+    points side by side. A point that fails validation raises for the whole
+    call, naming the point (``channel``) so the caller can drop or fix it.
+    """
+    if isinstance(histories, np.ndarray):
+        if histories.ndim != 2:
+            raise InvalidParameter("a history array must be 2-D: samples x points",
+                                   field="samples")
+        histories = {str(i): histories[:, i] for i in range(histories.shape[1])}
+    opts = options or AssessmentOptions()
+
+    def one(item):
+        name, samples = item
+        try:
+            x = as_history(samples)
+            return name, assess_history(x, curve, opts, gate=gate, residue=residue,
+                                        duration_s=duration_s)
+        except InvalidParameter:
+            raise
+        except ValueError as exc:
+            if hasattr(exc, "channel"):
+                exc.channel = name
+                exc.details["channel"] = name
+            raise
+
+    items = list(histories.items())
+    if workers <= 1 or len(items) < 4:
+        return dict(one(it) for it in items)
+    with ThreadPoolExecutor(max_workers=workers) as pool:
+        return dict(pool.map(one, items))
+
+
+__all__ = ["AssessmentOptions", "PointAssessment", "CAUTIONS", "palmgren_miner",
+           "equivalent_range", "assess", "assess_history", "assess_many",
+           "COMPRESSIVE_MEAN_POLICIES", "check_strengths"]

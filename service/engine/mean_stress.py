@@ -1,0 +1,288 @@
+"""Mean-stress correction: the zero-mean amplitude that gives the same life.
+
+Each model is a pure function of cycle amplitudes and means (arrays, MPa).
+Where a model breaks down (a mean at or beyond the strength it is scaled by)
+the cycle is a static failure, not a fatigue cycle: the function returns
+``inf`` there rather than raising, so one bad cycle never stops a batch of
+points; :func:`equivalent_amplitude` also returns a mask of those cycles.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .errors import InvalidParameter, unknown
+
+#: How compressive means (sigma_m < 0) are treated, see equivalent_amplitude.
+COMPRESSIVE_MEAN_POLICIES = ("no_benefit", "zero", "formula")
+
+
+def _ratio_denominator(ratio: np.ndarray) -> np.ndarray:
+    # 1 - ratio, with every cycle at or past breakdown mapped to 0 so the
+    # division yields inf (amplitudes are > 0) and never a negative value.
+    den = 1.0 - ratio
+    return np.where(den > 0.0, den, 0.0)
+
+
+def _divide(stress_amplitude, den):
+    a = np.asarray(stress_amplitude, dtype=np.float64)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        out = a / den
+    # A zero amplitude is no cycle, even past breakdown: 0/0 -> 0.
+    return np.where(a == 0.0, 0.0, out)
+
+
+def none(stress_amplitude, stress_mean):
+    """No correction: the amplitude itself, whatever the mean. [MPa]"""
+    return np.array(stress_amplitude, dtype=np.float64)
+
+
+def goodman(stress_amplitude, stress_mean, ultimate_strength):
+    r"""
+    Equivalent fully reversed amplitude by the Goodman line.
+
+    Parameters
+    ----------
+    stress_amplitude : array-like
+        Alternating stress of each cycle, :math:`\sigma_a`. [MPa]
+    stress_mean : array-like
+        Mean stress of each cycle, :math:`\sigma_m`. [MPa]
+    ultimate_strength : float
+        Ultimate tensile strength, :math:`S_u`. [MPa]
+
+    Returns
+    -------
+    ndarray
+        :math:`\sigma_{ar}`; ``inf`` where :math:`\sigma_m \ge S_u`. [MPa]
+
+    Notes
+    -----
+    :math:`\sigma_{ar} = \sigma_a / (1 - \sigma_m / S_u)`. Applied literally a
+    compressive mean lowers :math:`\sigma_{ar}`; see ``compressive_mean`` in
+    :func:`equivalent_amplitude` for the policy.
+
+    References
+    ----------
+    .. [1] J. Goodman, *Mechanics Applied to Engineering*. London, U.K.:
+       Longmans, Green, 1899.
+    .. [2] N. E. Dowling, *Mechanical Behavior of Materials*, 4th ed.
+       Boston, MA, USA: Pearson, 2013, sec. 9.7.
+    """
+    ratio = np.asarray(stress_mean, dtype=np.float64) / ultimate_strength
+    return _divide(stress_amplitude, _ratio_denominator(ratio))
+
+
+def gerber(stress_amplitude, stress_mean, ultimate_strength):
+    r"""
+    Equivalent fully reversed amplitude by the Gerber parabola.
+
+    Returns :math:`\sigma_{ar} = \sigma_a / (1 - (\sigma_m / S_u)^2)`, ``inf``
+    where :math:`|\sigma_m| \ge S_u`. [MPa]
+
+    Notes
+    -----
+    Even in :math:`\sigma_m`: a compressive mean penalises as much as a
+    tensile one of the same size unless the policy clips it.
+
+    References
+    ----------
+    .. [1] H. Gerber, "Bestimmung der zulässigen Spannungen in
+       Eisen-Constructionen," *Z. Bayer. Archit. Ing.-Ver.*, vol. 6,
+       pp. 101-110, 1874.
+    .. [2] N. E. Dowling, *Mechanical Behavior of Materials*, 4th ed.
+       Boston, MA, USA: Pearson, 2013, sec. 9.7.
+    """
+    ratio = np.asarray(stress_mean, dtype=np.float64) / ultimate_strength
+    return _divide(stress_amplitude, _ratio_denominator(ratio * ratio))
+
+
+def soderberg(stress_amplitude, stress_mean, yield_strength):
+    r"""
+    Equivalent fully reversed amplitude by the Soderberg line.
+
+    Returns :math:`\sigma_{ar} = \sigma_a / (1 - \sigma_m / S_y)`, ``inf``
+    where :math:`\sigma_m \ge S_y`. [MPa]
+
+    References
+    ----------
+    .. [1] C. R. Soderberg, "Factor of safety and working stress," *Trans.
+       ASME*, vol. 52, pp. 13-28, 1930.
+    """
+    ratio = np.asarray(stress_mean, dtype=np.float64) / yield_strength
+    return _divide(stress_amplitude, _ratio_denominator(ratio))
+
+
+def morrow(stress_amplitude, stress_mean, fatigue_strength_coefficient):
+    r"""
+    Equivalent fully reversed amplitude by Morrow's mean-stress correction.
+
+    Returns :math:`\sigma_{ar} = \sigma_a / (1 - \sigma_m / \sigma_f')`,
+    ``inf`` where :math:`\sigma_m \ge \sigma_f'`. [MPa]
+
+    Parameters
+    ----------
+    fatigue_strength_coefficient : float
+        :math:`\sigma_f'` of the material's Basquin curve. [MPa]
+
+    References
+    ----------
+    .. [1] J. Morrow, "Fatigue properties of metals," in *Fatigue Design
+       Handbook*, AE-4. Warrendale, PA, USA: SAE, 1968, sec. 3.2.
+    """
+    ratio = np.asarray(stress_mean, dtype=np.float64) / fatigue_strength_coefficient
+    return _divide(stress_amplitude, _ratio_denominator(ratio))
+
+
+def smith_watson_topper(stress_amplitude, stress_mean):
+    r"""
+    Equivalent fully reversed amplitude by Smith, Watson and Topper.
+
+    Returns :math:`\sigma_{ar} = \sqrt{\sigma_{max}\,\sigma_a}` with
+    :math:`\sigma_{max} = \sigma_m + \sigma_a`; zero (no damage) where
+    :math:`\sigma_{max} \le 0`. [MPa]
+
+    References
+    ----------
+    .. [1] K. N. Smith, P. Watson, and T. H. Topper, "A stress-strain function
+       for the fatigue of metals," *J. Mater.*, vol. 5, no. 4, pp. 767-778, 1970.
+    """
+    a = np.asarray(stress_amplitude, dtype=np.float64)
+    smax = np.asarray(stress_mean, dtype=np.float64) + a
+    return np.sqrt(np.where(smax > 0.0, smax * a, 0.0))
+
+
+def walker(stress_amplitude, stress_mean, walker_exponent):
+    r"""
+    Equivalent fully reversed amplitude by Walker's relation.
+
+    Returns :math:`\sigma_{ar} = \sigma_{max}^{1-\gamma}\,\sigma_a^{\gamma}`;
+    zero where :math:`\sigma_{max} \le 0`. :math:`\gamma = 0.5` is
+    Smith-Watson-Topper. [MPa]
+
+    Parameters
+    ----------
+    walker_exponent : float
+        :math:`\gamma`, in (0, 1]. [-]
+
+    References
+    ----------
+    .. [1] K. Walker, "The effect of stress ratio during crack propagation
+       and fatigue for 2024-T3 and 7075-T6 aluminum," in *Effects of
+       Environment and Complex Load History on Fatigue Life*, ASTM STP 462,
+       1970, pp. 1-14. doi:10.1520/STP32032S
+    """
+    a = np.asarray(stress_amplitude, dtype=np.float64)
+    smax = np.asarray(stress_mean, dtype=np.float64) + a
+    pos = smax > 0.0
+    with np.errstate(divide="ignore", invalid="ignore"):
+        out = np.power(np.where(pos, smax, 1.0), 1.0 - walker_exponent) * np.power(
+            a, walker_exponent)
+    return np.where(pos, out, 0.0)
+
+
+#: name -> (function, the strength parameter it needs or None)
+MEAN_STRESS_METHODS = {
+    "none": (none, None),
+    "goodman": (goodman, "ultimate_strength"),
+    "gerber": (gerber, "ultimate_strength"),
+    "soderberg": (soderberg, "yield_strength"),
+    "morrow": (morrow, "fatigue_strength_coefficient"),
+    "smith_watson_topper": (smith_watson_topper, None),
+    "walker": (walker, "walker_exponent"),
+}
+
+# Methods whose formula rewards a compressive mean (a lower amplitude).
+_REWARDS_COMPRESSION = {"goodman", "soderberg", "morrow"}
+# Methods that take a compressive mean through the policy at all.
+_MEAN_BASED = _REWARDS_COMPRESSION | {"gerber"}
+
+
+def check_strengths(ultimate_strength=None, yield_strength=None,
+                    fatigue_strength_coefficient=None, walker_exponent=None) -> None:
+    """Raise :class:`InvalidParameter` for impossible material values."""
+    for name, value in (("ultimate_strength", ultimate_strength),
+                        ("yield_strength", yield_strength),
+                        ("fatigue_strength_coefficient", fatigue_strength_coefficient)):
+        if value is not None and (not np.isfinite(value) or value <= 0):
+            raise InvalidParameter(f"{name} {value} MPa must be positive and finite",
+                                   field=name, value=value, limit=0.0)
+    if (ultimate_strength is not None and yield_strength is not None
+            and yield_strength > ultimate_strength):
+        raise InvalidParameter(
+            f"yield_strength {yield_strength} MPa exceeds ultimate_strength "
+            f"{ultimate_strength} MPa", field="yield_strength", value=yield_strength,
+            limit=ultimate_strength)
+    if walker_exponent is not None and not (0.0 < walker_exponent <= 1.0):
+        raise InvalidParameter(f"walker_exponent {walker_exponent} must be in (0, 1]",
+                               field="walker_exponent", value=walker_exponent,
+                               limit=[0.0, 1.0])
+
+
+def equivalent_amplitude(stress_amplitude, stress_mean, method: str = "goodman", *,
+                         ultimate_strength: float | None = None,
+                         yield_strength: float | None = None,
+                         fatigue_strength_coefficient: float | None = None,
+                         walker_exponent: float | None = None,
+                         compressive_mean: str = "no_benefit"):
+    """
+    Equivalent fully reversed amplitude by a method chosen at run time.
+
+    Parameters
+    ----------
+    stress_amplitude, stress_mean : array-like
+        Amplitude and mean of each cycle. [MPa]
+    method : str
+        A key of :data:`MEAN_STRESS_METHODS`.
+    ultimate_strength, yield_strength, fatigue_strength_coefficient : float
+        Strengths, as the method needs them. [MPa]
+    walker_exponent : float
+        Walker's gamma, for ``walker``. [-]
+    compressive_mean : {"no_benefit", "zero", "formula"}
+        ``no_benefit`` (default, common practice): Goodman, Soderberg and
+        Morrow take no credit for a compressive mean (it counts as zero);
+        Gerber keeps its symmetric form. ``zero``: every mean-based method
+        counts a compressive mean as zero. ``formula``: the equations as
+        written. Smith-Watson-Topper and Walker work on the peak stress and
+        are not affected.
+
+    Returns
+    -------
+    (amplitude, overload) : (ndarray, ndarray of bool)
+        Equivalent amplitude [MPa] (``inf`` at breakdown) and, per cycle,
+        whether it is a static overload: past the model's breakdown, or
+        a peak above ``ultimate_strength`` where that is given.
+
+    Raises
+    ------
+    UnknownMethod
+        Unknown ``method`` or ``compressive_mean`` (the valid names are listed).
+    InvalidParameter
+        A strength the method needs is missing, or a strength is impossible.
+    """
+    if method not in MEAN_STRESS_METHODS:
+        raise unknown("mean_stress_method", method, MEAN_STRESS_METHODS)
+    if compressive_mean not in COMPRESSIVE_MEAN_POLICIES:
+        raise unknown("compressive_mean", compressive_mean, COMPRESSIVE_MEAN_POLICIES)
+    check_strengths(ultimate_strength, yield_strength, fatigue_strength_coefficient,
+                    walker_exponent)
+    func, needs = MEAN_STRESS_METHODS[method]
+    params = {"ultimate_strength": ultimate_strength, "yield_strength": yield_strength,
+              "fatigue_strength_coefficient": fatigue_strength_coefficient,
+              "walker_exponent": walker_exponent}
+    if needs is not None and params[needs] is None:
+        unit = "" if needs == "walker_exponent" else " (MPa)"
+        raise InvalidParameter(f"mean_stress_method {method!r} needs {needs}{unit}",
+                               field=needs)
+    amp = np.asarray(stress_amplitude, dtype=np.float64)
+    mean = np.asarray(stress_mean, dtype=np.float64)
+    used_mean = mean
+    if method in _MEAN_BASED and (
+            compressive_mean == "zero"
+            or (compressive_mean == "no_benefit" and method in _REWARDS_COMPRESSION)):
+        used_mean = np.maximum(mean, 0.0)
+    out = func(amp, used_mean, params[needs]) if needs else func(amp, used_mean)
+    overload = ~np.isfinite(out)
+    if ultimate_strength is not None:
+        overload |= (mean + amp) > ultimate_strength
+    out = np.where(overload, np.inf, out)
+    return out, overload

@@ -1,0 +1,190 @@
+"""Published design S-N curves, selectable by their published designations.
+
+Designations are ``<code>:<class>``, e.g. ``EN1993-1-9:71``,
+``IIW:FAT90``, ``DNV-RP-C203:D``. Each entry carries its source. Welded
+details in the as-welded condition are assessed on stress range without a
+mean-stress correction: these curves already contain high residual stress.
+"""
+
+from __future__ import annotations
+
+from functools import lru_cache
+
+import numpy as np
+
+from .errors import InvalidParameter, unknown
+from .sn_curve import SNCurve
+
+_EN = ("EN 1993-1-9:2005, Eurocode 3: Design of steel structures - Part 1-9: "
+       "Fatigue, sec. 7.1 and Fig. 7.1 (normal stress) / Fig. 7.2 (shear)")
+_IIW = ("A. Hobbacher, Recommendations for Fatigue Design of Welded Joints and "
+        "Components, IIW document XIII-2460-13, 2nd ed. Springer, 2016, sec. 3.2 "
+        "(slopes and knee point from memory)")
+_DNV = ("DNV-RP-C203, Fatigue design of offshore steel structures, DNV, 2016, "
+        "Table 2-1 (S-N curves in air; values from memory)")
+
+#: EN 1993-1-9 detail categories for normal stress, Delta sigma_C at 2e6. [MPa]
+EN1993_NORMAL = (160, 140, 125, 112, 100, 90, 80, 71, 63, 56, 50, 45, 40, 36)
+#: EN 1993-1-9 detail categories for shear, Delta tau_C at 2e6. [MPa]
+EN1993_SHEAR = (100, 80)
+#: IIW FAT classes for normal stress in steel, range at 2e6. [MPa]
+IIW_NORMAL = (160, 140, 125, 112, 100, 90, 80, 71, 63, 56, 50, 45, 40, 36, 32, 28, 25)
+#: IIW FAT classes for shear stress in steel. [MPa]
+IIW_SHEAR = (100, 80)
+
+#: DNV-RP-C203 curves in air: (m1, log a1, m2, log a2, thickness exponent k).
+#: Fatigue limit at 1e7 cycles; reference thickness 25 mm for welded joints.
+DNV_AIR = {
+    "B1": (4.0, 15.117, 5.0, 17.146, 0.00),
+    "B2": (4.0, 14.885, 5.0, 16.856, 0.00),
+    "C": (3.0, 12.592, 5.0, 16.320, 0.05),
+    "C1": (3.0, 12.449, 5.0, 16.081, 0.10),
+    "C2": (3.0, 12.301, 5.0, 15.835, 0.15),
+    "D": (3.0, 12.164, 5.0, 15.606, 0.20),
+    "E": (3.0, 12.010, 5.0, 15.350, 0.20),
+    "F": (3.0, 11.855, 5.0, 15.091, 0.25),
+    "F1": (3.0, 11.699, 5.0, 14.832, 0.25),
+    "F3": (3.0, 11.546, 5.0, 14.576, 0.25),
+    "G": (3.0, 11.398, 5.0, 14.330, 0.25),
+    "W1": (3.0, 11.261, 5.0, 14.101, 0.25),
+    "W2": (3.0, 11.107, 5.0, 13.845, 0.25),
+    "W3": (3.0, 10.970, 5.0, 13.617, 0.25),
+}
+DNV_KNEE_CYCLES = 1e7
+DNV_REFERENCE_THICKNESS_MM = 25.0
+
+
+def en1993_normal(category: float) -> SNCurve:
+    r"""
+    EN 1993-1-9 curve for a detail category under normal stress.
+
+    Notes
+    -----
+    :math:`N = 2\cdot10^6 (\Delta\sigma_C/\Delta\sigma)^3` down to the
+    constant-amplitude limit :math:`\Delta\sigma_D = (2/5)^{1/3}\Delta\sigma_C`
+    at :math:`5\cdot10^6`; then :math:`m = 5` down to the cut-off
+    :math:`\Delta\sigma_L = (5/100)^{1/5}\Delta\sigma_D` at :math:`10^8`.
+
+    References
+    ----------
+    .. [1] EN 1993-1-9:2005, sec. 7.1, eq. (7.1)-(7.2), Fig. 7.1.
+    """
+    return SNCurve((3.0, 5.0), (5e6,), float(category), 2e6, cutoff_cycles=1e8,
+                   name=f"EN1993-1-9:{category:g}", source=_EN, fatigue_limit_cycles=5e6,
+                   notes=("assess as-welded details on stress range without mean-stress "
+                          "correction",))
+
+
+def en1993_shear(category: float) -> SNCurve:
+    r"""
+    EN 1993-1-9 curve for shear: :math:`m = 5` from :math:`\Delta\tau_C` at
+    :math:`2\cdot10^6` to the cut-off at :math:`10^8`.
+
+    References
+    ----------
+    .. [1] EN 1993-1-9:2005, sec. 7.1, Fig. 7.2.
+    """
+    return SNCurve((5.0,), (), float(category), 2e6, cutoff_cycles=1e8,
+                   name=f"EN1993-1-9:shear-{category:g}", source=_EN)
+
+
+def iiw_normal(fat: float) -> SNCurve:
+    """IIW curve for normal stress: m = 3 to the knee at 1e7, m = 5 beyond.
+
+    The knee is the constant-amplitude limit; the slope 5 below it is the
+    recommendation for variable-amplitude loading (from memory).
+    """
+    return SNCurve((3.0, 5.0), (1e7,), float(fat), 2e6, name=f"IIW:FAT{fat:g}",
+                   source=_IIW, fatigue_limit_cycles=1e7,
+                   notes=("IIW recommends an allowable damage sum of 0.5 for variable "
+                          "amplitude (from memory)",))
+
+
+def iiw_shear(fat: float) -> SNCurve:
+    """IIW curve for shear stress: m = 5 to the knee at 1e8, m = 22 beyond."""
+    return SNCurve((5.0, 22.0), (1e8,), float(fat), 2e6, name=f"IIW:shear-FAT{fat:g}",
+                   source=_IIW, fatigue_limit_cycles=1e8)
+
+
+def dnv_air(designation: str) -> SNCurve:
+    r"""
+    DNV-RP-C203 curve in air (before any thickness correction).
+
+    Notes
+    -----
+    :math:`\log N = \log \bar a_1 - m_1 \log \Delta\sigma` for
+    :math:`N \le 10^7`, :math:`\log \bar a_2 - m_2 \log \Delta\sigma` beyond;
+    no cut-off.
+
+    References
+    ----------
+    .. [1] DNV-RP-C203, 2016, Table 2-1.
+    """
+    m1, loga1, m2, _loga2, k = DNV_AIR[designation]
+    s_knee = 10 ** ((loga1 - np.log10(DNV_KNEE_CYCLES)) / m1)
+    return SNCurve((m1, m2), (DNV_KNEE_CYCLES,), float(s_knee), DNV_KNEE_CYCLES,
+                   name=f"DNV-RP-C203:{designation}", source=_DNV,
+                   fatigue_limit_cycles=DNV_KNEE_CYCLES,
+                   notes=(f"thickness exponent k = {k:g} above "
+                          f"{DNV_REFERENCE_THICKNESS_MM:g} mm",))
+
+
+@lru_cache(maxsize=1)
+def _catalogue() -> dict:
+    entries = {}
+    for c in EN1993_NORMAL:
+        entries[f"EN1993-1-9:{c}"] = (en1993_normal, c)
+    for c in EN1993_SHEAR:
+        entries[f"EN1993-1-9:shear-{c}"] = (en1993_shear, c)
+    for c in IIW_NORMAL:
+        entries[f"IIW:FAT{c}"] = (iiw_normal, c)
+    for c in IIW_SHEAR:
+        entries[f"IIW:shear-FAT{c}"] = (iiw_shear, c)
+    for d in DNV_AIR:
+        entries[f"DNV-RP-C203:{d}"] = (dnv_air, d)
+    return entries
+
+
+def designations() -> list[str]:
+    """Every catalogue designation, in catalogue order."""
+    return list(_catalogue())
+
+
+def catalogue_curve(designation: str) -> SNCurve:
+    """The published curve for ``designation``.
+
+    Raises
+    ------
+    UnknownMethod
+        If the designation is not in the catalogue (the message lists them).
+    """
+    entry = _catalogue().get(designation)
+    if entry is None:
+        raise unknown("curve", designation, designations())
+    builder, arg = entry
+    return builder(arg)
+
+
+def thickness_factor(designation: str, thickness_mm: float,
+                     reference_thickness_mm: float = DNV_REFERENCE_THICKNESS_MM) -> float:
+    r"""
+    DNV-RP-C203 thickness factor on the stress range.
+
+    Returns :math:`(t/t_{ref})^k` for :math:`t > t_{ref}`, else 1. The
+    applied stress ranges are multiplied by it (equivalently the curve is
+    lowered). [-]
+
+    References
+    ----------
+    .. [1] DNV-RP-C203, 2016, sec. 2.4.3, eq. (2.4.3).
+    """
+    if not designation.startswith("DNV-RP-C203:"):
+        raise InvalidParameter(f"a thickness correction applies to DNV-RP-C203 curves, "
+                               f"not {designation!r}", field="thickness_mm", value=thickness_mm)
+    if not np.isfinite(thickness_mm) or thickness_mm <= 0:
+        raise InvalidParameter(f"thickness_mm {thickness_mm} must be positive",
+                               field="thickness_mm", value=thickness_mm, limit=0.0)
+    k = DNV_AIR[designation.split(":", 1)[1]][4]
+    if thickness_mm <= reference_thickness_mm:
+        return 1.0
+    return float((thickness_mm / reference_thickness_mm) ** k)
