@@ -1,0 +1,32 @@
+# The two commands of the README: `make demo` and `make test`.
+PYTHON ?= python3
+VENV   := .venv
+BIN    := $(VENV)/bin
+# Tool caches stay inside the checkout, never in $HOME.
+export NUMBA_CACHE_DIR ?= $(CURDIR)/.cache/numba
+export MPLCONFIGDIR    ?= $(CURDIR)/.cache/matplotlib
+
+.PHONY: demo test bench bench-quick clean
+
+$(BIN)/.installed: pyproject.toml
+	$(PYTHON) -m venv $(VENV)
+	$(BIN)/pip install --quiet --upgrade pip
+	$(BIN)/pip install --quiet -e '.[test]'
+	touch $@
+
+demo: $(BIN)/.installed          ## install, then count and assess the bundled demo
+	$(BIN)/cycleledger demo
+
+test: $(BIN)/.installed          ## install, then run the whole test suite
+	$(BIN)/python -m pytest -q -p no:cacheprovider --basetemp=.cache/pytest
+
+bench-quick: $(BIN)/.installed   ## the benchmarks' short runs
+	$(BIN)/python tests/benchmarks/bench_counting.py --quick
+	$(BIN)/python tests/benchmarks/bench_assessment.py --quick
+
+bench: $(BIN)/.installed         ## the benchmarks' full runs (several minutes)
+	$(BIN)/python tests/benchmarks/bench_counting.py
+	$(BIN)/python tests/benchmarks/bench_assessment.py
+
+clean:
+	rm -rf $(VENV) .cache examples/data

@@ -1,0 +1,197 @@
+"""The ``cycleledger`` command.
+
+Subcommands
+-----------
+assess   count and assess the channels of a CSV or Parquet file, print a table
+demo     write the bundled demo recording and assess it
+curves   list the published S-N curves the catalogue holds
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import math
+import sys
+from pathlib import Path
+
+
+def _fmt(v, digits=3) -> str:
+    if v is None:
+        return "-"
+    if isinstance(v, float):
+        if math.isinf(v):
+            return "inf"
+        if v == 0:
+            return "0"
+        if abs(v) >= 1e5 or abs(v) < 1e-3:
+            return f"{v:.{digits}e}"
+        return f"{v:.{digits}g}" if abs(v) < 1 else f"{v:,.{max(digits - 2, 1)}f}"
+    return str(v)
+
+
+def _read_table(path: Path):
+    import pandas as pd
+
+    if path.suffix.lower() in (".parquet", ".pq"):
+        return pd.read_parquet(path)
+    return pd.read_csv(path)
+
+
+def assess_file(path: Path, config: dict) -> dict:
+    """Assess every configured channel of a recording; returns the report dict."""
+    import numpy as np
+
+    from service.engine import units
+    from service.engine.damage import assess
+    import pandas as pd
+
+    from service.engine.errors import InvalidLoadHistory, InvalidParameter
+    from service.engine.rainflow import astm_e1049
+    from service.engine.settings import point_from_dict
+
+    df = _read_table(path)
+    time_col = config.get("time_column", "time_s")
+    duration = None
+    if time_col in df.columns:
+        t = df[time_col].to_numpy(dtype=float)
+        if t.size > 1:
+            duration = float((t[-1] - t[0]) * t.size / (t.size - 1))
+    elif config.get("sample_rate_hz"):
+        duration = len(df) / float(config["sample_rate_hz"])
+    points = config.get("points") or {c: {} for c in df.columns if c != time_col}
+    defaults = {k: v for k, v in config.items() if k in ("curve", "mean_stress_method")}
+    report = {"file": str(path), "duration_s": duration, "points": {}}
+    for name, settings in points.items():
+        if name not in df.columns:
+            raise InvalidParameter(f"channel {name!r} is not in {path.name}; it has "
+                                   f"{', '.join(map(str, df.columns))}", field="points")
+        merged = {**defaults, **settings}
+        curve, opts, estimate = point_from_dict(merged)
+        raw = pd.to_numeric(df[name], errors="coerce").to_numpy(dtype=float)
+        bad = np.flatnonzero(np.isnan(raw) & df[name].notna().to_numpy())
+        if bad.size:
+            raise InvalidLoadHistory(
+                f"channel {name!r} row {int(bad[0])} is {df[name].iloc[bad[0]]!r}, not a number",
+                sample_index=int(bad[0]), channel=name)
+        stress = units.to_mpa(raw, config.get("unit", "MPa"), config.get("youngs_modulus"))
+        gate = float(config.get("gate_fraction", 0.0)) * float(np.ptp(stress))
+        table = astm_e1049(stress, gate=gate)
+        result = assess(table, curve, opts, duration_s=duration)
+        entry = result.summary()
+        entry.update(curve=curve.name, curve_source=curve.source,
+                     top_cycles=result.top_cycles, cautions=list(result.cautions))
+        if estimate is not None:
+            entry["estimate"] = estimate.as_dict()
+        report["points"][name] = entry
+    return report
+
+
+def print_report(report: dict, out=None) -> None:
+    """The per-point table and the cautions, for people."""
+    out = out or sys.stdout
+    cols = [("point", 16), ("curve", 22), ("cycles", 9), ("max range", 10),
+            ("damage", 10), ("life rep.", 10), ("life h", 10), ("reserve", 8),
+            ("eq. range", 10), ("flags", 20)]
+    print(f"{report['file']}  (duration {_fmt(report['duration_s'])} s; stresses in MPa)",
+          file=out)
+    print("".join(f"{c:<{w}}" for c, w in cols), file=out)
+    for name, p in report["points"].items():
+        row = [name, p["curve"], _fmt(p["cycles_counted"]), _fmt(p["max_range"]),
+               _fmt(p["damage"]), _fmt(p["life_repeats"]), _fmt(p["life_hours"]),
+               _fmt(p["reserve_factor"]), _fmt(p["equivalent_range"]),
+               ",".join(p["flags"]) or "-"]
+        print("".join(f"{str(v):<{w}}" for v, (_, w) in zip(row, cols)), file=out)
+    print("\nCautions:", file=out)
+    seen = []
+    for p in report["points"].values():
+        for c in p["cautions"]:
+            if c not in seen:
+                seen.append(c)
+    for c in seen:
+        print(f"  - {c}", file=out)
+
+
+def _cmd_assess(args) -> int:
+    config = json.loads(Path(args.points).read_text()) if args.points else {}
+    for key in ("unit", "youngs_modulus", "curve", "mean_stress_method", "gate_fraction",
+                "sample_rate_hz"):
+        value = getattr(args, key, None)
+        if value is not None:
+            config[key] = value
+    if not config.get("points") and not config.get("curve"):
+        print("error: give --curve or a --points file naming each channel's curve",
+              file=sys.stderr)
+        return 2
+    report = assess_file(Path(args.file), config)
+    if args.json:
+        json.dump(report, sys.stdout, indent=2, default=_json_default)
+        print()
+    else:
+        print_report(report)
+    failed = any("static_overload" in p["flags"] for p in report["points"].values())
+    return 1 if failed else 0
+
+
+def _json_default(v):
+    if isinstance(v, float) and not math.isfinite(v):
+        return None
+    return str(v)
+
+
+def _cmd_demo(args) -> int:
+    here = Path(__file__).resolve().parent.parent / "examples"
+    sys.path.insert(0, str(here))
+    import make_demo  # noqa: E402  (the seeded generator lives with the examples)
+
+    csv = make_demo.write(Path(args.out) if args.out else make_demo.DEFAULT_CSV)
+    config = json.loads((here / "loader_arm_points.json").read_text())
+    report = assess_file(csv, config)
+    print_report(report)
+    return 0
+
+
+def _cmd_curves(args) -> int:
+    from service.engine.sn_catalogue import catalogue_curve, designations
+
+    for d in designations():
+        c = catalogue_curve(d)
+        knees = ", ".join(f"{r:.1f} MPa @ {n:.0e}" for r, n in zip(c.knee_ranges, c.knee_cycles))
+        cut = f"; cut-off {c.cutoff_range:.1f} MPa @ {c.cutoff_cycles:.0e}" if c.cutoff_cycles else ""
+        print(f"{d:<24} m={'/'.join(f'{m:g}' for m in c.slopes):<6} "
+              f"{c.reference_range:.1f} MPa @ {c.reference_cycles:.0e}; knees {knees or '-'}{cut}")
+    return 0
+
+
+def main(argv=None) -> int:
+    parser = argparse.ArgumentParser(prog="cycleledger", description=__doc__.splitlines()[0])
+    sub = parser.add_subparsers(dest="command", required=True)
+    p = sub.add_parser("assess", help="assess the channels of a recording")
+    p.add_argument("file", help="CSV (header row; optional time_s column) or Parquet")
+    p.add_argument("--points", help="JSON file with settings per channel")
+    p.add_argument("--curve", help="catalogue designation for every channel")
+    p.add_argument("--mean-stress-method", dest="mean_stress_method")
+    p.add_argument("--unit", help="unit of the samples (default MPa)")
+    p.add_argument("--youngs-modulus", dest="youngs_modulus", type=float,
+                   help="E in MPa, for strain units")
+    p.add_argument("--gate-fraction", dest="gate_fraction", type=float)
+    p.add_argument("--sample-rate-hz", dest="sample_rate_hz", type=float)
+    p.add_argument("--json", action="store_true", help="machine-readable output")
+    p.set_defaults(func=_cmd_assess)
+    p = sub.add_parser("demo", help="write and assess the bundled demo recording")
+    p.add_argument("--out", help="where to write the demo CSV")
+    p.set_defaults(func=_cmd_demo)
+    p = sub.add_parser("curves", help="list the catalogue of published S-N curves")
+    p.set_defaults(func=_cmd_curves)
+    args = parser.parse_args(argv)
+    from service.engine.errors import EngineError
+
+    try:
+        return args.func(args)
+    except (EngineError, FileNotFoundError) as exc:
+        print(f"error: {exc}", file=sys.stderr)
+        return 2
+
+
+if __name__ == "__main__":
+    sys.exit(main())

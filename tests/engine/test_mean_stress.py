@@ -1,0 +1,131 @@
+"""Mean-stress corrections against their defining equations."""
+
+import math
+
+import numpy as np
+import pytest
+from hypothesis import given
+from hypothesis import strategies as st
+
+from service.engine import InvalidParameter, UnknownMethod
+from service.engine import mean_stress as ms
+
+A, M, SU, SY, SF = 100.0, 50.0, 400.0, 250.0, 900.0
+
+
+@pytest.mark.parametrize("method, kwargs, expected", [
+    # Sources: the defining equations as compiled in N. E. Dowling, Mechanical
+    # Behavior of Materials, 4th ed., sec. 9.7 (from memory), each cited in
+    # the function's References.
+    ("none", {}, 100.0),
+    ("goodman", {"ultimate_strength": SU}, 100.0 / (1 - 50 / 400)),      # 114.2857
+    ("gerber", {"ultimate_strength": SU}, 100.0 / (1 - (50 / 400) ** 2)),  # 101.5873
+    ("soderberg", {"yield_strength": SY}, 100.0 / (1 - 50 / 250)),         # 125.0
+    ("morrow", {"fatigue_strength_coefficient": SF}, 100.0 / (1 - 50 / 900)),
+    ("smith_watson_topper", {}, math.sqrt(150.0 * 100.0)),                 # 122.474
+    ("walker", {"walker_exponent": 0.5}, math.sqrt(150.0 * 100.0)),
+    ("walker", {"walker_exponent": 0.7}, 150.0 ** 0.3 * 100.0 ** 0.7),
+])
+def test_each_method_against_its_equation(method, kwargs, expected):
+    out, over = ms.equivalent_amplitude([A], [M], method, **kwargs)
+    assert out[0] == pytest.approx(expected, rel=1e-14)
+    assert not over[0]
+
+
+def test_goodman_worked_numbers():
+    # Regression pin worked by hand: sigma_a 100, sigma_m 50, Su 400 gives
+    # 100 / 0.875 = 114.2857 MPa.
+    assert ms.goodman(100.0, 50.0, 400.0) == pytest.approx(114.285714, rel=1e-6)
+
+
+amps = st.floats(0.0, 500.0)
+means = st.floats(-300.0, 300.0)
+
+
+@given(st.floats(0.0, 390.0))
+def test_zero_mean_returns_the_amplitude(a):
+    # Common practice: every correction is the identity at zero mean (peaks
+    # kept below Su: above it the cycle is a static overload by design).
+    for method, kw in [("goodman", {"ultimate_strength": SU}), ("gerber", {"ultimate_strength": SU}),
+                       ("soderberg", {"yield_strength": SY}),
+                       ("morrow", {"fatigue_strength_coefficient": SF}), ("none", {})]:
+        out, _ = ms.equivalent_amplitude([a], [0.0], method, **kw)
+        assert out[0] == pytest.approx(a, rel=1e-12, abs=1e-12)
+    # SWT and Walker at zero mean: sqrt(a * a) = a.
+    out, _ = ms.equivalent_amplitude([a], [0.0], "smith_watson_topper")
+    assert out[0] == pytest.approx(a, rel=1e-12, abs=1e-12)
+
+
+@given(amps, st.floats(0.0, 399.0))
+def test_goodman_at_least_gerber_for_tensile_means(a, m):
+    # Common practice: the Goodman line lies inside the Gerber parabola.
+    assert ms.goodman(a, m, SU) >= ms.gerber(a, m, SU) - 1e-9
+
+
+@given(amps, means, st.sampled_from(sorted(ms.MEAN_STRESS_METHODS)),
+       st.sampled_from(ms.COMPRESSIVE_MEAN_POLICIES))
+def test_never_nan_never_negative(a, m, method, policy):
+    kw = {"ultimate_strength": SU, "yield_strength": SY, "fatigue_strength_coefficient": SF,
+          "walker_exponent": 0.6}
+    out, over = ms.equivalent_amplitude([a], [m], method, compressive_mean=policy, **kw)
+    assert not np.isnan(out[0]) and out[0] >= 0
+    assert over[0] == (math.isinf(out[0]))
+
+
+def test_breakdown_is_a_static_overload_not_a_number():
+    out, over = ms.equivalent_amplitude([10.0, 10.0], [400.0, 250.0], "goodman",
+                                        ultimate_strength=SU)
+    assert math.isinf(out[0]) and over[0]
+    # sigma_max 260 below Su: a finite, large correction.
+    assert out[1] == pytest.approx(10.0 / (1 - 250 / 400)) and not over[1]
+    out, over = ms.equivalent_amplitude([10.0], [250.0], "soderberg", yield_strength=SY,
+                                        ultimate_strength=SU)
+    assert math.isinf(out[0]) and over[0]
+
+
+def test_peak_above_ultimate_is_an_overload_for_every_method():
+    out, over = ms.equivalent_amplitude([300.0], [150.0], "smith_watson_topper",
+                                        ultimate_strength=SU)
+    assert over[0] and math.isinf(out[0])
+
+
+def test_compressive_mean_policies():
+    a, m = [100.0], [-200.0]
+    g = lambda policy, method="goodman": ms.equivalent_amplitude(  # noqa: E731
+        a, m, method, ultimate_strength=SU, compressive_mean=policy)[0][0]
+    assert g("no_benefit") == 100.0                       # no credit taken
+    assert g("formula") == pytest.approx(100.0 / 1.5)     # credit as written
+    assert g("zero") == 100.0
+    # Gerber is even in the mean: penalised under the default policy.
+    assert g("no_benefit", "gerber") == pytest.approx(100.0 / (1 - 0.25))
+    assert g("zero", "gerber") == 100.0
+
+
+def test_swt_no_damage_when_peak_is_compressive():
+    assert ms.smith_watson_topper(50.0, -60.0) == 0.0
+    assert ms.walker(50.0, -60.0, 0.6) == 0.0
+
+
+@pytest.mark.parametrize("kwargs, field", [
+    ({"method": "goodman"}, "ultimate_strength"),
+    ({"method": "soderberg"}, "yield_strength"),
+    ({"method": "goodman", "ultimate_strength": -5.0}, "ultimate_strength"),
+    ({"method": "goodman", "ultimate_strength": 300.0, "yield_strength": 350.0}, "yield_strength"),
+    ({"method": "walker", "walker_exponent": 1.5}, "walker_exponent"),
+])
+def test_bad_strengths_name_the_field(kwargs, field):
+    with pytest.raises(InvalidParameter) as err:
+        ms.equivalent_amplitude([1.0], [1.0], **kwargs)
+    assert err.value.field == field
+
+
+def test_yield_above_ultimate_message_has_both_values():
+    with pytest.raises(InvalidParameter) as err:
+        ms.check_strengths(ultimate_strength=300.0, yield_strength=350.0)
+    assert "350.0" in str(err.value) and "300.0" in str(err.value)
+
+
+def test_unknown_method_lists_valid_ones():
+    with pytest.raises(UnknownMethod) as err:
+        ms.equivalent_amplitude([1.0], [1.0], "goodmann")
+    assert "goodman" in err.value.valid and "'goodmann'" in str(err.value)

@@ -1,0 +1,33 @@
+"""The engine stays free of web, storage and cluster imports (STYLE sec. 1)."""
+
+import ast
+from pathlib import Path
+
+import pytest
+
+ENGINE = Path(__file__).resolve().parent.parent / "service" / "engine"
+FORBIDDEN = {"flask", "werkzeug", "sqlite3", "pyarrow", "dask", "distributed", "service.api",
+             "service.store", "service.batch"}
+
+
+def _imports(path: Path):
+    tree = ast.parse(path.read_text(), filename=str(path))
+    for node in ast.walk(tree):
+        if isinstance(node, ast.Import):
+            for alias in node.names:
+                yield alias.name
+        elif isinstance(node, ast.ImportFrom) and node.module and node.level == 0:
+            yield node.module
+
+
+@pytest.mark.parametrize("path", sorted(ENGINE.glob("*.py")), ids=lambda p: p.name)
+def test_engine_module_imports_nothing_outside_its_layer(path):
+    bad = [m for m in _imports(path)
+           if any(m == f or m.startswith(f + ".") for f in FORBIDDEN)]
+    assert not bad, f"{path.name} imports {bad}"
+
+
+def test_engine_public_names_exist():
+    import service.engine as engine
+    for name in engine.__all__:
+        assert hasattr(engine, name), name
