@@ -343,6 +343,17 @@ def _points(x: np.ndarray, state: CountingState | None, gate: float, final: bool
     return codes, int(k), pre_v, pre_i, after
 
 
+def _capacity(points: int, residue: int) -> int:
+    """Rows to allocate for the cycles of ``points`` new turning points.
+
+    Rows = (points + start half cycles + residue) / 2 - 1 for a whole
+    history; the last two terms grow like the log of the length on random
+    loads, so 4096 spare rows almost always avoid a grow-and-copy, which
+    would hold two copies of the table at once.
+    """
+    return points // 2 + residue + 4096
+
+
 def _columns(rows: int, keep=None, m: int = 0) -> list[np.ndarray]:
     """Five cycle columns of ``rows`` rows (copying ``keep[:m]`` over).
 
@@ -444,7 +455,7 @@ def count_block(samples, state: CountingState | None = None, *, gate: float = 0.
         sv[:sp] = state.residue_values
         si[:sp] = state.residue_indices
     table, rv, ri = _stack(codes, k, x, offset, pre_v, pre_i, sv, si, sp, True,
-                           final, k // 2 + sp + 16)
+                           final, _capacity(k, sp))
     return table, CountingState(gate, offset + x.shape[0], *after, rv, ri)
 
 
@@ -531,7 +542,7 @@ def _repeating_block(x: np.ndarray, gate: float) -> CycleTable:
     seq_i = np.concatenate([idx[j:], idx[:j], idx[j:j + 1]])
     codes2, k2, pre_v, pre_i, _ = _points(seq_v, None, gate, True)
     table, _, _ = _stack(codes2, k2, seq_v, 0, pre_v, pre_i, np.empty(64),
-                         np.empty(64, np.int64), 0, False, True, k2 // 2 + 16)
+                         np.empty(64, np.int64), 0, False, True, _capacity(k2, 0))
     return CycleTable(table.stress_from, table.stress_to, table.count,
                       seq_i[table.start_index], seq_i[table.end_index])
 
