@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import math
 from concurrent.futures import ThreadPoolExecutor
-from dataclasses import asdict, dataclass, field
+from dataclasses import dataclass, field, fields
 
 import numpy as np
 
@@ -110,7 +110,8 @@ class AssessmentOptions:
                                    field="top_cycles", value=self.top_cycles, limit=0)
 
     def echo(self) -> dict:
-        return asdict(self)
+        """The options as a plain dict (every value is a scalar or a string)."""
+        return {f.name: getattr(self, f.name) for f in fields(self)}
 
 
 @dataclass(frozen=True)
@@ -409,7 +410,7 @@ def assess(table: CycleTable, curve: SNCurve, options: AssessmentOptions | None 
         life_cycles=float(life * total_count), reserve_factor=reserve,
         equivalent_range=eq_range, cycles_counted=total_count, max_range=float(max_range),
         overload_cycles=int(overloads), flags=tuple(flags), top_cycles=top,
-        cautions=cautions, options=opts.echo(), curve=curve.describe(),
+        cautions=cautions, options=opts.echo(), curve=dict(curve.description),
         damage_per_cycle=per_cycle)
 
 

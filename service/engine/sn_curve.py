@@ -11,6 +11,7 @@ fatigue limit act on this one object, so every source of curve behaves alike.
 from __future__ import annotations
 
 from dataclasses import dataclass, field, replace
+from functools import cached_property
 
 import numpy as np
 
@@ -203,6 +204,11 @@ class SNCurve:
         return replace(self, slopes=slopes + (2.0 * m_last - 1.0,), knee_cycles=knees + (nd,),
                        cutoff_cycles=None,
                        notes=self.notes + (f"Haibach slope {2 * m_last - 1:g} below the limit",))
+
+    @cached_property
+    def description(self) -> dict:
+        """:meth:`describe`, computed once per curve (treat as read-only)."""
+        return self.describe()
 
     def describe(self) -> dict:
         """Plain-JSON description: segments, knees, limits and the source."""
