@@ -15,10 +15,10 @@ from dataclasses import dataclass, field, fields
 import numpy as np
 
 from . import _damage_kernels as _dk
-from .errors import InvalidParameter
+from .errors import InvalidLoadHistory, InvalidParameter
 from .mean_stress import (COMPRESSIVE_MEAN_POLICIES, MEAN_STRESS_METHODS,
                           check_strengths, equivalent_amplitude)
-from .rainflow import CycleTable, astm_e1049, as_history
+from .rainflow import CycleTable, astm_e1049
 from .sn_curve import SNCurve
 
 #: Shown with every result: what the numbers are and are not.
@@ -443,15 +443,11 @@ def assess_many(histories, curve: SNCurve, options: AssessmentOptions | None = N
     def one(item):
         name, samples = item
         try:
-            x = as_history(samples)
-            return name, assess_history(x, curve, opts, gate=gate, residue=residue,
+            return name, assess_history(samples, curve, opts, gate=gate, residue=residue,
                                         duration_s=duration_s)
-        except InvalidParameter:
-            raise
-        except ValueError as exc:
-            if hasattr(exc, "channel"):
-                exc.channel = name
-                exc.details["channel"] = name
+        except InvalidLoadHistory as exc:
+            exc.channel = name
+            exc.details["channel"] = name
             raise
 
     items = list(histories.items())

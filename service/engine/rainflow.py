@@ -442,6 +442,12 @@ def count_block(samples, state: CountingState | None = None, *, gate: float = 0.
         gate = state.gate
     else:
         gate = resolve_gate(None, gate)
+    return _count(x, state, gate, final)
+
+
+def _count(x: np.ndarray, state: CountingState | None, gate: float,
+           final: bool) -> tuple[CycleTable, CountingState]:
+    """Both passes over a validated block with a resolved gate."""
     offset = 0 if state is None else state.samples_seen
     codes, k, pre_v, pre_i, after = _points(x, state, gate, final)
     if state is None:
@@ -524,7 +530,7 @@ def astm_e1049(samples, *, gate: float = 0.0, gate_fraction: float | None = None
     x = as_history(samples)
     g = resolve_gate(x, gate, gate_fraction)
     if residue == "half_cycles":
-        table, _ = count_block(x, None, gate=g, final=True)
+        table, _ = _count(x, None, g, True)
         return table
     return _repeating_block(x, g)
 
