@@ -1,9 +1,17 @@
-"""Compiled damage evaluation: mean-stress correction, S-N curve and Miner in one loop.
+"""Compiled damage evaluation: mean-stress correction, S-N curve and Miner.
 
 The numpy functions in ``mean_stress.py`` and ``sn_curve.py`` are the
-definitions; this loop evaluates the same formulas in the same order without
-temporaries, because the reserve-factor search evaluates the whole history
-several times. ``tests/engine/test_damage.py`` checks that the two agree.
+definitions; these loops evaluate the same formulas without temporaries,
+because the reserve-factor search evaluates the whole history several times.
+``tests/engine/test_damage.py`` checks that the two agree.
+
+Why the loops look the way they do: each is a straight loop over a chunk of
+cycles with selects instead of branches, one loop per mean-stress method and
+per curve segment, so LLVM turns it into SIMD code. That needs numpy's error
+model (numba's default division checks for zero and blocks vectorising) and
+re-association for the sums (``fastmath`` without ``nnan``/``ninf``: infinite
+ranges mark static overloads and must survive). Re-associated sums differ from
+a left-to-right sum by rounding only (~1e-15 relative).
 """
 
 from __future__ import annotations
@@ -12,104 +20,262 @@ import math
 
 import numpy as np
 
-from ._numba import kernel
+from ._numba import kernel, njit
 
 #: Codes of the mean-stress methods inside the kernel.
 METHOD_CODES = {"none": 0, "goodman": 1, "gerber": 2, "soderberg": 3, "morrow": 4,
                 "smith_watson_topper": 5, "walker": 6}
 
+#: Cycles per chunk: the scratch row of equivalent ranges stays in L1.
+_CHUNK = 1024
+
+_simd = njit(cache=True, nogil=True, error_model="numpy",
+             fastmath={"reassoc", "nsz", "contract"})
+
+
+@njit(cache=True, nogil=True, inline="always", error_model="numpy",
+      fastmath={"reassoc", "nsz", "contract"})
+def _ipow(x, m):
+    # x**m for a whole m in 1..31 by binary powering with selects: a fixed
+    # five-step loop that vectorises; within a few ulps of pow.
+    r = 1.0
+    p = x
+    for b in range(5):
+        r = r * p if (m >> b) & 1 else r
+        p = p * p
+    return r
+
+
+def _whole(m: float) -> int:
+    """``m`` as an int when :func:`_ipow` can raise to it, else 0."""
+    return int(m) if float(m).is_integer() and 1 <= m <= 31 else 0
+
+
+@_simd
+def _equivalent_ranges(frm, to, lo, hi, scale, method, param, clip, ultimate,
+                       range_factor, sr):
+    """``sr[i - lo]`` = corrected range ``2 sigma_ar range_factor`` of cycle i.
+
+    Static overloads (breakdown of the correction, or a peak above
+    ``ultimate``) get ``inf``. Returns the number of overloads.
+    """
+    n = hi - lo
+    half = 0.5 * scale
+    two = 2.0 * range_factor
+    inf = math.inf
+    # Every branch is one straight loop so that each vectorises; the sum of
+    # the ranges is inf exactly when some cycle is an overload.
+    acc = 0.0
+    if method == 0:
+        for j in range(n):
+            f = frm[lo + j]
+            t = to[lo + j]
+            a = abs(f - t) * half
+            v = inf if (f + t) * half + a > ultimate else two * a
+            sr[j] = v
+            acc += v
+    elif method == 5:
+        for j in range(n):
+            f = frm[lo + j]
+            t = to[lo + j]
+            a = abs(f - t) * half
+            smax = (f + t) * half + a
+            v = two * math.sqrt(smax * a) if smax > 0.0 else 0.0
+            v = inf if smax > ultimate else v
+            sr[j] = v
+            acc += v
+    elif method == 6:
+        for j in range(n):
+            f = frm[lo + j]
+            t = to[lo + j]
+            a = abs(f - t) * half
+            smax = (f + t) * half + a
+            v = 0.0
+            if smax > 0.0:
+                v = two * math.pow(smax, 1.0 - param) * math.pow(a, param)
+            v = inf if smax > ultimate else v
+            sr[j] = v
+            acc += v
+    else:
+        inv = 1.0 / param
+        gerber = method == 2
+        for j in range(n):
+            f = frm[lo + j]
+            t = to[lo + j]
+            a = abs(f - t) * half
+            mean = (f + t) * half
+            mu = max(mean, 0.0) if clip else mean
+            r = mu * inv
+            den = 1.0 - r * r if gerber else 1.0 - r
+            v = two * a / den if den > 0.0 else inf
+            v = 0.0 if a == 0.0 else v
+            v = inf if mean + a > ultimate else v
+            sr[j] = v
+            acc += v
+    over = 0
+    if acc == inf:
+        for j in range(n):
+            over += sr[j] == inf
+    return over
+
+
+@_simd
+def _segment_damage(sr, n, cnt, lo, inv_s, c, m, whole, s_lo, s_hi, d):
+    """Damage of ranges ``sr[:n]`` on one segment [s_lo, s_hi) of the curve.
+
+    Adds ``cnt[lo + j] * (sr / S_a)^m / N_a`` into ``d[j]`` for the ranges on
+    the segment. Returns the segment's damage.
+    """
+    total = 0.0
+    # The catalogues' slopes 3 and 5 get loops of their own (two or three
+    # multiplies instead of the five-step power).
+    if whole == 3:
+        for j in range(n):
+            s = sr[j]
+            q = s * inv_s
+            on = (s >= s_lo) & (s < s_hi)
+            v = cnt[lo + j] * (q * q * q) * c if on else 0.0
+            d[j] += v
+            total += v
+    elif whole == 5:
+        for j in range(n):
+            s = sr[j]
+            q = s * inv_s
+            q2 = q * q
+            on = (s >= s_lo) & (s < s_hi)
+            v = cnt[lo + j] * (q2 * q2 * q) * c if on else 0.0
+            d[j] += v
+            total += v
+    elif whole:
+        for j in range(n):
+            s = sr[j]
+            on = (s >= s_lo) & (s < s_hi)
+            v = cnt[lo + j] * _ipow(s * inv_s, whole) * c if on else 0.0
+            d[j] += v
+            total += v
+    else:
+        for j in range(n):
+            s = sr[j]
+            if (s >= s_lo) & (s < s_hi):
+                v = cnt[lo + j] * math.pow(s * inv_s, m) * c
+                d[j] += v
+                total += v
+    return total
+
+
+@_simd
+def _power_sum(sr, n, cnt, lo, inv_rf, k, whole):
+    """Sum of ``cnt * (sr * inv_rf)^k`` over the finite, positive ranges."""
+    total = 0.0
+    if whole:
+        for j in range(n):
+            s = sr[j]
+            ok = (s > 0.0) & (s < math.inf)
+            total += cnt[lo + j] * _ipow(s * inv_rf, whole) if ok else 0.0
+    else:
+        for j in range(n):
+            s = sr[j]
+            if (s > 0.0) & (s < math.inf):
+                total += cnt[lo + j] * math.pow(s * inv_rf, k)
+    return total
+
+
+@_simd
+def _copy_damage(sr, d, n, out, lo):
+    for j in range(n):
+        out[lo + j] = math.inf if sr[j] == math.inf else d[j]
+
+
+# The inputs of these two are never NaN (histories are checked finite and the
+# corrections cannot make one), which lets the max reductions vectorise.
+@njit(cache=True, nogil=True, fastmath={"reassoc", "nsz", "nnan"})
+def _max_finite(sr, n):
+    out = 0.0
+    for j in range(n):
+        s = sr[j]
+        out = max(out, s if s < math.inf else 0.0)
+    return out
+
+
+@njit(cache=True, nogil=True, fastmath={"reassoc", "nsz", "nnan"})
+def _max_range(frm, to, lo, hi):
+    out = 0.0
+    for i in range(lo, hi):
+        out = max(out, abs(frm[i] - to[i]))
+    return out
+
 
 @kernel
-def _power(x, m):
-    # Whole slopes (3, 4, 5, 22 in the codes) by multiplication: several
-    # times faster than pow and within an ulp or two of it.
-    k = int(m)
-    if k == m and 0 < k <= 32:
-        out = x
-        for _ in range(k - 1):
-            out *= x
-        return out
-    return math.pow(x, m)
-
-
-@kernel
-def fused_damage(frm, to, cnt, scale, method, param, clip, ultimate, range_factor,
-                 anchor_s, anchor_n, slopes, knee_s, cutoff_s, eq_slope, per_cycle):
+def damage_pass(frm, to, cnt, scale, method, param, clip, ultimate, range_factor,
+                seg_inv_s, seg_c, seg_m, seg_whole, seg_lo, seg_hi, eq_slope, eq_whole,
+                per_cycle, extras):
     """Miner damage of cycles ``frm -> to`` with every stress times ``scale``.
 
-    Writes per-cycle damage into ``per_cycle`` unless it is empty. Returns
-    ``(damage, overloads, slope_weight, max_inv_life, eq_sum, max_range)``:
-    the damage (inf with any overload), the number of overload cycles, the
-    damage-weighted slope sum (d log D / d log s without cut-off effects is
-    ``slope_weight / damage``), the largest 1/N, the sum of
-    ``count * (2 sigma_ar)^eq_slope`` and the largest unscaled range.
+    The curve comes as segments: on ``[seg_lo[j], seg_hi[j])`` a range S
+    fails after ``(S * seg_inv_s[j])^-seg_m[j] / seg_c[j]`` cycles
+    (``seg_whole[j]``: the slope as an int for the fast power, or 0).
+    Writes per-cycle damage into ``per_cycle`` unless it is empty.
+
+    Returns ``(damage, overloads, slope_weight, max_range_on_curve, eq_sum,
+    max_range)``: damage (inf with any overload), overload cycles, the
+    damage-weighted slope sum (``slope_weight / damage`` is d log D / d log s
+    away from the cut-off), and, with ``extras``, the largest finite corrected
+    range, ``sum count (S / range_factor)^eq_slope`` and the largest unscaled
+    range.
     """
     n = frm.shape[0]
     write_d = per_cycle.shape[0] > 0
-    nk = knee_s.shape[0]
+    nseg = seg_m.shape[0]
+    sr = np.empty(_CHUNK)
+    d = np.empty(_CHUNK)
     total = 0.0
     weight = 0.0
-    max_inv = 0.0
+    over = 0
+    max_sr = 0.0
     eq_sum = 0.0
     max_range = 0.0
-    over = 0
-    for i in range(n):
-        rng = abs(frm[i] - to[i])
-        if rng > max_range:
-            max_range = rng
-        a = 0.5 * rng
-        mean = 0.5 * (frm[i] + to[i])
-        a = a * scale
-        mean = mean * scale
-        mu = mean
-        if clip and mu < 0.0:
-            mu = 0.0
-        if method == 0:
-            sar = a
-        elif method == 5 or method == 6:
-            smax = mean + a
-            if smax > 0.0:
-                if method == 5:
-                    sar = math.sqrt(smax * a)
-                else:
-                    sar = math.pow(smax, 1.0 - param) * math.pow(a, param)
-            else:
-                sar = 0.0
-        else:
-            r = mu / param
-            if method == 2:
-                den = 1.0 - r * r
-            else:
-                den = 1.0 - r
-            if a == 0.0:
-                sar = 0.0
-            elif den > 0.0:
-                sar = a / den
-            else:
-                sar = math.inf
-        d = 0.0
-        if not (sar < math.inf) or mean + a > ultimate:
-            over += 1
-            d = math.inf
-        else:
-            if sar > 0.0:
-                eq_sum += cnt[i] * _power(2.0 * sar, eq_slope)
-            s = 2.0 * sar * range_factor
-            if s > 0.0 and s >= cutoff_s:
-                seg = 0
-                while seg < nk and s < knee_s[seg]:
-                    seg += 1
-                inv = _power(s / anchor_s[seg], slopes[seg]) / anchor_n[seg]
-                d = cnt[i] * inv
-                weight += d * slopes[seg]
-                if inv > max_inv:
-                    max_inv = inv
+    inv_rf = 1.0 / range_factor
+    for lo in range(0, n, _CHUNK):
+        hi = min(lo + _CHUNK, n)
+        k = hi - lo
+        over += _equivalent_ranges(frm, to, lo, hi, scale, method, param, clip, ultimate,
+                                   range_factor, sr)
+        d[:k] = 0.0
+        for g in range(nseg):
+            part = _segment_damage(sr, k, cnt, lo, seg_inv_s[g], seg_c[g], seg_m[g],
+                                   seg_whole[g], seg_lo[g], seg_hi[g], d)
+            total += part
+            weight += part * seg_m[g]
         if write_d:
-            per_cycle[i] = d
-        total += d
+            _copy_damage(sr, d, k, per_cycle, lo)
+        if extras:
+            eq_sum += _power_sum(sr, k, cnt, lo, inv_rf, eq_slope, eq_whole)
+            max_sr = max(max_sr, _max_finite(sr, k))
+            max_range = max(max_range, _max_range(frm, to, lo, hi))
     if over:
         total = math.inf
-    return total, over, weight, max_inv, eq_sum, max_range
+    return total, over, weight, max_sr, eq_sum, max_range
+
+
+def curve_segments(curve):
+    """The curve as ``damage_pass`` segment arrays ``(inv_s, c, m, whole, lo, hi)``.
+
+    Segment j runs from its lower knee (or the cut-off) up to the knee above;
+    on it N = N_a (S / S_a)^-m through its anchor (N_a, S_a).
+    """
+    anchors_n, anchors_s = curve._anchors()
+    slopes = np.asarray(curve.slopes, np.float64)
+    knees = anchors_s[1:]
+    cut = float(curve.cutoff_range)
+    nseg = slopes.shape[0]
+    hi = np.concatenate([[math.inf], knees])
+    lo = np.concatenate([knees, [0.0]])
+    # A range must be above zero and at or above the cut-off to do damage.
+    lo = np.maximum(lo, max(cut, np.nextafter(0.0, 1.0)))
+    inv_s = 1.0 / anchors_s[:nseg]
+    c = 1.0 / anchors_n[:nseg]
+    whole = np.array([_whole(m) for m in slopes], np.int64)
+    return inv_s, c, slopes, whole, lo, hi
 
 
 @kernel

@@ -210,11 +210,13 @@ def equivalent_range(stress_range, count, slope: float = 3.0,
 # ---------------------------------------------------------------------------- kernel glue
 
 
+_NO_ROWS = np.empty(0)
+
+
 class _Evaluator:
     """Damage of the history scaled by ``s``, through the compiled loop."""
 
     def __init__(self, table: CycleTable, curve: SNCurve, opts: AssessmentOptions):
-        anchors_n, anchors_s = curve._anchors()
         method = opts.mean_stress_method
         needs = MEAN_STRESS_METHODS[method][1]
         param = {"ultimate_strength": opts.ultimate_strength,
@@ -224,24 +226,31 @@ class _Evaluator:
         clip = method in ("goodman", "soderberg", "morrow", "gerber") and (
             opts.compressive_mean == "zero"
             or (opts.compressive_mean == "no_benefit" and method != "gerber"))
+        self.curve = curve
         self.args = (_dk.METHOD_CODES[method], float(param), bool(clip),
                      float(opts.ultimate_strength) if opts.ultimate_strength else math.inf,
                      opts.thickness_factor * opts.strength_factor,
-                     anchors_s, anchors_n, np.asarray(curve.slopes, np.float64),
-                     anchors_s[1:].copy(), float(curve.cutoff_range),
-                     float(opts.equivalent_slope))
+                     *_dk.curve_segments(curve), float(opts.equivalent_slope),
+                     _dk._whole(opts.equivalent_slope))
         self.load_factor = opts.load_factor
         self.cols = (table.stress_from, table.stress_to, table.count)
         self.calls = 0
 
-    def __call__(self, s: float, per_cycle=None):
-        """``(damage, overloads, slope, max_inv_life, eq_sum, max_range)`` at scale s."""
+    def __call__(self, s: float, per_cycle=None, extras: bool = False):
+        """``(damage, overloads, slope, max_inv_life, eq_sum, max_range)`` at scale s.
+
+        Per-cycle damage goes into ``per_cycle`` if given; the last three are
+        computed only with ``extras`` (else 0).
+        """
         self.calls += 1
-        out = _dk.fused_damage(*self.cols, s * self.load_factor, *self.args,
-                               np.empty(0) if per_cycle is None else per_cycle)
+        out = _dk.damage_pass(*self.cols, s * self.load_factor, *self.args,
+                              _NO_ROWS if per_cycle is None else per_cycle, extras)
         d, over, weight = out[0], out[1], out[2]
         slope = weight / d if 0 < d < math.inf else None
-        return (d, over, slope) + tuple(out[3:])
+        max_inv = 0.0
+        if extras and out[3] > 0:
+            max_inv = 1.0 / float(self.curve.cycles_to_failure(out[3]))
+        return (d, over, slope, max_inv) + tuple(out[4:])
 
     def restrict(self, s_max: float, damage_at_s_max=None) -> None:
         """Keep only cycles that do damage at scale ``s_max``.
@@ -256,7 +265,7 @@ class _Evaluator:
             d = np.empty(self.cols[0].shape[0])
             self(s_max, d)
         keep = d > 0
-        if keep.mean() < 0.5:
+        if np.count_nonzero(keep) < 0.5 * keep.shape[0]:
             self.cols = tuple(np.ascontiguousarray(c[keep]) for c in self.cols)
 
 
@@ -293,8 +302,12 @@ def _reserve_factor(evaluate, target: float, first, per_cycle=None) -> float | N
         else:
             x_hi, fhi = x, f
             if not restricted:
-                evaluate.restrict(s, per_cycle if s == 1.0 else None)
                 restricted = True
+                # More cycles damage at s than at 1: if half already do at 1,
+                # restricting at s would keep more than half, so skip it.
+                if s <= 1.0 or per_cycle is None or (
+                        np.count_nonzero(per_cycle) < 0.5 * per_cycle.shape[0]):
+                    evaluate.restrict(s, per_cycle if s == 1.0 else None)
         if x_hi - x_lo < 1e-10:
             break
         if (prev is not None and math.isfinite(f) and math.isfinite(prev[1])
@@ -306,6 +319,12 @@ def _reserve_factor(evaluate, target: float, first, per_cycle=None) -> float | N
         prev = (x, f)
         if slope and math.isfinite(f):
             x_new = x - f / slope
+            if abs(f) < 1e-6 and x_lo < x_new < x_hi:
+                # Within 1e-6 of the root (in log damage) the step's error is
+                # |f| times the slope's relative error (a few % for the local
+                # slope, far less for a secant): ~1e-8 of the factor at most,
+                # so take it without another pass over the cycles.
+                return math.exp(x_new)
         elif flo is not None and fhi is not None and math.isfinite(flo) and math.isfinite(fhi):
             x_new = x_hi - fhi * (x_hi - x_lo) / (fhi - flo)
         else:
@@ -373,7 +392,7 @@ def assess(table: CycleTable, curve: SNCurve, options: AssessmentOptions | None 
     evaluate = _Evaluator(table, curve, opts)
     n = len(table)
     per_cycle = np.empty(n)
-    first = evaluate(1.0, per_cycle)
+    first = evaluate(1.0, per_cycle, extras=True)
     damage, overloads, _, max_inv_life, eq_sum, max_range = first
     total_count = table.total_count
     flags = []
