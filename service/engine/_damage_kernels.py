@@ -16,6 +16,7 @@ a left-to-right sum by rounding only (~1e-15 relative).
 
 from __future__ import annotations
 
+import functools
 import math
 
 import numpy as np
@@ -257,6 +258,7 @@ def damage_pass(frm, to, cnt, scale, method, param, clip, ultimate, range_factor
     return total, over, weight, max_sr, eq_sum, max_range
 
 
+@functools.lru_cache(maxsize=256)
 def curve_segments(curve):
     """The curve as ``damage_pass`` segment arrays ``(inv_s, c, m, whole, lo, hi)``.
 
@@ -275,7 +277,19 @@ def curve_segments(curve):
     inv_s = 1.0 / anchors_s[:nseg]
     c = 1.0 / anchors_n[:nseg]
     whole = np.array([_whole(m) for m in slopes], np.int64)
-    return inv_s, c, slopes, whole, lo, hi
+    out = (inv_s, c, slopes, whole, lo, hi)
+    for a in out:
+        a.flags.writeable = False  # shared between calls through the cache
+    return out
+
+
+def inverse_life(segments, s: float) -> float:
+    """1/N of range ``s`` on the segments of :func:`curve_segments` (0 below them)."""
+    inv_s, c, m, _, lo, hi = segments
+    for g in range(m.shape[0]):
+        if lo[g] <= s < hi[g]:
+            return float((s * inv_s[g]) ** m[g] * c[g])
+    return 0.0
 
 
 @kernel

@@ -44,6 +44,9 @@ FLAG_CAUTIONS = {
 
 _LOW_CYCLE_LIMIT = 1e4
 
+#: Mean samples per point above which assess_many uses its worker threads.
+_THREADED_SAMPLES = 50_000
+
 
 @dataclass(frozen=True)
 class AssessmentOptions:
@@ -249,7 +252,7 @@ class _Evaluator:
         slope = weight / d if 0 < d < math.inf else None
         max_inv = 0.0
         if extras and out[3] > 0:
-            max_inv = 1.0 / float(self.curve.cycles_to_failure(out[3]))
+            max_inv = _dk.inverse_life(self.args[5:11], out[3])
         return (d, over, slope, max_inv) + tuple(out[4:])
 
     def restrict(self, s_max: float, damage_at_s_max=None) -> None:
@@ -449,14 +452,18 @@ def assess_many(histories, curve: SNCurve, options: AssessmentOptions | None = N
     column per point) in, ``{name: PointAssessment}`` out.
 
     The compiled kernels release the GIL, so ``workers`` threads count
-    points side by side. A point that fails validation raises for the whole
+    points side by side once points are long enough (on average
+    ``_THREADED_SAMPLES`` samples) to pay for handing the GIL back and
+    forth; shorter points run one after another, which measured faster. A point that fails validation raises for the whole
     call, naming the point (``channel``) so the caller can drop or fix it.
     """
     if isinstance(histories, np.ndarray):
         if histories.ndim != 2:
             raise InvalidParameter("a history array must be 2-D: samples x points",
                                    field="samples")
-        histories = {str(i): histories[:, i] for i in range(histories.shape[1])}
+        # One blocked transpose beats copying each strided column.
+        cols = np.asfortranarray(histories)
+        histories = {str(i): cols[:, i] for i in range(cols.shape[1])}
     opts = options or AssessmentOptions()
 
     def one(item):
@@ -470,7 +477,8 @@ def assess_many(histories, curve: SNCurve, options: AssessmentOptions | None = N
             raise
 
     items = list(histories.items())
-    if workers <= 1 or len(items) < 4:
+    sizes = [np.size(v) for _, v in items]
+    if workers <= 1 or len(items) < 4 or sum(sizes) < _THREADED_SAMPLES * len(items):
         return dict(one(it) for it in items)
     with ThreadPoolExecutor(max_workers=workers) as pool:
         return dict(pool.map(one, items))
