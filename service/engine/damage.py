@@ -484,6 +484,19 @@ def assess_many(histories, curve: SNCurve, options: AssessmentOptions | None = N
         return dict(pool.map(one, items))
 
 
+def warm_up() -> None:
+    """Compile (or load from cache) the damage kernels for every method."""
+    from .sn_curve import basquin_range
+
+    x = np.array([0.0, 200.0, -100.0, 300.0, -200.0, 100.0])
+    curve = basquin_range(3.0, 1e12)
+    for method in MEAN_STRESS_METHODS:
+        opts = AssessmentOptions(mean_stress_method=method, ultimate_strength=900.0,
+                                 yield_strength=600.0, fatigue_strength_coefficient=1200.0,
+                                 walker_exponent=0.5)
+        assess_history(x, curve, opts)
+
+
 __all__ = ["AssessmentOptions", "PointAssessment", "CAUTIONS", "palmgren_miner",
            "equivalent_range", "assess", "assess_history", "assess_many",
            "COMPRESSIVE_MEAN_POLICIES", "check_strengths"]

@@ -1,0 +1,78 @@
+"""The HTTP API: a thin Flask layer over the engine and the store.
+
+``create_app`` builds the app; views parse the request, call one function of
+``service.runs`` / ``service.store`` / the engine, and serialise the answer.
+Errors become RFC 9457 problem details in ``problems.py``.
+"""
+
+from __future__ import annotations
+
+import os
+from pathlib import Path
+
+from flask import Flask, g
+
+from service.store import parquet, sqlite
+
+from . import problems
+
+#: Environment variable naming the data directory.
+DATA_DIR_ENV = "CYCLELEDGER_DATA_DIR"
+DEFAULT_DATA_DIR = "cycleledger-data"
+
+
+def create_app(test_config: dict | None = None) -> Flask:
+    """The WSGI app. Settings (``test_config`` wins over the environment):
+
+    ``DATA_DIR``: data directory (env ``CYCLELEDGER_DATA_DIR``);
+    ``MAX_UPLOAD_MB``: largest request body before 413 (default 512);
+    ``WARM_KERNELS``: compile or load the numba kernels at start (default on).
+    """
+    app = Flask(__name__)
+    app.config.update(
+        DATA_DIR=os.environ.get(DATA_DIR_ENV, DEFAULT_DATA_DIR),
+        MAX_UPLOAD_MB=512,
+        WARM_KERNELS=True,
+        JSON_SORT_KEYS=False,
+    )
+    if test_config:
+        app.config.update(test_config)
+    app.config["MAX_CONTENT_LENGTH"] = int(float(app.config["MAX_UPLOAD_MB"]) * 2**20)
+    app.json.sort_keys = False
+    data_dir = Path(app.config["DATA_DIR"])
+    sqlite.init(data_dir)
+    parquet.sweep(data_dir)
+    if app.config["WARM_KERNELS"]:
+        from service.engine.rainflow import warm_up
+        from service.engine.damage import warm_up as warm_damage
+
+        warm_up()
+        warm_damage()
+
+    @app.teardown_appcontext
+    def _close(_exc):
+        con = g.pop("con", None)
+        if con is not None:
+            con.close()
+
+    problems.register(app)
+    from . import assessments, catalogue, histories, meta
+
+    for bp in (meta.bp, histories.bp, assessments.bp, catalogue.bp):
+        app.register_blueprint(bp)
+    return app
+
+
+def db():
+    """The request's database connection, opened on first use."""
+    if "con" not in g:
+        from flask import current_app
+
+        g.con = sqlite.connect(current_app.config["DATA_DIR"])
+    return g.con
+
+
+def data_dir() -> Path:
+    from flask import current_app
+
+    return Path(current_app.config["DATA_DIR"])

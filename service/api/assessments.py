@@ -1,0 +1,185 @@
+"""Assessments: run on a stored history or inline samples; read results."""
+
+from __future__ import annotations
+
+import csv
+import io
+
+import numpy as np
+from flask import Blueprint, Response, jsonify, request, url_for
+
+from service import runs
+from service.store import parquet, sqlite
+
+from . import data_dir, db, uploads
+from .histories import load as load_history, page_args
+from .problems import ApiProblem, MalformedBody, NotAcceptable, NotFound, UnsupportedMediaType
+
+bp = Blueprint("assessments", __name__)
+
+#: Columns of the per-point summary table (JSON fields and CSV header alike).
+SUMMARY_COLUMNS = ("point", "damage", "life_repeats", "life_hours", "life_cycles",
+                   "reserve_factor", "equivalent_range", "cycles_counted", "max_range",
+                   "overload_cycles", "runout", "flags", "curve")
+CYCLE_COLUMNS = ("stress_from", "stress_to", "count", "start_index", "end_index", "damage")
+
+
+def resource(row: dict) -> dict:
+    aid = row["id"]
+    out = {"id": aid, "history_id": row["history_id"], "created_at": row["created_at"],
+           "state": row["state"], "request": row["request"]}
+    out.update(row["result"] or {})
+    out["links"] = {
+        "self": url_for("assessments.get_one", assessment_id=aid),
+        "summary": url_for("assessments.summary", assessment_id=aid),
+        "points": {p: {"cycles": url_for("assessments.cycles", assessment_id=aid, point=p),
+                       "range_mean": url_for("assessments.range_mean", assessment_id=aid,
+                                             point=p)}
+                   for p in (row["result"] or {}).get("points", {})},
+    }
+    if row["history_id"]:
+        out["links"]["history"] = url_for("histories.get_one", history_id=row["history_id"])
+    return out
+
+
+def load(assessment_id: str) -> dict:
+    row = sqlite.get_assessment(db(), assessment_id)
+    if row is None:
+        raise NotFound(f"no assessment {assessment_id!r}", field="assessment_id")
+    return row
+
+
+@bp.post("/v1/assessments")
+def create():
+    """Assess a stored history (``history_id``) or inline ``samples``; 201 with results."""
+    if request.mimetype != "application/json":
+        raise UnsupportedMediaType("an assessment request is JSON (application/json)",
+                                   valid=["application/json"])
+    body = request.get_json(silent=True)
+    if not isinstance(body, dict):
+        raise MalformedBody("the body must be a JSON object")
+    if ("history_id" in body) == ("samples" in body):
+        raise ApiProblem("give exactly one of history_id or samples", field="history_id")
+    if "history_id" in body:
+        hid = body["history_id"]
+        if not isinstance(hid, str):
+            raise ApiProblem("history_id must be a string", field="history_id")
+        row = load_history(hid)
+        channels = parquet.read_columns(data_dir(), row["file"])
+        duration = row["duration_s"]
+    else:
+        if not isinstance(body["samples"], dict):
+            raise ApiProblem("samples must be an object {channel: [numbers]}", field="samples")
+        params = {k: body[k] for k in ("unit", "units", "youngs_modulus", "sample_rate_hz")
+                  if k in body}
+        up = uploads._validated(dict(body["samples"]), params)
+        channels, duration, hid = up.channels, up.duration_s, None
+    row = runs.run(db(), data_dir(), body, channels, duration, hid)
+    resp = jsonify(resource(row))
+    resp.status_code = 201
+    resp.headers["Location"] = resp.json["links"]["self"]
+    return resp
+
+
+@bp.get("/v1/assessments")
+def list_all():
+    limit, offset = page_args()
+    rows = sqlite.list_assessments(db(), limit, offset)
+    items = [{**r, "links": {"self": url_for("assessments.get_one", assessment_id=r["id"])}}
+             for r in rows]
+    return jsonify(items=items, limit=limit, offset=offset)
+
+
+@bp.get("/v1/assessments/<assessment_id>")
+def get_one(assessment_id: str):
+    return jsonify(resource(load(assessment_id)))
+
+
+def _format(allowed: tuple[str, ...]) -> str:
+    """``format`` query parameter, else the best of the Accept header."""
+    fmt = request.args.get("format")
+    if fmt is not None:
+        if fmt not in allowed:
+            raise ApiProblem(f"format {fmt!r} is not offered here; use one of "
+                             f"{', '.join(allowed)}", field="format", valid=list(allowed))
+        return fmt
+    mimes = {"json": "application/json", "csv": "text/csv",
+             "parquet": "application/vnd.apache.parquet"}
+    offered = [mimes[f] for f in allowed]
+    best = request.accept_mimetypes.best_match(offered, default=None) \
+        if request.accept_mimetypes else offered[0]
+    if best is None:
+        raise NotAcceptable(f"this resource is offered as {', '.join(offered)}",
+                            valid=offered)
+    return {v: k for k, v in mimes.items()}[best]
+
+
+def _csv(header, rows) -> Response:
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\n")
+    w.writerow(header)
+    w.writerows(rows)
+    return Response(buf.getvalue(), mimetype="text/csv")
+
+
+@bp.get("/v1/assessments/<assessment_id>/summary")
+def summary(assessment_id: str):
+    """One row per point: the figures a dashboard or report needs."""
+    fmt = _format(("json", "csv"))
+    points = (load(assessment_id)["result"] or {}).get("points", {})
+    rows = [{c: (p.get(c) if c != "curve" else p["curve"]["name"]) for c in SUMMARY_COLUMNS}
+            for p in points.values()]
+    if fmt == "json":
+        return jsonify(items=rows, units={"stress": "MPa", "life_hours": "h"})
+    return _csv(SUMMARY_COLUMNS, [[";".join(r[c]) if c == "flags" else
+                                   ("" if r[c] is None else r[c]) for c in SUMMARY_COLUMNS]
+                                  for r in rows])
+
+
+def _point(assessment_id: str, point: str):
+    row = load(assessment_id)
+    if point not in (row["result"] or {}).get("points", {}):
+        raise NotFound(f"assessment {assessment_id!r} has no point {point!r}", field="point")
+    return runs.point_cycles(data_dir(), row, point)
+
+
+@bp.get("/v1/assessments/<assessment_id>/points/<point>/cycles")
+def cycles(assessment_id: str, point: str):
+    """Every counted cycle of a point with its damage (JSON, CSV or Parquet)."""
+    fmt = _format(("json", "csv", "parquet"))
+    table, dmg = _point(assessment_id, point)
+    cols = {c: getattr(table, c) for c in CYCLE_COLUMNS[:-1]}
+    cols["damage"] = dmg
+    if fmt == "parquet":
+        import pyarrow as pa
+        import pyarrow.parquet as pq
+
+        buf = io.BytesIO()
+        pq.write_table(pa.table(cols), buf)
+        return Response(buf.getvalue(), mimetype="application/vnd.apache.parquet")
+    if fmt == "csv":
+        return _csv(CYCLE_COLUMNS, zip(*(cols[c].tolist() for c in CYCLE_COLUMNS)))
+    out = {c: runs.json_safe(cols[c].tolist()) for c in CYCLE_COLUMNS}
+    return jsonify(point=point, units={"stress": "MPa", "damage": "-"}, **out)
+
+
+@bp.get("/v1/assessments/<assessment_id>/points/<point>/range-mean")
+def range_mean(assessment_id: str, point: str):
+    """Range-mean matrix of a point's cycles (``range_bins``, ``mean_bins``)."""
+    fmt = _format(("json", "csv"))
+    try:
+        rb = int(request.args.get("range_bins", 32))
+        mb = int(request.args.get("mean_bins", 32))
+    except ValueError:
+        raise ApiProblem("range_bins and mean_bins must be whole numbers",
+                         field="range_bins") from None
+    if not (1 <= rb <= 1000 and 1 <= mb <= 1000):
+        raise ApiProblem("range_bins and mean_bins must be 1..1000", field="range_bins")
+    table, _ = _point(assessment_id, point)
+    m = runs.range_mean(table, rb, mb)
+    if fmt == "json":
+        return jsonify(point=point, units={"stress": "MPa", "counts": "cycles"}, **m)
+    r, me = np.asarray(m["range_edges_mpa"]), np.asarray(m["mean_edges_mpa"])
+    rows = [[r[i], r[i + 1], me[j], me[j + 1], m["counts"][i][j]]
+            for i in range(len(r) - 1) for j in range(len(me) - 1)]
+    return _csv(("range_lo_mpa", "range_hi_mpa", "mean_lo_mpa", "mean_hi_mpa", "cycles"), rows)

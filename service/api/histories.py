@@ -1,0 +1,89 @@
+"""Load histories: upload (CSV, Parquet, Arrow IPC, JSON), list, read, delete."""
+
+from __future__ import annotations
+
+import numpy as np
+from flask import Blueprint, jsonify, request, url_for
+
+from service.store import parquet, sqlite
+
+from . import data_dir, db, uploads
+from .problems import NotFound
+
+bp = Blueprint("histories", __name__)
+
+
+def resource(row: dict) -> dict:
+    """The JSON form of a stored history, with its links."""
+    out = {k: row[k] for k in ("id", "name", "created_at", "sample_count", "sample_rate_hz",
+                               "duration_s", "channels")}
+    out["links"] = {"self": url_for("histories.get_one", history_id=row["id"])}
+    return out
+
+
+def load(history_id: str) -> dict:
+    row = sqlite.get_history(db(), history_id)
+    if row is None:
+        raise NotFound(f"no history {history_id!r}", field="history_id")
+    return row
+
+
+@bp.post("/v1/histories")
+def upload():
+    """Store one recording: every channel checked and converted to MPa."""
+    up = uploads.parse(request.get_data(cache=False), request.content_type,
+                       request.args.to_dict())
+    hid = sqlite.new_id("h")
+    channels = [{"name": name, "unit": up.source_units[name], "stored_unit": "MPa",
+                 "min_mpa": float(np.min(x)), "max_mpa": float(np.max(x))}
+                for name, x in up.channels.items()]
+    rel = parquet.write_columns(data_dir(), parquet.HISTORIES, hid, up.channels)
+    row = {"id": hid, "name": up.name, "created_at": sqlite.now(),
+           "sample_count": up.sample_count, "sample_rate_hz": up.sample_rate_hz,
+           "duration_s": up.duration_s, "channels": channels, "file": rel}
+    con = db()
+    try:
+        with sqlite.write(con):
+            sqlite.insert_history(con, row)
+    except BaseException:
+        parquet.remove(data_dir(), rel)
+        raise
+    resp = jsonify(resource(row))
+    resp.status_code = 201
+    resp.headers["Location"] = resp.json["links"]["self"]
+    return resp
+
+
+@bp.get("/v1/histories")
+def list_all():
+    limit, offset = page_args()
+    rows = sqlite.list_histories(db(), limit, offset)
+    return jsonify(items=[resource(r) for r in rows], limit=limit, offset=offset)
+
+
+@bp.get("/v1/histories/<history_id>")
+def get_one(history_id: str):
+    return jsonify(resource(load(history_id)))
+
+
+@bp.delete("/v1/histories/<history_id>")
+def delete(history_id: str):
+    row = load(history_id)
+    con = db()
+    with sqlite.write(con):
+        sqlite.delete_history(con, history_id)
+    parquet.remove(data_dir(), row["file"])
+    return "", 204
+
+
+def page_args() -> tuple[int, int]:
+    from .problems import ApiProblem
+
+    try:
+        limit = int(request.args.get("limit", 100))
+        offset = int(request.args.get("offset", 0))
+    except ValueError:
+        raise ApiProblem("limit and offset must be whole numbers", field="limit") from None
+    if not (1 <= limit <= 1000) or offset < 0:
+        raise ApiProblem("limit must be 1..1000 and offset >= 0", field="limit")
+    return limit, offset

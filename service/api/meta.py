@@ -1,0 +1,57 @@
+"""Health, readiness, version, the lists of valid names, and the contract."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from flask import Blueprint, Response, jsonify
+
+import service
+from service.engine import units
+from service.engine.mean_stress import COMPRESSIVE_MEAN_POLICIES, MEAN_STRESS_METHODS
+from service.engine.rainflow import RESIDUE_TREATMENTS
+from service.engine.sn_curve import BELOW_LIMIT_TREATMENTS
+
+from . import data_dir, db
+from .problems import NotFound
+
+bp = Blueprint("meta", __name__)
+OPENAPI = Path(service.__file__).resolve().parent.parent / "openapi" / "openapi.yaml"
+
+
+@bp.get("/v1/health")
+def health():
+    """The process answers."""
+    return jsonify(status="ok")
+
+
+@bp.get("/v1/ready")
+def ready():
+    """The database answers and the data directory is writable."""
+    db().execute("SELECT 1").fetchone()
+    probe = data_dir() / ".ready"
+    probe.write_bytes(b"")
+    probe.unlink()
+    return jsonify(status="ready")
+
+
+@bp.get("/v1/version")
+def version():
+    return jsonify(name="cycleledger", version=service.__version__, api="v1")
+
+
+@bp.get("/v1/methods")
+def methods():
+    """Every name a request may use where a choice is offered."""
+    return jsonify(mean_stress_methods=sorted(MEAN_STRESS_METHODS),
+                   compressive_mean=list(COMPRESSIVE_MEAN_POLICIES),
+                   residue=list(RESIDUE_TREATMENTS),
+                   below_limit=list(BELOW_LIMIT_TREATMENTS),
+                   units=list(units.UNITS))
+
+
+@bp.get("/openapi.yaml")
+def openapi():
+    if not OPENAPI.exists():
+        raise NotFound("the OpenAPI document is not installed with this copy")
+    return Response(OPENAPI.read_bytes(), mimetype="application/yaml")

@@ -1,0 +1,227 @@
+"""Request bodies -> channels of samples in MPa.
+
+Three ways in, one result: CSV (header row, optional time column), Parquet or
+Arrow IPC (the fast path: columns arrive as float arrays, no text parsing),
+and JSON arrays. Every channel is checked (numbers, finite, same length, at
+least two samples) and converted to MPa with its unit before anything is
+stored.
+"""
+
+from __future__ import annotations
+
+import io
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from service.engine import units
+from service.engine.errors import InvalidLoadHistory, InvalidParameter, unknown
+from service.engine.rainflow import as_history
+
+from .problems import InvalidUpload, MalformedBody, UnsupportedMediaType
+
+CSV_TYPES = ("text/csv",)
+PARQUET_TYPES = ("application/vnd.apache.parquet", "application/x-parquet")
+ARROW_TYPES = ("application/vnd.apache.arrow.stream", "application/vnd.apache.arrow.file")
+JSON_TYPES = ("application/json",)
+UPLOAD_TYPES = CSV_TYPES + PARQUET_TYPES + ARROW_TYPES + JSON_TYPES
+DEFAULT_TIME_COLUMN = "time_s"
+
+
+@dataclass
+class Upload:
+    """Validated channels in MPa, with what was said about them."""
+
+    channels: dict[str, np.ndarray]
+    source_units: dict[str, str]
+    sample_rate_hz: float | None
+    name: str | None
+
+    @property
+    def sample_count(self) -> int:
+        return next(iter(self.channels.values())).shape[0]
+
+    @property
+    def duration_s(self) -> float | None:
+        if not self.sample_rate_hz:
+            return None
+        return self.sample_count / self.sample_rate_hz
+
+
+def parse(body: bytes, content_type: str, params: dict) -> Upload:
+    """Parse and validate an upload. ``params`` are the query parameters."""
+    mime = (content_type or "").split(";")[0].strip().lower()
+    if mime not in UPLOAD_TYPES:
+        raise UnsupportedMediaType(
+            f"content type {mime or '(none)'!r} is not accepted; send one of "
+            f"{', '.join(UPLOAD_TYPES)}", valid=list(UPLOAD_TYPES))
+    if not body:
+        raise InvalidUpload("the upload is empty", field="body")
+    params = dict(params)
+    if mime in JSON_TYPES:
+        columns, params = _json(body, params)
+    elif mime in CSV_TYPES:
+        columns = _csv(body)
+    else:
+        columns = _arrow(body, mime)
+    return _validated(columns, params)
+
+
+def _json(body: bytes, params: dict):
+    import json
+
+    try:
+        doc = json.loads(body)
+    except (ValueError, UnicodeDecodeError) as exc:
+        raise MalformedBody(f"the body is not valid JSON: {exc}") from None
+    if not isinstance(doc, dict) or not isinstance(doc.get("channels"), dict):
+        raise InvalidUpload('a JSON upload is an object with "channels": {name: [samples]}',
+                            field="channels")
+    for key in ("unit", "units", "youngs_modulus", "sample_rate_hz", "name", "time_column"):
+        if key in doc:
+            params[key] = doc[key]
+    columns = {}
+    for name, values in doc["channels"].items():
+        if not isinstance(values, list):
+            raise InvalidUpload(f"channel {name!r} must be an array of numbers",
+                                field="channels", channel=name)
+        columns[name] = values
+    return columns, params
+
+
+def _csv(body: bytes) -> dict:
+    import pyarrow as pa
+    from pyarrow import csv as pacsv
+
+    try:
+        table = pacsv.read_csv(io.BytesIO(body))
+    except (pa.ArrowInvalid, UnicodeDecodeError) as exc:
+        raise MalformedBody(f"the CSV could not be read: {exc}") from None
+    return _table_columns(table)
+
+
+def _arrow(body: bytes, mime: str) -> dict:
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    try:
+        if mime in PARQUET_TYPES:
+            table = pq.read_table(io.BytesIO(body))
+        elif mime.endswith("stream"):
+            table = pa.ipc.open_stream(body).read_all()
+        else:
+            table = pa.ipc.open_file(pa.BufferReader(body)).read_all()
+    except (pa.ArrowException, OSError) as exc:
+        raise MalformedBody(f"the {mime} body could not be read: {exc}") from None
+    return _table_columns(table)
+
+
+def _table_columns(table) -> dict:
+    import pyarrow as pa
+
+    out = {}
+    for name in table.column_names:
+        col = table.column(name)
+        if pa.types.is_floating(col.type) or pa.types.is_integer(col.type):
+            if col.null_count:
+                first = int(np.flatnonzero(col.is_null().to_numpy(zero_copy_only=False))[0])
+                raise InvalidLoadHistory(f"channel {name!r} sample {first} is empty",
+                                         sample_index=first, channel=name)
+            out[name] = col.to_numpy().astype(np.float64, copy=False)
+        else:
+            # Text where numbers were expected: let the engine's check name
+            # the first bad sample.
+            out[name] = col.to_pylist()
+    return out
+
+
+def _validated(columns: dict, params: dict) -> Upload:
+    time_col = params.get("time_column") or DEFAULT_TIME_COLUMN
+    rate = params.get("sample_rate_hz")
+    if rate is not None:
+        rate = _positive(rate, "sample_rate_hz")
+    time = columns.pop(time_col, None)
+    if not columns:
+        raise InvalidUpload("the upload has no channels besides the time column",
+                            field="channels")
+    if time is not None:
+        t = as_history(time, field_name=time_col)
+        step = np.diff(t)
+        if np.any(step <= 0):
+            raise InvalidUpload(f"column {time_col!r} must increase", field=time_col,
+                                sample_index=int(np.flatnonzero(step <= 0)[0]) + 1)
+        inferred = 1.0 / float(np.median(step))
+        if rate is None:
+            rate = inferred
+        elif not math.isclose(rate, inferred, rel_tol=1e-3):
+            raise InvalidParameter(
+                f"sample_rate_hz {rate} contradicts the time column ({inferred:.6g} Hz)",
+                field="sample_rate_hz", value=rate, limit=inferred)
+    unit_of = _units(params, list(columns))
+    e = params.get("youngs_modulus")
+    if e is not None:
+        e = _positive(e, "youngs_modulus")
+    out, lengths = {}, set()
+    for name, values in columns.items():
+        try:
+            x = as_history(values, field_name=name)
+        except InvalidLoadHistory as exc:
+            exc.channel = name
+            exc.details["channel"] = name
+            raise
+        bad = ~np.isfinite(x)
+        if bad.any():
+            j = int(np.flatnonzero(bad)[0])
+            raise InvalidLoadHistory(
+                f"channel {name!r} sample {j} is {x[j]}; samples must be finite numbers",
+                sample_index=j, channel=str(name))
+        lengths.add(x.shape[0])
+        out[str(name)] = units.to_mpa(x, unit_of[name], e)
+    if time is not None:
+        lengths.add(len(time))
+    if len(lengths) > 1:
+        raise InvalidUpload(f"channels differ in length: {sorted(lengths)} samples",
+                            field="channels")
+    return Upload(out, unit_of, rate, params.get("name"))
+
+
+def _units(params: dict, names: list) -> dict:
+    """Unit of each channel: ``units`` ({name: unit} or "a:MPa,b:microstrain"),
+    else ``unit`` for all. A channel without a unit is refused."""
+    per = params.get("units") or {}
+    if isinstance(per, str):
+        try:
+            per = dict(item.split(":", 1) for item in per.split(",") if item)
+        except ValueError:
+            raise InvalidParameter('units must look like "channel:unit,channel:unit"',
+                                   field="units") from None
+    if not isinstance(per, dict):
+        raise InvalidParameter("units must map channel names to units", field="units")
+    extra = set(per) - set(names)
+    if extra:
+        raise InvalidParameter(f"units names channel(s) not in the upload: "
+                               f"{', '.join(sorted(map(str, extra)))}", field="units")
+    default = params.get("unit")
+    out = {}
+    for name in names:
+        unit = per.get(name, default)
+        if not unit:
+            raise InvalidParameter(
+                f"channel {name!r} has no unit; give unit (for all channels) or units "
+                f"(one of {', '.join(units.UNITS)})", field="unit")
+        if unit not in units.UNITS:
+            raise unknown("unit", unit, units.UNITS)
+        out[name] = unit
+    return out
+
+
+def _positive(value, field: str) -> float:
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        raise InvalidParameter(f"{field} {value!r} is not a number", field=field) from None
+    if not math.isfinite(v) or v <= 0:
+        raise InvalidParameter(f"{field} {value!r} must be a positive number", field=field,
+                               value=v, limit=0.0)
+    return v

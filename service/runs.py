@@ -1,0 +1,160 @@
+"""Run an assessment request: channels + settings in, stored results out.
+
+Between the HTTP layer and the engine: resolves each point's settings (the
+same dictionaries the CLI reads, see ``engine/settings.py``), counts and
+assesses every point, turns the results into JSON-safe dictionaries and
+stores them (metadata in SQLite, cycles in Parquet). Nothing here reads a
+request; the API and, later, background jobs call :func:`run`.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+
+from service.engine import histograms
+from service.engine.damage import CAUTIONS, assess
+from service.engine.errors import InvalidParameter, unknown
+from service.engine.rainflow import RESIDUE_TREATMENTS, CycleTable, astm_e1049, resolve_gate
+from service.engine.settings import point_from_dict
+from service.store import parquet, sqlite
+
+#: Keys of an assessment request besides the samples themselves.
+REQUEST_KEYS = {"history_id", "samples", "unit", "units", "youngs_modulus", "sample_rate_hz",
+                "settings", "points", "gate", "gate_fraction", "residue"}
+
+
+@dataclass
+class PlannedPoint:
+    name: str
+    samples: np.ndarray
+    settings: dict
+
+
+def plan(request: dict, channels: dict[str, np.ndarray]) -> list[PlannedPoint]:
+    """Which channels to assess with which settings; every error before any work."""
+    unknown_keys = set(request) - REQUEST_KEYS
+    if unknown_keys:
+        raise InvalidParameter(f"unknown field(s): {', '.join(sorted(unknown_keys))}",
+                               field=sorted(unknown_keys)[0])
+    defaults = request.get("settings") or {}
+    points = request.get("points")
+    if not isinstance(defaults, dict):
+        raise InvalidParameter("settings must be an object", field="settings")
+    if points is None:
+        points = {name: {} for name in channels}
+    if not isinstance(points, dict) or not points:
+        raise InvalidParameter("points must be an object {channel: settings}", field="points")
+    out = []
+    for name, own in points.items():
+        if name not in channels:
+            raise unknown("points", name, channels)
+        if not isinstance(own, dict):
+            raise InvalidParameter(f"settings of point {name!r} must be an object",
+                                   field="points")
+        merged = {**defaults, **own}
+        point_from_dict(merged)  # validate now: nothing is counted if any point is wrong
+        out.append(PlannedPoint(name, channels[name], merged))
+    return out
+
+
+def counting_options(request: dict) -> tuple[float | None, float | None, str]:
+    gate = request.get("gate")
+    frac = request.get("gate_fraction")
+    for key, v in (("gate", gate), ("gate_fraction", frac)):
+        if v is not None and (isinstance(v, bool) or not isinstance(v, (int, float))):
+            raise InvalidParameter(f"{key} {v!r} must be a number", field=key)
+    if gate is not None and frac is not None:
+        raise InvalidParameter("give gate or gate_fraction, not both", field="gate")
+    residue = request.get("residue", "half_cycles")
+    if residue not in RESIDUE_TREATMENTS:
+        raise unknown("residue", residue, RESIDUE_TREATMENTS)
+    return gate, frac, residue
+
+
+def json_safe(value):
+    """Floats that JSON can carry: inf and NaN become None; numpy scalars become Python."""
+    if isinstance(value, dict):
+        return {str(k): json_safe(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [json_safe(v) for v in value]
+    if isinstance(value, np.generic):
+        value = value.item()
+    if isinstance(value, float) and not math.isfinite(value):
+        return None
+    return value
+
+
+def assess_point(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
+    """``(result dict, CycleTable, per-cycle damage)`` of one point."""
+    curve, opts, estimate = point_from_dict(point.settings)
+    g = resolve_gate(point.samples, gate or 0.0, gate_fraction)
+    table = astm_e1049(point.samples, gate=g, residue=residue)
+    r = assess(table, curve, opts, duration_s=duration_s)
+    out = r.summary()
+    out.update(
+        point=point.name,
+        runout=math.isinf(r.life_repeats),
+        gate_mpa=g,
+        top_cycles=r.top_cycles,
+        curve=r.curve,
+        estimate=estimate.as_dict() if estimate is not None else None,
+        settings={**r.options, "residue": residue},
+        cautions=[c for c in r.cautions if c not in CAUTIONS],
+    )
+    return json_safe(out), table, r.damage_per_cycle
+
+
+def run(con, data_dir, request: dict, channels: dict[str, np.ndarray],
+        duration_s: float | None, history_id: str | None) -> dict:
+    """Assess, store and return the assessment resource (without links)."""
+    gate, frac, residue = counting_options(request)
+    points = plan(request, channels)
+    results, cycles = {}, []
+    for p in points:
+        res, table, dmg = assess_point(p, gate, frac, residue, duration_s)
+        results[p.name] = res
+        cycles.append((p.name, table, dmg))
+    aid = sqlite.new_id("a")
+    rel = parquet.write_columns(data_dir, parquet.CYCLES, aid, _cycle_columns(cycles))
+    row = {"id": aid, "history_id": history_id, "created_at": sqlite.now(), "state": "done",
+           "request": json_safe({k: v for k, v in request.items() if k != "samples"}),
+           "result": {"points": results, "duration_s": json_safe(duration_s),
+                      "units": {"stress": "MPa", "damage": "-", "life_hours": "h",
+                                "life_cycles": "cycles"},
+                      "cautions": list(CAUTIONS)},
+           "cycles_file": rel}
+    try:
+        with sqlite.write(con):
+            sqlite.insert_assessment(con, row)
+    except BaseException:
+        parquet.remove(data_dir, rel)
+        raise
+    return row
+
+
+def _cycle_columns(cycles) -> dict:
+    names = np.concatenate([np.full(len(t), n, dtype=object) for n, t, _ in cycles]) \
+        if cycles else np.empty(0, object)
+    cols = {"point": names.astype(str)}
+    for col in ("stress_from", "stress_to", "count", "start_index", "end_index"):
+        cols[col] = np.concatenate([getattr(t, col) for _, t, _ in cycles])
+    cols["damage"] = np.concatenate([d for _, _, d in cycles])
+    return cols
+
+
+def point_cycles(data_dir, assessment: dict, point: str) -> tuple[CycleTable, np.ndarray]:
+    """The stored cycle table and per-cycle damage of one point."""
+    cols = parquet.read_columns(data_dir, assessment["cycles_file"])
+    sel = cols["point"] == point
+    table = CycleTable(*(np.ascontiguousarray(cols[c][sel]) for c in (
+        "stress_from", "stress_to", "count", "start_index", "end_index")))
+    return table, cols["damage"][sel]
+
+
+def range_mean(table: CycleTable, range_bins, mean_bins) -> dict:
+    m = histograms.range_mean_matrix(table, range_bins=range_bins, mean_bins=mean_bins)
+    return {"range_edges_mpa": m.row_edges.tolist(), "mean_edges_mpa": m.col_edges.tolist(),
+            "counts": m.counts.tolist(), "outside": m.outside}

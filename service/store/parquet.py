@@ -1,0 +1,64 @@
+"""Long arrays as Parquet files in the data directory.
+
+Files are written under a temporary name in the same folder and renamed
+into place, so a reader never sees half a file and a failed request leaves
+at most a temporary file that :func:`sweep` removes.
+"""
+
+from __future__ import annotations
+
+import os
+import uuid
+from pathlib import Path
+
+import numpy as np
+import pyarrow as pa
+import pyarrow.parquet as pq
+
+HISTORIES = "histories"
+CYCLES = "cycles"
+_TMP = ".tmp-"
+
+
+def write_columns(data_dir: str | Path, folder: str, name: str,
+                  columns: dict[str, np.ndarray]) -> str:
+    """Write ``columns`` to ``<data_dir>/<folder>/<name>.parquet``; returns the relative path."""
+    rel = f"{folder}/{name}.parquet"
+    target = Path(data_dir) / rel
+    target.parent.mkdir(parents=True, exist_ok=True)
+    tmp = target.with_name(f"{_TMP}{uuid.uuid4().hex}.parquet")
+    table = pa.table({k: pa.array(v) for k, v in columns.items()})
+    try:
+        # Uncompressed float columns: measured signals barely compress and
+        # the write then runs at disk speed.
+        pq.write_table(table, tmp, compression="none", use_dictionary=False)
+        os.replace(tmp, target)
+    except BaseException:
+        tmp.unlink(missing_ok=True)
+        raise
+    return rel
+
+
+def read_columns(data_dir: str | Path, rel: str, columns=None) -> dict[str, np.ndarray]:
+    """Columns of a stored file as numpy arrays (all, or those named)."""
+    table = pq.read_table(Path(data_dir) / rel, columns=columns)
+    return {name: table.column(name).to_numpy() for name in table.column_names}
+
+
+def read_bytes(data_dir: str | Path, rel: str) -> bytes:
+    return (Path(data_dir) / rel).read_bytes()
+
+
+def remove(data_dir: str | Path, rel: str | None) -> None:
+    if rel:
+        (Path(data_dir) / rel).unlink(missing_ok=True)
+
+
+def sweep(data_dir: str | Path) -> int:
+    """Remove temporary files left by a crash; returns how many."""
+    n = 0
+    for folder in (HISTORIES, CYCLES):
+        for p in (Path(data_dir) / folder).glob(f"{_TMP}*"):
+            p.unlink(missing_ok=True)
+            n += 1
+    return n

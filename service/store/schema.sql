@@ -1,0 +1,26 @@
+-- Metadata of the embedded store. Long arrays live in Parquet files beside
+-- the database; a row here names its file. Times are UTC ISO 8601 strings.
+PRAGMA user_version = 1;
+
+CREATE TABLE IF NOT EXISTS histories (
+    id              TEXT PRIMARY KEY,
+    name            TEXT,
+    created_at      TEXT NOT NULL,
+    sample_count    INTEGER NOT NULL,
+    sample_rate_hz  REAL,
+    duration_s      REAL,
+    channels        TEXT NOT NULL,   -- JSON: [{name, unit, min_mpa, max_mpa}, ...]
+    file            TEXT NOT NULL    -- Parquet file, relative to the data directory
+);
+
+CREATE TABLE IF NOT EXISTS assessments (
+    id              TEXT PRIMARY KEY,
+    history_id      TEXT REFERENCES histories(id) ON DELETE SET NULL,
+    created_at      TEXT NOT NULL,
+    state           TEXT NOT NULL,   -- done | failed
+    request         TEXT NOT NULL,   -- JSON: the settings as posted
+    result          TEXT,            -- JSON: per-point results
+    cycles_file     TEXT             -- Parquet file of every point's cycles
+);
+
+CREATE INDEX IF NOT EXISTS assessments_history ON assessments(history_id);

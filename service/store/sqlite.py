@@ -1,0 +1,126 @@
+"""The metadata database: one SQLite file in WAL mode in the data directory.
+
+Every write runs in ``BEGIN IMMEDIATE`` with a busy timeout, so two
+processes (or waitress threads) writing at once queue instead of failing
+with "database is locked". SQL lives here and in ``schema.sql`` only.
+"""
+
+from __future__ import annotations
+
+import json
+import sqlite3
+import uuid
+from contextlib import contextmanager
+from datetime import datetime, timezone
+from importlib import resources
+from pathlib import Path
+
+DB_NAME = "cycleledger.sqlite3"
+BUSY_TIMEOUT_S = 10.0
+
+
+def now() -> str:
+    """The current UTC time as an ISO 8601 string (seconds)."""
+    return datetime.now(timezone.utc).isoformat(timespec="seconds").replace("+00:00", "Z")
+
+
+def new_id(prefix: str) -> str:
+    """A fresh, URL-safe identifier such as ``h_3f9c0e2b1a7d``."""
+    return f"{prefix}_{uuid.uuid4().hex[:16]}"
+
+
+def connect(data_dir: str | Path) -> sqlite3.Connection:
+    """Open (creating if needed) the database of ``data_dir``."""
+    path = Path(data_dir)
+    path.mkdir(parents=True, exist_ok=True)
+    con = sqlite3.connect(path / DB_NAME, timeout=BUSY_TIMEOUT_S, isolation_level=None,
+                          check_same_thread=False)
+    con.row_factory = sqlite3.Row
+    con.execute("PRAGMA journal_mode=WAL")
+    con.execute("PRAGMA synchronous=NORMAL")
+    con.execute("PRAGMA foreign_keys=ON")
+    return con
+
+
+def init(data_dir: str | Path) -> None:
+    """Create the tables if they are missing."""
+    con = connect(data_dir)
+    try:
+        con.executescript(resources.files(__package__).joinpath("schema.sql").read_text())
+    finally:
+        con.close()
+
+
+@contextmanager
+def write(con: sqlite3.Connection):
+    """A write transaction taken up front (``BEGIN IMMEDIATE``)."""
+    con.execute("BEGIN IMMEDIATE")
+    try:
+        yield con
+    except BaseException:
+        con.execute("ROLLBACK")
+        raise
+    con.execute("COMMIT")
+
+
+# ---------------------------------------------------------------- histories
+
+
+def insert_history(con, row: dict) -> None:
+    con.execute(
+        "INSERT INTO histories (id, name, created_at, sample_count, sample_rate_hz, "
+        "duration_s, channels, file) VALUES (?, ?, ?, ?, ?, ?, ?, ?)",
+        (row["id"], row.get("name"), row["created_at"], row["sample_count"],
+         row.get("sample_rate_hz"), row.get("duration_s"), json.dumps(row["channels"]),
+         row["file"]))
+
+
+def _history(r: sqlite3.Row | None) -> dict | None:
+    if r is None:
+        return None
+    out = dict(r)
+    out["channels"] = json.loads(out["channels"])
+    return out
+
+
+def get_history(con, history_id: str) -> dict | None:
+    return _history(con.execute("SELECT * FROM histories WHERE id = ?",
+                                (history_id,)).fetchone())
+
+
+def list_histories(con, limit: int = 100, offset: int = 0) -> list[dict]:
+    rows = con.execute("SELECT * FROM histories ORDER BY created_at DESC, id LIMIT ? OFFSET ?",
+                       (limit, offset)).fetchall()
+    return [_history(r) for r in rows]
+
+
+def delete_history(con, history_id: str) -> bool:
+    return con.execute("DELETE FROM histories WHERE id = ?", (history_id,)).rowcount > 0
+
+
+# ---------------------------------------------------------------- assessments
+
+
+def insert_assessment(con, row: dict) -> None:
+    con.execute(
+        "INSERT INTO assessments (id, history_id, created_at, state, request, result, "
+        "cycles_file) VALUES (?, ?, ?, ?, ?, ?, ?)",
+        (row["id"], row.get("history_id"), row["created_at"], row["state"],
+         json.dumps(row["request"]), json.dumps(row.get("result")), row.get("cycles_file")))
+
+
+def get_assessment(con, assessment_id: str) -> dict | None:
+    r = con.execute("SELECT * FROM assessments WHERE id = ?", (assessment_id,)).fetchone()
+    if r is None:
+        return None
+    out = dict(r)
+    out["request"] = json.loads(out["request"])
+    out["result"] = json.loads(out["result"]) if out["result"] else None
+    return out
+
+
+def list_assessments(con, limit: int = 100, offset: int = 0) -> list[dict]:
+    rows = con.execute("SELECT id, history_id, created_at, state FROM assessments "
+                       "ORDER BY created_at DESC, id LIMIT ? OFFSET ?",
+                       (limit, offset)).fetchall()
+    return [dict(r) for r in rows]
