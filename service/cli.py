@@ -5,6 +5,7 @@ Subcommands
 assess   count and assess the channels of a CSV or Parquet file, print a table
 demo     write the bundled demo recording and assess it
 curves   list the published S-N curves the catalogue holds
+serve    run the HTTP service on embedded storage
 """
 
 from __future__ import annotations
@@ -163,6 +164,33 @@ def _cmd_curves(args) -> int:
     return 0
 
 
+def _cmd_serve(args) -> int:
+    import logging
+
+    from waitress import serve
+
+    from service.api import create_app
+
+    logging.basicConfig(level=logging.INFO, format="%(asctime)s %(name)s %(message)s")
+    config = {"DATA_DIR": args.data_dir} if args.data_dir else {}
+    if args.max_upload_mb is not None:
+        config["MAX_UPLOAD_MB"] = args.max_upload_mb
+    if args.job_workers is not None:
+        config["JOB_WORKERS"] = args.job_workers
+    app = create_app(config)
+    print(f"cycleledger {_version()} serving on http://{args.host}:{args.port}/v1/ "
+          f"(data in {app.config['DATA_DIR']}; Ctrl-C stops)", flush=True)
+    serve(app, host=args.host, port=args.port, threads=args.threads,
+          max_request_body_size=app.config["MAX_CONTENT_LENGTH"] + 2**20, ident="cycleledger")
+    return 0
+
+
+def _version() -> str:
+    import service
+
+    return service.__version__
+
+
 def main(argv=None) -> int:
     parser = argparse.ArgumentParser(prog="cycleledger", description=__doc__.splitlines()[0])
     sub = parser.add_subparsers(dest="command", required=True)
@@ -183,6 +211,17 @@ def main(argv=None) -> int:
     p.set_defaults(func=_cmd_demo)
     p = sub.add_parser("curves", help="list the catalogue of published S-N curves")
     p.set_defaults(func=_cmd_curves)
+    p = sub.add_parser("serve", help="run the HTTP service (waitress)")
+    p.add_argument("--host", default="127.0.0.1", help="address to listen on")
+    p.add_argument("--port", type=int, default=8350)
+    p.add_argument("--data-dir", dest="data_dir",
+                   help="data directory (default: $CYCLELEDGER_DATA_DIR or ./cycleledger-data)")
+    p.add_argument("--threads", type=int, default=8, help="request threads")
+    p.add_argument("--job-workers", dest="job_workers", type=int,
+                   help="threads running large assessments (default 1)")
+    p.add_argument("--max-upload-mb", dest="max_upload_mb", type=float,
+                   help="largest request body; larger ones get 413 (default 512)")
+    p.set_defaults(func=_cmd_serve)
     args = parser.parse_args(argv)
     from service.engine.errors import EngineError
 

@@ -108,15 +108,20 @@ def assess_point(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
 
 
 def run(con, data_dir, request: dict, channels: dict[str, np.ndarray],
-        duration_s: float | None, history_id: str | None) -> dict:
-    """Assess, store and return the assessment resource (without links)."""
+        duration_s: float | None, history_id: str | None, progress=None) -> dict:
+    """Assess, store and return the assessment row.
+
+    ``progress(done, total)`` is called after each point, if given.
+    """
     gate, frac, residue = counting_options(request)
     points = plan(request, channels)
     results, cycles = {}, []
-    for p in points:
+    for i, p in enumerate(points):
         res, table, dmg = assess_point(p, gate, frac, residue, duration_s)
         results[p.name] = res
         cycles.append((p.name, table, dmg))
+        if progress is not None:
+            progress(i + 1, len(points))
     aid = sqlite.new_id("a")
     rel = parquet.write_columns(data_dir, parquet.CYCLES, aid, _cycle_columns(cycles))
     row = {"id": aid, "history_id": history_id, "created_at": sqlite.now(), "state": "done",

@@ -26,12 +26,17 @@ def create_app(test_config: dict | None = None) -> Flask:
 
     ``DATA_DIR``: data directory (env ``CYCLELEDGER_DATA_DIR``);
     ``MAX_UPLOAD_MB``: largest request body before 413 (default 512);
+    ``ASYNC_SAMPLES``: samples x points above which an assessment runs as a
+    job (202) instead of at once (201) (default 2e6);
+    ``JOB_WORKERS``: threads running jobs (default 1);
     ``WARM_KERNELS``: compile or load the numba kernels at start (default on).
     """
     app = Flask(__name__)
     app.config.update(
         DATA_DIR=os.environ.get(DATA_DIR_ENV, DEFAULT_DATA_DIR),
         MAX_UPLOAD_MB=512,
+        ASYNC_SAMPLES=2_000_000,
+        JOB_WORKERS=1,
         WARM_KERNELS=True,
         JSON_SORT_KEYS=False,
     )
@@ -42,6 +47,14 @@ def create_app(test_config: dict | None = None) -> Flask:
     data_dir = Path(app.config["DATA_DIR"])
     sqlite.init(data_dir)
     parquet.sweep(data_dir)
+    con = sqlite.connect(data_dir)
+    try:
+        sqlite.fail_interrupted_jobs(con)
+    finally:
+        con.close()
+    from service.jobs import JobRunner
+
+    app.extensions["cycleledger.jobs"] = JobRunner(data_dir, int(app.config["JOB_WORKERS"]))
     if app.config["WARM_KERNELS"]:
         from service.engine.rainflow import warm_up
         from service.engine.damage import warm_up as warm_damage

@@ -6,7 +6,7 @@ import csv
 import io
 
 import numpy as np
-from flask import Blueprint, Response, jsonify, request, url_for
+from flask import Blueprint, Response, current_app, jsonify, request, url_for
 
 from service import runs
 from service.store import parquet, sqlite
@@ -64,21 +64,78 @@ def create():
         hid = body["history_id"]
         if not isinstance(hid, str):
             raise ApiProblem("history_id must be a string", field="history_id")
-        row = load_history(hid)
-        channels = parquet.read_columns(data_dir(), row["file"])
-        duration = row["duration_s"]
+        hist = load_history(hid)
+        names = [c["name"] for c in hist["channels"]]
+        samples, duration = hist["sample_count"], hist["duration_s"]
+        folder = data_dir()
+
+        def channels():
+            return parquet.read_columns(folder, hist["file"])
     else:
         if not isinstance(body["samples"], dict):
             raise ApiProblem("samples must be an object {channel: [numbers]}", field="samples")
         params = {k: body[k] for k in ("unit", "units", "youngs_modulus", "sample_rate_hz")
                   if k in body}
-        up = uploads._validated(dict(body["samples"]), params)
-        channels, duration, hid = up.channels, up.duration_s, None
-    row = runs.run(db(), data_dir(), body, channels, duration, hid)
+        up = uploads.validated(dict(body["samples"]), params)
+        names, samples, duration, hid = list(up.channels), up.sample_count, up.duration_s, None
+
+        def channels():
+            return up.channels
+    # Every check that needs no counting runs now: bad input is a 4xx here,
+    # never a failed job later.
+    runs.counting_options(body)
+    planned = runs.plan(body, dict.fromkeys(names))
+    if samples * len(planned) > current_app.config["ASYNC_SAMPLES"] or _prefers_async():
+        return _queue(body, channels, duration, hid, len(planned))
+    row = runs.run(db(), data_dir(), body, channels(), duration, hid)
     resp = jsonify(resource(row))
     resp.status_code = 201
     resp.headers["Location"] = resp.json["links"]["self"]
     return resp
+
+
+def _prefers_async() -> bool:
+    # RFC 7240: "Prefer: respond-async" asks for a job whatever the size.
+    return any(p.strip().lower() == "respond-async"
+               for h in request.headers.getlist("Prefer") for p in h.split(","))
+
+
+def _queue(body, channels, duration, hid, n_points):
+    from service import jobs as _jobs  # noqa: F401  (the runner lives on the app)
+
+    job_id = sqlite.new_id("j")
+    con = db()
+    with sqlite.write(con):
+        sqlite.insert_job(con, job_id, "assessment", n_points)
+    current_app.extensions["cycleledger.jobs"].submit_assessment(
+        job_id, body, channels, duration, hid)
+    resp = jsonify(job_resource(sqlite.get_job(con, job_id)))
+    resp.status_code = 202
+    resp.headers["Location"] = resp.json["links"]["self"]
+    return resp
+
+
+def job_resource(job: dict) -> dict:
+    total = job["points_total"]
+    out = {"id": job["id"], "kind": job["kind"], "state": job["state"],
+           "created_at": job["created_at"], "updated_at": job["updated_at"],
+           "progress": {"fraction": (job["points_done"] / total) if total else 0.0,
+                        "points_done": job["points_done"], "points_total": total},
+           "links": {"self": url_for("assessments.get_job", job_id=job["id"])}}
+    if job["assessment_id"]:
+        out["links"]["result"] = url_for("assessments.get_one",
+                                         assessment_id=job["assessment_id"])
+    if job["error"]:
+        out["error"] = job["error"]
+    return out
+
+
+@bp.get("/v1/jobs/<job_id>")
+def get_job(job_id: str):
+    job = sqlite.get_job(db(), job_id)
+    if job is None:
+        raise NotFound(f"no job {job_id!r}", field="job_id")
+    return jsonify(job_resource(job))
 
 
 @bp.get("/v1/assessments")

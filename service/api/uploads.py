@@ -65,7 +65,7 @@ def parse(body: bytes, content_type: str, params: dict) -> Upload:
         columns = _csv(body)
     else:
         columns = _arrow(body, mime)
-    return _validated(columns, params)
+    return validated(columns, params)
 
 
 def _json(body: bytes, params: dict):
@@ -136,7 +136,8 @@ def _table_columns(table) -> dict:
     return out
 
 
-def _validated(columns: dict, params: dict) -> Upload:
+def validated(columns: dict, params: dict) -> Upload:
+    """Check named columns (arrays or lists) and convert them to MPa."""
     time_col = params.get("time_column") or DEFAULT_TIME_COLUMN
     rate = params.get("sample_rate_hz")
     if rate is not None:

@@ -24,3 +24,15 @@ CREATE TABLE IF NOT EXISTS assessments (
 );
 
 CREATE INDEX IF NOT EXISTS assessments_history ON assessments(history_id);
+
+CREATE TABLE IF NOT EXISTS jobs (
+    id              TEXT PRIMARY KEY,
+    kind            TEXT NOT NULL,   -- assessment
+    state           TEXT NOT NULL,   -- queued | running | done | failed
+    created_at      TEXT NOT NULL,
+    updated_at      TEXT NOT NULL,
+    points_total    INTEGER NOT NULL,
+    points_done     INTEGER NOT NULL DEFAULT 0,
+    assessment_id   TEXT,
+    error           TEXT             -- JSON problem details when failed
+);

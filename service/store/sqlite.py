@@ -124,3 +124,45 @@ def list_assessments(con, limit: int = 100, offset: int = 0) -> list[dict]:
                        "ORDER BY created_at DESC, id LIMIT ? OFFSET ?",
                        (limit, offset)).fetchall()
     return [dict(r) for r in rows]
+
+
+# ---------------------------------------------------------------- jobs
+
+JOB_STATES = ("queued", "running", "done", "failed")
+
+
+def insert_job(con, job_id: str, kind: str, points_total: int) -> None:
+    t = now()
+    con.execute("INSERT INTO jobs (id, kind, state, created_at, updated_at, points_total) "
+                "VALUES (?, ?, 'queued', ?, ?, ?)", (job_id, kind, t, t, points_total))
+
+
+def update_job(con, job_id: str, **fields) -> None:
+    """Set some of state, points_done, assessment_id, error (a dict)."""
+    allowed = {"state", "points_done", "assessment_id", "error"}
+    if set(fields) - allowed:
+        raise ValueError(f"not job fields: {set(fields) - allowed}")
+    if "error" in fields and fields["error"] is not None:
+        fields["error"] = json.dumps(fields["error"])
+    cols = ", ".join(f"{k} = ?" for k in fields)
+    with write(con):
+        con.execute(f"UPDATE jobs SET {cols}, updated_at = ? WHERE id = ?",
+                    (*fields.values(), now(), job_id))
+
+
+def get_job(con, job_id: str) -> dict | None:
+    r = con.execute("SELECT * FROM jobs WHERE id = ?", (job_id,)).fetchone()
+    if r is None:
+        return None
+    out = dict(r)
+    out["error"] = json.loads(out["error"]) if out["error"] else None
+    return out
+
+
+def fail_interrupted_jobs(con) -> int:
+    """Jobs a stopped process left queued or running can never finish: fail them."""
+    err = json.dumps({"title": "Interrupted", "detail": "the service stopped before the "
+                      "job finished; post the assessment again"})
+    with write(con):
+        return con.execute("UPDATE jobs SET state = 'failed', error = ?, updated_at = ? "
+                           "WHERE state IN ('queued', 'running')", (err, now())).rowcount

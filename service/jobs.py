@@ -1,0 +1,59 @@
+"""Background jobs: large assessments run off the request thread.
+
+The request is validated in full before a job is queued (bad input is a 4xx
+at once, never a failed job); the job then counts and assesses point by
+point, recording progress in the ``jobs`` table, and ends ``done`` with the
+assessment's id or ``failed`` with problem details. Jobs of a process that
+stopped are marked failed at the next start (``fail_interrupted_jobs``).
+"""
+
+from __future__ import annotations
+
+import logging
+from concurrent.futures import ThreadPoolExecutor
+
+from service import runs
+from service.engine.errors import EngineError
+from service.store import sqlite
+
+log = logging.getLogger("cycleledger.jobs")
+
+
+class JobRunner:
+    """A small pool of worker threads (the kernels release the GIL)."""
+
+    def __init__(self, data_dir, workers: int = 1):
+        self.data_dir = data_dir
+        self.pool = ThreadPoolExecutor(max_workers=workers, thread_name_prefix="cycleledger-job")
+
+    def submit_assessment(self, job_id: str, request: dict, load_channels, duration_s,
+                          history_id):
+        """Queue an assessment; ``load_channels()`` returns ``{name: MPa array}``."""
+        return self.pool.submit(self._run, job_id, request, load_channels, duration_s,
+                                history_id)
+
+    def _run(self, job_id, request, load_channels, duration_s, history_id) -> None:
+        con = sqlite.connect(self.data_dir)
+        try:
+            sqlite.update_job(con, job_id, state="running")
+
+            def progress(done: int, total: int) -> None:
+                sqlite.update_job(con, job_id, points_done=done)
+
+            row = runs.run(con, self.data_dir, request, load_channels(), duration_s,
+                           history_id, progress=progress)
+            sqlite.update_job(con, job_id, state="done", assessment_id=row["id"])
+        except EngineError as exc:
+            sqlite.update_job(con, job_id, state="failed",
+                              error={"title": "Invalid input", "detail": exc.message,
+                                     **runs.json_safe(exc.as_dict())})
+        except Exception:
+            log.exception("job %s failed", job_id)
+            sqlite.update_job(con, job_id, state="failed",
+                              error={"title": "Internal error",
+                                     "detail": "the job failed; it has been logged"})
+        finally:
+            con.close()
+
+    def shutdown(self, wait: bool = True) -> None:
+        self.pool.shutdown(wait=wait, cancel_futures=not wait)
