@@ -84,6 +84,6 @@ def page_args() -> tuple[int, int]:
         offset = int(request.args.get("offset", 0))
     except ValueError:
         raise ApiProblem("limit and offset must be whole numbers", field="limit") from None
-    if not (1 <= limit <= 1000) or offset < 0:
-        raise ApiProblem("limit must be 1..1000 and offset >= 0", field="limit")
+    if not (1 <= limit <= 1000) or not (0 <= offset <= 10**12):
+        raise ApiProblem("limit must be 1..1000 and offset 0..1e12", field="limit")
     return limit, offset

@@ -163,6 +163,10 @@ def validated(columns: dict, params: dict) -> Upload:
     e = params.get("youngs_modulus")
     if e is not None:
         e = _positive(e, "youngs_modulus")
+    for name in columns:
+        check_name(name, "channels")
+    if params.get("name") is not None:
+        check_name(params["name"], "name")
     out, lengths = {}, set()
     for name, values in columns.items():
         try:
@@ -178,13 +182,39 @@ def validated(columns: dict, params: dict) -> Upload:
                 f"channel {name!r} sample {j} is {x[j]}; samples must be finite numbers",
                 sample_index=j, channel=str(name))
         lengths.add(x.shape[0])
-        out[str(name)] = units.to_mpa(x, unit_of[name], e)
+        with np.errstate(over="ignore"):
+            mpa = units.to_mpa(x, unit_of[name], e)
+        big = ~np.isfinite(mpa)
+        if big.any():
+            j = int(np.flatnonzero(big)[0])
+            raise InvalidLoadHistory(
+                f"channel {name!r} sample {j} ({x[j]} {unit_of[name]}) overflows in MPa",
+                sample_index=j, channel=str(name))
+        out[str(name)] = mpa
     if time is not None:
         lengths.add(len(time))
     if len(lengths) > 1:
         raise InvalidUpload(f"channels differ in length: {sorted(lengths)} samples",
                             field="channels")
     return Upload(out, unit_of, rate, params.get("name"))
+
+
+#: Longest channel or history name. [characters]
+MAX_NAME_CHARS = 200
+
+
+def check_name(name, field: str) -> None:
+    """A name is stored and shown: printable text (UTF-8), 1..200 characters."""
+    ok = isinstance(name, str) and 0 < len(name) <= MAX_NAME_CHARS and name.isprintable()
+    if ok:
+        try:
+            name.encode("utf-8")
+        except UnicodeEncodeError:
+            ok = False
+    if not ok:
+        shown = repr(name)[:60]
+        raise InvalidParameter(f"{field}: name {shown} must be printable text of 1 to "
+                               f"{MAX_NAME_CHARS} characters", field=field)
 
 
 def _units(params: dict, names: list) -> dict:

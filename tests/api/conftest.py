@@ -15,9 +15,22 @@ from openapi_core.contrib.flask import FlaskOpenAPIRequest, FlaskOpenAPIResponse
 from service.api import create_app
 
 SPEC_PATH = Path(__file__).resolve().parents[2] / "openapi" / "openapi.yaml"
-# Problem bodies are JSON under their own media type (RFC 9457).
+def _text(body) -> str:
+    return body.decode("utf-8") if isinstance(body, bytes) else body
+
+
+def _binary(body) -> str:
+    # Binary bodies are `type: string` with a contentMediaType in the spec.
+    return body.decode("latin-1") if isinstance(body, bytes) else body
+
+
+# Problem bodies are JSON under their own media type (RFC 9457); CSV, YAML
+# and binary bodies are strings to the schema.
 SPEC = OpenAPI.from_file_path(str(SPEC_PATH), config=Config(
-    extra_media_type_deserializers={"application/problem+json": json.loads}))
+    extra_media_type_deserializers={
+        "application/problem+json": json.loads, "text/csv": _text,
+        "application/yaml": _text, "application/vnd.apache.parquet": _binary,
+        "application/vnd.apache.arrow.stream": _binary}))
 
 
 def make_app(tmp_path, **config):
