@@ -3,7 +3,8 @@
 Subcommands
 -----------
 assess   count and assess the channels of a CSV or Parquet file, print a table
-demo     write the bundled demo recording and assess it
+demo     start the service, post the bundled demo, print the table, keep serving
+post     upload a recording to a running service, assess it, print the table
 curves   list the published S-N curves the catalogue holds
 serve    run the HTTP service on embedded storage
 """
@@ -140,16 +141,120 @@ def _json_default(v):
     return str(v)
 
 
-def _cmd_demo(args) -> int:
+def _demo_files():
     here = Path(__file__).resolve().parent.parent / "examples"
     sys.path.insert(0, str(here))
     import make_demo  # noqa: E402  (the seeded generator lives with the examples)
 
+    return make_demo, json.loads((here / "loader_arm_points.json").read_text())
+
+
+def _cmd_demo(args) -> int:
+    make_demo, config = _demo_files()
     csv = make_demo.write(Path(args.out) if args.out else make_demo.DEFAULT_CSV)
-    config = json.loads((here / "loader_arm_points.json").read_text())
-    report = assess_file(csv, config)
-    print_report(report)
+    if args.offline:
+        print_report(assess_file(csv, config))
+        return 0
+    import threading
+
+    from waitress import create_server
+
+    from service.api import create_app
+    from service.client import Client
+
+    app = create_app({"DATA_DIR": args.data_dir} if args.data_dir else None)
+    server = create_server(app, host="127.0.0.1", port=args.port, threads=8)
+    url = f"http://127.0.0.1:{server.effective_port}"
+    thread = threading.Thread(target=server.run, name="cycleledger-demo", daemon=True)
+    thread.start()
+    try:
+        client = Client(url)
+        report = post_file(client, csv, config)
+        print_report(report)
+        a = report["assessment_id"]
+        print(f"\nService on {url} (data in {app.config['DATA_DIR']}). Look at:")
+        for path in ("/v1/assessments/" + a, f"/v1/assessments/{a}/summary?format=csv",
+                     f"/v1/assessments/{a}/points/pin_lug/cycles?format=csv",
+                     f"/v1/assessments/{a}/points/pin_lug/range-mean", "/v1/curves",
+                     "/openapi.yaml"):
+            print(f"  {url}{path}")
+        if args.no_wait:
+            return 0
+        print("Serving until Ctrl-C.", flush=True)
+        while thread.is_alive():
+            thread.join(0.5)
+    except KeyboardInterrupt:
+        print("\nstopped")
+    finally:
+        server.close()
+        app.extensions["cycleledger.jobs"].shutdown()
     return 0
+
+
+def post_file(client, path: Path, config: dict, progress=None) -> dict:
+    """Upload a recording and assess it through the service; returns the report dict
+    that :func:`print_report` prints (plus ``assessment_id``)."""
+    time_col = config.get("time_column", "time_s")
+    h = client.upload(path, unit=config.get("unit"), units=config.get("units"),
+                      youngs_modulus=config.get("youngs_modulus"),
+                      sample_rate_hz=config.get("sample_rate_hz"), time_column=time_col,
+                      name=Path(path).name)
+    settings = {k: v for k, v in config.items() if k in ("curve", "mean_stress_method")}
+    request = {"history_id": h["id"], "settings": settings}
+    if config.get("points"):
+        request["points"] = config["points"]
+    for key in ("gate", "gate_fraction", "residue"):
+        if config.get(key) is not None:
+            request[key] = config[key]
+    a = client.assess(progress=progress, **request)
+    points = {}
+    for name, p in a["points"].items():
+        points[name] = {**p, "curve": p["curve"]["name"], "curve_source": p["curve"]["source"],
+                        "cautions": list(a["cautions"]) + p["cautions"]}
+        points[name] = {k: (math.inf if v is None and k in ("life_repeats", "life_cycles")
+                            and p["runout"] else v) for k, v in points[name].items()}
+        if points[name]["damage"] is None:
+            points[name]["damage"] = math.inf
+    return {"file": str(path), "duration_s": a["duration_s"], "points": points,
+            "assessment_id": a["id"], "history_id": h["id"]}
+
+
+def _progress_bar(job) -> None:
+    p = job["progress"]
+    width = 30
+    done = int(round(p["fraction"] * width))
+    print(f"\r[{'#' * done}{'.' * (width - done)}] {p['points_done']}/{p['points_total']} "
+          f"points ({job['state']})", end="" if job["state"] not in ("done", "failed") else "\n",
+          file=sys.stderr, flush=True)
+
+
+def _cmd_post(args) -> int:
+    from service.client import Client, ServiceError
+
+    config = json.loads(Path(args.points).read_text()) if args.points else {}
+    for key in ("unit", "youngs_modulus", "curve", "mean_stress_method", "gate_fraction",
+                "sample_rate_hz"):
+        value = getattr(args, key, None)
+        if value is not None:
+            config[key] = value
+    client = Client(args.url)
+    try:
+        report = post_file(client, Path(args.file), config,
+                           progress=None if args.json else _progress_bar)
+    except ServiceError as exc:
+        print(f"error: {exc}", file=sys.stderr)
+        for k in ("field", "channel", "sample_index", "valid"):
+            if k in exc.problem:
+                print(f"  {k}: {exc.problem[k]}", file=sys.stderr)
+        return 2 if 400 <= exc.status < 500 else 3
+    if args.json:
+        json.dump(report, sys.stdout, indent=2, default=_json_default)
+        print()
+    else:
+        print_report(report)
+        print(f"\n{args.url.rstrip('/')}/v1/assessments/{report['assessment_id']}")
+    failed = any("static_overload" in p["flags"] for p in report["points"].values())
+    return 1 if failed else 0
 
 
 def _cmd_curves(args) -> int:
@@ -206,9 +311,29 @@ def main(argv=None) -> int:
     p.add_argument("--sample-rate-hz", dest="sample_rate_hz", type=float)
     p.add_argument("--json", action="store_true", help="machine-readable output")
     p.set_defaults(func=_cmd_assess)
-    p = sub.add_parser("demo", help="write and assess the bundled demo recording")
+    p = sub.add_parser("demo", help="start the service, post the bundled demo, keep serving")
     p.add_argument("--out", help="where to write the demo CSV")
+    p.add_argument("--port", type=int, default=8350, help="port on 127.0.0.1 (0: any free)")
+    p.add_argument("--data-dir", dest="data_dir",
+                   help="data directory (default: $CYCLELEDGER_DATA_DIR or ./cycleledger-data)")
+    p.add_argument("--no-wait", dest="no_wait", action="store_true",
+                   help="stop the service after printing the table")
+    p.add_argument("--offline", action="store_true",
+                   help="assess in this process without the service")
     p.set_defaults(func=_cmd_demo)
+    p = sub.add_parser("post", help="upload a recording to a running service and assess it")
+    p.add_argument("file", help="CSV (header row; optional time_s column) or Parquet")
+    p.add_argument("--url", default="http://127.0.0.1:8350", help="the service")
+    p.add_argument("--points", help="JSON file with settings per channel")
+    p.add_argument("--curve", help="catalogue designation for every channel")
+    p.add_argument("--mean-stress-method", dest="mean_stress_method")
+    p.add_argument("--unit", help="unit of the samples")
+    p.add_argument("--youngs-modulus", dest="youngs_modulus", type=float,
+                   help="E in MPa, for strain units")
+    p.add_argument("--gate-fraction", dest="gate_fraction", type=float)
+    p.add_argument("--sample-rate-hz", dest="sample_rate_hz", type=float)
+    p.add_argument("--json", action="store_true", help="machine-readable output")
+    p.set_defaults(func=_cmd_post)
     p = sub.add_parser("curves", help="list the catalogue of published S-N curves")
     p.set_defaults(func=_cmd_curves)
     p = sub.add_parser("serve", help="run the HTTP service (waitress)")

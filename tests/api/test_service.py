@@ -1,0 +1,82 @@
+"""The real service on loopback: waitress, the Python client, `cycleledger post` and
+the README's main command (`cycleledger demo`). Everything binds 127.0.0.1 and
+is stopped by the test."""
+
+from __future__ import annotations
+
+import json
+import threading
+
+import numpy as np
+import pandas as pd
+import pytest
+from waitress import create_server
+
+from service.api import create_app
+from service.cli import main
+from service.client import Client, ServiceError
+from service.engine.damage import assess_history
+from service.engine.sn_catalogue import catalogue_curve
+
+
+@pytest.fixture
+def served(tmp_path):
+    app = create_app({"DATA_DIR": str(tmp_path / "data"), "ASYNC_SAMPLES": 50_000})
+    server = create_server(app, host="127.0.0.1", port=0, threads=4)
+    thread = threading.Thread(target=server.run, daemon=True)
+    thread.start()
+    yield f"http://127.0.0.1:{server.effective_port}"
+    server.close()
+    app.extensions["cycleledger.jobs"].shutdown()
+    thread.join(timeout=10)
+
+
+def test_client_round_trip_with_a_job(served):
+    c = Client(served, timeout_s=60)
+    assert c.ready()
+    x = np.random.default_rng(4).standard_normal(40_000) * 50
+    h = c.upload(pd.DataFrame({"a": x, "b": 1.5 * x}), unit="MPa", sample_rate_hz=200.0)
+    seen = []
+    a = c.assess(history_id=h["id"], settings={"curve": "EN1993-1-9:80"}, progress=seen.append)
+    assert seen and seen[-1]["state"] == "done"  # 80k samples x points > threshold: a job
+    table = c.summary(a["id"])
+    ref = assess_history(x, catalogue_curve("EN1993-1-9:80"), duration_s=200.0)
+    assert table.loc["a", "damage"] == ref.damage
+    assert table.loc["a", "life_hours"] == pytest.approx(ref.life_hours, rel=1e-12)
+    cyc = c.cycles(a["id"], "b")
+    assert cyc["damage"].sum() == pytest.approx(table.loc["b", "damage"], rel=1e-12)
+    with pytest.raises(ServiceError) as err:
+        c.assess(history_id=h["id"], settings={"curve": "EN1993-1-9:81"})
+    assert err.value.status == 422 and err.value.problem["field"] == "curve"
+
+
+def test_post_command_prints_json_and_exit_codes(served, tmp_path, capsys):
+    x = np.tile([-60.0, 60.0], 500)
+    csv = tmp_path / "rig.csv"
+    pd.DataFrame({"time_s": np.arange(x.size) / 100.0, "g": x}).to_csv(csv, index=False)
+    code = main(["post", str(csv), "--url", served, "--unit", "MPa",
+                 "--curve", "EN1993-1-9:71", "--json"])
+    out = json.loads(capsys.readouterr().out)
+    assert code == 0
+    # Source: EN 1993-1-9 eq. (7.1): 120 MPa range on category 71,
+    # N = 2e6 (71/120)^3; 1000 reversals make (1000 - 1) / 2 = 499.5 cycles
+    # (ASTM E1049-85: every range between reversals is half a cycle).
+    n_f = 2e6 * (71 / 120) ** 3
+    assert out["points"]["g"]["cycles_counted"] == 499.5
+    assert out["points"]["g"]["damage"] == pytest.approx(499.5 / n_f, rel=1e-9)
+    assert main(["post", str(csv), "--url", served, "--unit", "furlong",
+                 "--curve", "EN1993-1-9:71"]) == 2
+    assert "unit" in capsys.readouterr().err
+    assert main(["post", str(csv), "--url", "http://127.0.0.1:9", "--unit", "MPa",
+                 "--curve", "EN1993-1-9:71"]) == 3
+
+
+def test_demo_command_starts_posts_and_stops(tmp_path, capsys):
+    # The README's main command without the final wait.
+    code = main(["demo", "--no-wait", "--port", "0", "--data-dir", str(tmp_path / "d"),
+                 "--out", str(tmp_path / "demo.csv")])
+    out = capsys.readouterr().out
+    assert code == 0
+    for gauge in ("weld_toe_upper", "weld_toe_lower", "pin_lug", "cylinder_mount"):
+        assert gauge in out
+    assert "Service on http://127.0.0.1:" in out and "/summary?format=csv" in out
