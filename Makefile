@@ -14,7 +14,7 @@ $(BIN)/.installed: pyproject.toml
 	$(BIN)/pip install --quiet -e '.[test]'
 	touch $@
 
-demo: $(BIN)/.installed          ## install, then count and assess the bundled demo
+demo: $(BIN)/.installed          ## install, start the service, post the demo, keep serving
 	$(BIN)/cycleledger demo
 
 test: $(BIN)/.installed          ## install, then run the whole test suite
@@ -23,10 +23,12 @@ test: $(BIN)/.installed          ## install, then run the whole test suite
 bench-quick: $(BIN)/.installed   ## the benchmarks' short runs
 	$(BIN)/python tests/benchmarks/bench_counting.py --quick
 	$(BIN)/python tests/benchmarks/bench_assessment.py --quick
+	$(BIN)/python tests/benchmarks/bench_api.py --quick
 
 bench: $(BIN)/.installed         ## the benchmarks' full runs (several minutes)
 	$(BIN)/python tests/benchmarks/bench_counting.py
 	$(BIN)/python tests/benchmarks/bench_assessment.py
+	$(BIN)/python tests/benchmarks/bench_api.py
 
 clean:
-	rm -rf $(VENV) .cache examples/data
+	rm -rf $(VENV) .cache examples/data cycleledger-data

@@ -163,7 +163,8 @@ def _cmd_demo(args) -> int:
     from service.client import Client
 
     app = create_app({"DATA_DIR": args.data_dir} if args.data_dir else None)
-    server = create_server(app, host="127.0.0.1", port=args.port, threads=8)
+    server = create_server(app, host="127.0.0.1", port=args.port, threads=8,
+                           **waitress_options(app))
     url = f"http://127.0.0.1:{server.effective_port}"
     thread = threading.Thread(target=server.run, name="cycleledger-demo", daemon=True)
     thread.start()
@@ -282,12 +283,27 @@ def _cmd_serve(args) -> int:
         config["MAX_UPLOAD_MB"] = args.max_upload_mb
     if args.job_workers is not None:
         config["JOB_WORKERS"] = args.job_workers
+    if args.async_samples is not None:
+        config["ASYNC_SAMPLES"] = args.async_samples
     app = create_app(config)
     print(f"cycleledger {_version()} serving on http://{args.host}:{args.port}/v1/ "
           f"(data in {app.config['DATA_DIR']}; Ctrl-C stops)", flush=True)
-    serve(app, host=args.host, port=args.port, threads=args.threads,
-          max_request_body_size=app.config["MAX_CONTENT_LENGTH"] + 2**20, ident="cycleledger")
+    serve(app, host=args.host, port=args.port, threads=args.threads, ident="cycleledger",
+          **waitress_options(app))
     return 0
+
+
+def waitress_options(app) -> dict:
+    """waitress settings for large uploads.
+
+    By default waitress reads 8 kB at a time and spools bodies above 512 kB
+    to a temporary file; a 64 MB Parquet upload then costs more in the server
+    than in the engine. Bodies up to the upload limit stay in memory and are
+    read in 256 kB pieces.
+    """
+    limit = app.config["MAX_CONTENT_LENGTH"]
+    return {"max_request_body_size": limit + 2**20, "inbuf_overflow": limit + 2**20,
+            "recv_bytes": 2**18}
 
 
 def _version() -> str:
@@ -346,6 +362,9 @@ def main(argv=None) -> int:
                    help="threads running large assessments (default 1)")
     p.add_argument("--max-upload-mb", dest="max_upload_mb", type=float,
                    help="largest request body; larger ones get 413 (default 512)")
+    p.add_argument("--async-samples", dest="async_samples", type=int,
+                   help="samples x points above which an assessment becomes a job "
+                        "(default 2000000)")
     p.set_defaults(func=_cmd_serve)
     args = parser.parse_args(argv)
     from service.engine.errors import EngineError

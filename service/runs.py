@@ -10,6 +10,7 @@ request; the API and, later, background jobs call :func:`run`.
 from __future__ import annotations
 
 import math
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass
 
 import numpy as np
@@ -20,6 +21,10 @@ from service.engine.errors import InvalidParameter, unknown
 from service.engine.rainflow import RESIDUE_TREATMENTS, CycleTable, astm_e1049, resolve_gate
 from service.engine.settings import point_from_dict
 from service.store import parquet, sqlite
+
+#: Mean samples a point above which points are assessed on worker threads.
+THREADED_SAMPLES = 50_000
+POINT_WORKERS = 2
 
 #: Keys of an assessment request besides the samples themselves.
 REQUEST_KEYS = {"history_id", "samples", "unit", "units", "youngs_modulus", "sample_rate_hz",
@@ -116,12 +121,24 @@ def run(con, data_dir, request: dict, channels: dict[str, np.ndarray],
     gate, frac, residue = counting_options(request)
     points = plan(request, channels)
     results, cycles = {}, []
-    for i, p in enumerate(points):
-        res, table, dmg = assess_point(p, gate, frac, residue, duration_s)
-        results[p.name] = res
-        cycles.append((p.name, table, dmg))
-        if progress is not None:
-            progress(i + 1, len(points))
+
+    def one(p):
+        return assess_point(p, gate, frac, residue, duration_s)
+
+    # Long points side by side on worker threads (the kernels release the
+    # GIL); short ones in turn, as assess_many does (GIL hand-offs cost more).
+    long_points = sum(p.samples.shape[0] for p in points) >= THREADED_SAMPLES * len(points)
+    pool = ThreadPoolExecutor(POINT_WORKERS) if long_points and len(points) > 1 else None
+    try:
+        outcomes = pool.map(one, points) if pool else map(one, points)
+        for i, (p, (res, table, dmg)) in enumerate(zip(points, outcomes)):
+            results[p.name] = res
+            cycles.append((p.name, table, dmg))
+            if progress is not None:
+                progress(i + 1, len(points))
+    finally:
+        if pool:
+            pool.shutdown(cancel_futures=True)
     aid = sqlite.new_id("a")
     rel = parquet.write_columns(data_dir, parquet.CYCLES, aid, _cycle_columns(cycles))
     row = {"id": aid, "history_id": history_id, "created_at": sqlite.now(), "state": "done",
@@ -141,9 +158,12 @@ def run(con, data_dir, request: dict, channels: dict[str, np.ndarray],
 
 
 def _cycle_columns(cycles) -> dict:
-    names = np.concatenate([np.full(len(t), n, dtype=object) for n, t, _ in cycles]) \
-        if cycles else np.empty(0, object)
-    cols = {"point": names.astype(str)}
+    import pyarrow as pa
+
+    # The point name as a dictionary column: one small index per row.
+    index = np.repeat(np.arange(len(cycles), dtype=np.int32), [len(t) for _, t, _ in cycles])
+    cols = {"point": pa.DictionaryArray.from_arrays(
+        index, pa.array([n for n, _, _ in cycles], pa.string()))}
     for col in ("stress_from", "stress_to", "count", "start_index", "end_index"):
         cols[col] = np.concatenate([getattr(t, col) for _, t, _ in cycles])
     cols["damage"] = np.concatenate([d for _, _, d in cycles])
@@ -153,7 +173,7 @@ def _cycle_columns(cycles) -> dict:
 def point_cycles(data_dir, assessment: dict, point: str) -> tuple[CycleTable, np.ndarray]:
     """The stored cycle table and per-cycle damage of one point."""
     cols = parquet.read_columns(data_dir, assessment["cycles_file"])
-    sel = cols["point"] == point
+    sel = np.asarray(cols["point"]) == point
     table = CycleTable(*(np.ascontiguousarray(cols[c][sel]) for c in (
         "stress_from", "stress_to", "count", "start_index", "end_index")))
     return table, cols["damage"][sel]

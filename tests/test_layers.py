@@ -31,3 +31,24 @@ def test_engine_public_names_exist():
     import service.engine as engine
     for name in engine.__all__:
         assert hasattr(engine, name), name
+
+
+STORE = ENGINE.parent / "store"
+STORE_FORBIDDEN = {"flask", "werkzeug", "service.api", "dask", "distributed"}
+
+
+@pytest.mark.parametrize("path", sorted(STORE.glob("*.py")), ids=lambda p: p.name)
+def test_store_never_touches_requests(path):
+    bad = [m for m in _imports(path)
+           if any(m == f or m.startswith(f + ".") for f in STORE_FORBIDDEN)]
+    assert not bad, f"{path.name} imports {bad}"
+
+
+def test_importing_the_engine_does_not_load_flask():
+    import subprocess
+    import sys
+
+    code = "import sys, service.engine, service.client; print('flask' in sys.modules)"
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                         timeout=120, check=True)
+    assert out.stdout.strip() == "False"

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import numpy as np
 from flask import Blueprint, jsonify, request, url_for
 
 from service.store import parquet, sqlite
@@ -35,8 +34,8 @@ def upload():
                        request.args.to_dict())
     hid = sqlite.new_id("h")
     channels = [{"name": name, "unit": up.source_units[name], "stored_unit": "MPa",
-                 "min_mpa": float(np.min(x)), "max_mpa": float(np.max(x))}
-                for name, x in up.channels.items()]
+                 "min_mpa": up.ranges[name][0], "max_mpa": up.ranges[name][1]}
+                for name in up.channels]
     rel = parquet.write_columns(data_dir(), parquet.HISTORIES, hid, up.channels)
     row = {"id": hid, "name": up.name, "created_at": sqlite.now(),
            "sample_count": up.sample_count, "sample_rate_hz": up.sample_rate_hz,

@@ -37,6 +37,7 @@ class Upload:
     source_units: dict[str, str]
     sample_rate_hz: float | None
     name: str | None
+    ranges: dict[str, tuple[float, float]]  # (min, max) of each channel [MPa]
 
     @property
     def sample_count(self) -> int:
@@ -167,7 +168,7 @@ def validated(columns: dict, params: dict) -> Upload:
         check_name(name, "channels")
     if params.get("name") is not None:
         check_name(params["name"], "name")
-    out, lengths = {}, set()
+    out, lengths, ranges = {}, set(), {}
     for name, values in columns.items():
         try:
             x = as_history(values, field_name=name)
@@ -175,28 +176,27 @@ def validated(columns: dict, params: dict) -> Upload:
             exc.channel = name
             exc.details["channel"] = name
             raise
-        bad = ~np.isfinite(x)
-        if bad.any():
-            j = int(np.flatnonzero(bad)[0])
-            raise InvalidLoadHistory(
-                f"channel {name!r} sample {j} is {x[j]}; samples must be finite numbers",
-                sample_index=j, channel=str(name))
         lengths.add(x.shape[0])
-        with np.errstate(over="ignore"):
+        with np.errstate(over="ignore", invalid="ignore"):
             mpa = units.to_mpa(x, unit_of[name], e)
-        big = ~np.isfinite(mpa)
-        if big.any():
-            j = int(np.flatnonzero(big)[0])
+            # min and max carry NaN and inf through: two passes check
+            # finiteness and give the range the history resource reports.
+            lo, hi = float(np.min(mpa)), float(np.max(mpa))
+        if not (math.isfinite(lo) and math.isfinite(hi)):
+            j = int(np.flatnonzero(~np.isfinite(mpa))[0])
+            what = (f"is {x[j]}" if not math.isfinite(x[j])
+                    else f"({x[j]} {unit_of[name]}) overflows in MPa")
             raise InvalidLoadHistory(
-                f"channel {name!r} sample {j} ({x[j]} {unit_of[name]}) overflows in MPa",
+                f"channel {name!r} sample {j} {what}; samples must be finite numbers",
                 sample_index=j, channel=str(name))
         out[str(name)] = mpa
+        ranges[str(name)] = (lo, hi)
     if time is not None:
         lengths.add(len(time))
     if len(lengths) > 1:
         raise InvalidUpload(f"channels differ in length: {sorted(lengths)} samples",
                             field="channels")
-    return Upload(out, unit_of, rate, params.get("name"))
+    return Upload(out, unit_of, rate, params.get("name"), ranges)
 
 
 #: Longest channel or history name. [characters]

@@ -27,21 +27,33 @@ def write_columns(data_dir: str | Path, folder: str, name: str,
     target = Path(data_dir) / rel
     target.parent.mkdir(parents=True, exist_ok=True)
     tmp = target.with_name(f"{_TMP}{uuid.uuid4().hex}.parquet")
-    table = pa.table({k: pa.array(v) for k, v in columns.items()})
+    table = pa.table({k: v if isinstance(v, pa.Array) else pa.array(v)
+                      for k, v in columns.items()})
     try:
         # Uncompressed float columns: measured signals barely compress and
         # the write then runs at disk speed.
         pq.write_table(table, tmp, compression="none", use_dictionary=False)
+        _fsync(tmp)
         os.replace(tmp, target)
+        _fsync(target.parent)
     except BaseException:
         tmp.unlink(missing_ok=True)
         raise
     return rel
 
 
+def _fsync(path: Path) -> None:
+    # A result is acknowledged only once its file and its name are on disk.
+    fd = os.open(path, os.O_RDONLY)
+    try:
+        os.fsync(fd)
+    finally:
+        os.close(fd)
+
+
 def read_columns(data_dir: str | Path, rel: str, columns=None) -> dict[str, np.ndarray]:
     """Columns of a stored file as numpy arrays (all, or those named)."""
-    table = pq.read_table(Path(data_dir) / rel, columns=columns)
+    table = pq.read_table(Path(data_dir) / rel, columns=columns, memory_map=True)
     return {name: table.column(name).to_numpy() for name in table.column_names}
 
 

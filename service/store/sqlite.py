@@ -37,7 +37,9 @@ def connect(data_dir: str | Path) -> sqlite3.Connection:
                           check_same_thread=False)
     con.row_factory = sqlite3.Row
     con.execute("PRAGMA journal_mode=WAL")
-    con.execute("PRAGMA synchronous=NORMAL")
+    # FULL: a commit is on disk before the service answers (NORMAL in WAL
+    # mode may lose the last commits on power loss).
+    con.execute("PRAGMA synchronous=FULL")
     con.execute("PRAGMA foreign_keys=ON")
     return con
 
