@@ -299,11 +299,11 @@ def waitress_options(app) -> dict:
     By default waitress reads 8 kB at a time and spools bodies above 512 kB
     to a temporary file; a 64 MB Parquet upload then costs more in the server
     than in the engine. Bodies up to the upload limit stay in memory and are
-    read in 256 kB pieces.
+    read in 4 MB pieces.
     """
     limit = app.config["MAX_CONTENT_LENGTH"]
     return {"max_request_body_size": limit + 2**20, "inbuf_overflow": limit + 2**20,
-            "recv_bytes": 2**18}
+            "recv_bytes": 2**22}
 
 
 def _version() -> str:

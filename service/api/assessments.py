@@ -70,7 +70,7 @@ def create():
         folder = data_dir()
 
         def channels():
-            return parquet.read_columns(folder, hist["file"])
+            return parquet.read_channels(folder, hist["file"], names)
     else:
         if not isinstance(body["samples"], dict):
             raise ApiProblem("samples must be an object {channel: [numbers]}", field="samples")

@@ -38,6 +38,7 @@ class Upload:
     sample_rate_hz: float | None
     name: str | None
     ranges: dict[str, tuple[float, float]]  # (min, max) of each channel [MPa]
+    parquet_bytes: bytes | None = None       # the body, when it can be stored as sent
 
     @property
     def sample_count(self) -> int:
@@ -66,7 +67,17 @@ def parse(body: bytes, content_type: str, params: dict) -> Upload:
         columns = _csv(body)
     else:
         columns = _arrow(body, mime)
-    return validated(columns, params)
+    up = validated(columns, params)
+    if mime in PARQUET_TYPES and _stored_as_sent(up, columns):
+        # Already float64 MPa with nothing to convert: keep the file as sent
+        # (one write, no re-encoding); readers select the channel columns.
+        up.parquet_bytes = body
+    return up
+
+
+def _stored_as_sent(up: "Upload", columns: dict) -> bool:
+    return all(isinstance(columns.get(n), np.ndarray) and columns[n].dtype == np.float64
+               and units.STRESS_UNITS.get(u) == 1.0 for n, u in up.source_units.items())
 
 
 def _json(body: bytes, params: dict):
@@ -108,7 +119,7 @@ def _arrow(body: bytes, mime: str) -> dict:
 
     try:
         if mime in PARQUET_TYPES:
-            table = pq.read_table(io.BytesIO(body))
+            table = pq.read_table(pa.BufferReader(body))
         elif mime.endswith("stream"):
             table = pa.ipc.open_stream(body).read_all()
         else:

@@ -9,9 +9,12 @@ Why the loops look the way they do: each is a straight loop over a chunk of
 cycles with selects instead of branches, one loop per mean-stress method and
 per curve segment, so LLVM turns it into SIMD code. That needs numpy's error
 model (numba's default division checks for zero and blocks vectorising) and
-re-association for the sums (``fastmath`` without ``nnan``/``ninf``: infinite
-ranges mark static overloads and must survive). Re-associated sums differ from
-a left-to-right sum by rounding only (~1e-15 relative).
+``fastmath`` without ``nnan``/``ninf`` (infinite ranges mark static
+overloads and must survive). Sums are not left to the vectoriser: a
+re-associated reduction may group terms differently with the alignment of the
+arrays, so the same request could give results that differ in the last bit.
+``_sum8`` adds in one fixed order instead (eight interleaved partial sums),
+which differs from a left-to-right sum by rounding only (~1e-15 relative).
 """
 
 from __future__ import annotations
@@ -121,13 +124,14 @@ def _equivalent_ranges(frm, to, lo, hi, scale, method, param, clip, ultimate,
 
 
 @_simd
-def _segment_damage(sr, n, cnt, lo, inv_s, c, m, whole, s_lo, s_hi, d):
+def _segment_damage(sr, n, cnt, lo, inv_s, c, m, whole, s_lo, s_hi, d, w):
     """Damage of ranges ``sr[:n]`` on one segment [s_lo, s_hi) of the curve.
 
-    Adds ``cnt[lo + j] * (sr / S_a)^m / N_a`` into ``d[j]`` for the ranges on
-    the segment. Returns the segment's damage.
+    Adds ``cnt[lo + j] * (sr / S_a)^m / N_a`` into ``d[j]`` and that times
+    ``m`` into ``w[j]`` for the ranges on the segment. No running sum here:
+    the sums are taken by :func:`_sum8` in a fixed order, so a result never
+    depends on where numpy placed the arrays.
     """
-    total = 0.0
     # The catalogues' slopes 3 and 5 get loops of their own (two or three
     # multiplies instead of the five-step power).
     if whole == 3:
@@ -137,7 +141,7 @@ def _segment_damage(sr, n, cnt, lo, inv_s, c, m, whole, s_lo, s_hi, d):
             on = (s >= s_lo) & (s < s_hi)
             v = cnt[lo + j] * (q * q * q) * c if on else 0.0
             d[j] += v
-            total += v
+            w[j] += v * m
     elif whole == 5:
         for j in range(n):
             s = sr[j]
@@ -146,39 +150,59 @@ def _segment_damage(sr, n, cnt, lo, inv_s, c, m, whole, s_lo, s_hi, d):
             on = (s >= s_lo) & (s < s_hi)
             v = cnt[lo + j] * (q2 * q2 * q) * c if on else 0.0
             d[j] += v
-            total += v
+            w[j] += v * m
     elif whole:
         for j in range(n):
             s = sr[j]
             on = (s >= s_lo) & (s < s_hi)
             v = cnt[lo + j] * _ipow(s * inv_s, whole) * c if on else 0.0
             d[j] += v
-            total += v
+            w[j] += v * m
     else:
         for j in range(n):
             s = sr[j]
             if (s >= s_lo) & (s < s_hi):
                 v = cnt[lo + j] * math.pow(s * inv_s, m) * c
                 d[j] += v
-                total += v
-    return total
+                w[j] += v * m
 
 
 @_simd
-def _power_sum(sr, n, cnt, lo, inv_rf, k, whole):
-    """Sum of ``cnt * (sr * inv_rf)^k`` over the finite, positive ranges."""
-    total = 0.0
+def _power_terms(sr, n, cnt, lo, inv_rf, k, whole, e):
+    """``e[j] = cnt * (sr * inv_rf)^k`` for finite, positive ranges, else 0."""
     if whole:
         for j in range(n):
             s = sr[j]
             ok = (s > 0.0) & (s < math.inf)
-            total += cnt[lo + j] * _ipow(s * inv_rf, whole) if ok else 0.0
+            e[j] = cnt[lo + j] * _ipow(s * inv_rf, whole) if ok else 0.0
     else:
         for j in range(n):
             s = sr[j]
+            e[j] = 0.0
             if (s > 0.0) & (s < math.inf):
-                total += cnt[lo + j] * math.pow(s * inv_rf, k)
-    return total
+                e[j] = cnt[lo + j] * math.pow(s * inv_rf, k)
+
+
+# No fastmath: the order of this sum is fixed by the code (eight interleaved
+# partial sums, then a tree), the same on every call and for any alignment
+# of the array, and still wide enough to vectorise.
+@njit(cache=True, nogil=True, inline="always")
+def _sum8(x, n):
+    a0 = a1 = a2 = a3 = a4 = a5 = a6 = a7 = 0.0
+    m = n - n % 8
+    for j in range(0, m, 8):
+        a0 += x[j]
+        a1 += x[j + 1]
+        a2 += x[j + 2]
+        a3 += x[j + 3]
+        a4 += x[j + 4]
+        a5 += x[j + 5]
+        a6 += x[j + 6]
+        a7 += x[j + 7]
+    tail = 0.0
+    for j in range(m, n):
+        tail += x[j]
+    return (((a0 + a1) + (a2 + a3)) + ((a4 + a5) + (a6 + a7))) + tail
 
 
 @_simd
@@ -229,6 +253,8 @@ def damage_pass(frm, to, cnt, scale, method, param, clip, ultimate, range_factor
     nseg = seg_m.shape[0]
     sr = np.empty(_CHUNK)
     d = np.empty(_CHUNK)
+    w = np.empty(_CHUNK)
+    e = np.empty(_CHUNK)
     total = 0.0
     weight = 0.0
     over = 0
@@ -242,15 +268,17 @@ def damage_pass(frm, to, cnt, scale, method, param, clip, ultimate, range_factor
         over += _equivalent_ranges(frm, to, lo, hi, scale, method, param, clip, ultimate,
                                    range_factor, sr)
         d[:k] = 0.0
+        w[:k] = 0.0
         for g in range(nseg):
-            part = _segment_damage(sr, k, cnt, lo, seg_inv_s[g], seg_c[g], seg_m[g],
-                                   seg_whole[g], seg_lo[g], seg_hi[g], d)
-            total += part
-            weight += part * seg_m[g]
+            _segment_damage(sr, k, cnt, lo, seg_inv_s[g], seg_c[g], seg_m[g],
+                            seg_whole[g], seg_lo[g], seg_hi[g], d, w)
+        total += _sum8(d, k)
+        weight += _sum8(w, k)
         if write_d:
             _copy_damage(sr, d, k, per_cycle, lo)
         if extras:
-            eq_sum += _power_sum(sr, k, cnt, lo, inv_rf, eq_slope, eq_whole)
+            _power_terms(sr, k, cnt, lo, inv_rf, eq_slope, eq_whole, e)
+            eq_sum += _sum8(e, k)
             max_sr = max(max_sr, _max_finite(sr, k))
             max_range = max(max_range, _max_range(frm, to, lo, hi))
     if over:

@@ -42,6 +42,25 @@ def write_columns(data_dir: str | Path, folder: str, name: str,
     return rel
 
 
+def write_bytes(data_dir: str | Path, folder: str, name: str, data: bytes) -> str:
+    """Store a Parquet file as it came (already validated); returns the relative path."""
+    rel = f"{folder}/{name}.parquet"
+    target = Path(data_dir) / rel
+    target.parent.mkdir(parents=True, exist_ok=True)
+    tmp = target.with_name(f"{_TMP}{uuid.uuid4().hex}.parquet")
+    try:
+        with open(tmp, "wb") as f:
+            f.write(data)
+            f.flush()
+            os.fsync(f.fileno())
+        os.replace(tmp, target)
+        _fsync(target.parent)
+    except BaseException:
+        tmp.unlink(missing_ok=True)
+        raise
+    return rel
+
+
 def _fsync(path: Path) -> None:
     # A result is acknowledged only once its file and its name are on disk.
     fd = os.open(path, os.O_RDONLY)
@@ -55,6 +74,12 @@ def read_columns(data_dir: str | Path, rel: str, columns=None) -> dict[str, np.n
     """Columns of a stored file as numpy arrays (all, or those named)."""
     table = pq.read_table(Path(data_dir) / rel, columns=columns, memory_map=True)
     return {name: table.column(name).to_numpy() for name in table.column_names}
+
+
+def read_channels(data_dir: str | Path, rel: str, names) -> dict[str, np.ndarray]:
+    """The named channels of a stored history as float64 arrays. [MPa]"""
+    cols = read_columns(data_dir, rel, columns=list(names))
+    return {n: np.ascontiguousarray(v, dtype=np.float64) for n, v in cols.items()}
 
 
 def read_bytes(data_dir: str | Path, rel: str) -> bytes:
