@@ -27,12 +27,13 @@ class JobRunner:
         self.pool = ThreadPoolExecutor(max_workers=workers, thread_name_prefix="cycleledger-job")
 
     def submit_assessment(self, job_id: str, request: dict, load_channels, duration_s,
-                          history_id):
+                          history_id, samples_file=None):
         """Queue an assessment; ``load_channels()`` returns ``{name: MPa array}``."""
         return self.pool.submit(self._run, job_id, request, load_channels, duration_s,
-                                history_id)
+                                history_id, samples_file)
 
-    def _run(self, job_id, request, load_channels, duration_s, history_id) -> None:
+    def _run(self, job_id, request, load_channels, duration_s, history_id,
+             samples_file) -> None:
         con = sqlite.connect(self.data_dir)
         try:
             sqlite.update_job(con, job_id, state="running")
@@ -40,8 +41,15 @@ class JobRunner:
             def progress(done: int, total: int) -> None:
                 sqlite.update_job(con, job_id, points_done=done)
 
-            row = runs.run(con, self.data_dir, request, load_channels(), duration_s,
-                           history_id, progress=progress)
+            try:
+                channels = load_channels()
+            except FileNotFoundError:
+                sqlite.update_job(con, job_id, state="failed", error={
+                    "title": "History deleted",
+                    "detail": f"history {history_id} was deleted before the job ran"})
+                return
+            row = runs.run(con, self.data_dir, request, channels, duration_s,
+                           history_id, progress=progress, samples_file=samples_file)
             sqlite.update_job(con, job_id, state="done", assessment_id=row["id"])
         except EngineError as exc:
             sqlite.update_job(con, job_id, state="failed",

@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import math
 from concurrent.futures import ThreadPoolExecutor
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -113,14 +113,20 @@ def assess_point(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
 
 
 def run(con, data_dir, request: dict, channels: dict[str, np.ndarray],
-        duration_s: float | None, history_id: str | None, progress=None) -> dict:
+        duration_s: float | None, history_id: str | None, progress=None,
+        samples_file: str | None = None) -> dict:
     """Assess, store and return the assessment row.
 
-    ``progress(done, total)`` is called after each point, if given.
+    ``samples_file`` is the stored history the channels came from; inline
+    channels are stored with the assessment instead. Cycle tables are not
+    stored: counting is exact and repeatable, so :func:`point_cycles`
+    recounts a point from these samples when asked (a fraction of the cost
+    of writing and keeping every cycle). ``progress(done, total)`` is called
+    after each point, if given.
     """
     gate, frac, residue = counting_options(request)
     points = plan(request, channels)
-    results, cycles = {}, []
+    results = {}
 
     def one(p):
         return assess_point(p, gate, frac, residue, duration_s)
@@ -131,52 +137,49 @@ def run(con, data_dir, request: dict, channels: dict[str, np.ndarray],
     pool = ThreadPoolExecutor(POINT_WORKERS) if long_points and len(points) > 1 else None
     try:
         outcomes = pool.map(one, points) if pool else map(one, points)
-        for i, (p, (res, table, dmg)) in enumerate(zip(points, outcomes)):
+        for i, (p, (res, _table, _dmg)) in enumerate(zip(points, outcomes)):
             results[p.name] = res
-            cycles.append((p.name, table, dmg))
             if progress is not None:
                 progress(i + 1, len(points))
     finally:
         if pool:
             pool.shutdown(cancel_futures=True)
     aid = sqlite.new_id("a")
-    rel = parquet.write_columns(data_dir, parquet.CYCLES, aid, _cycle_columns(cycles))
+    own = samples_file is None
+    rel = samples_file or parquet.write_columns(
+        data_dir, parquet.INPUTS, aid, {p.name: p.samples for p in points})
     row = {"id": aid, "history_id": history_id, "created_at": sqlite.now(), "state": "done",
            "request": json_safe({k: v for k, v in request.items() if k != "samples"}),
            "result": {"points": results, "duration_s": json_safe(duration_s),
                       "units": {"stress": "MPa", "damage": "-", "life_hours": "h",
                                 "life_cycles": "cycles"},
                       "cautions": list(CAUTIONS)},
-           "cycles_file": rel}
+           "samples_file": rel}
     try:
         with sqlite.write(con):
             sqlite.insert_assessment(con, row)
     except BaseException:
-        parquet.remove(data_dir, rel)
+        if own:
+            parquet.remove(data_dir, rel)
         raise
     return row
 
 
-def _cycle_columns(cycles) -> dict:
-    import pyarrow as pa
-
-    # The point name as a dictionary column: one small index per row.
-    index = np.repeat(np.arange(len(cycles), dtype=np.int32), [len(t) for _, t, _ in cycles])
-    cols = {"point": pa.DictionaryArray.from_arrays(
-        index, pa.array([n for n, _, _ in cycles], pa.string()))}
-    for col in ("stress_from", "stress_to", "count", "start_index", "end_index"):
-        cols[col] = np.concatenate([getattr(t, col) for _, t, _ in cycles])
-    cols["damage"] = np.concatenate([d for _, _, d in cycles])
-    return cols
-
-
 def point_cycles(data_dir, assessment: dict, point: str) -> tuple[CycleTable, np.ndarray]:
-    """The stored cycle table and per-cycle damage of one point."""
-    cols = parquet.read_columns(data_dir, assessment["cycles_file"])
-    sel = np.asarray(cols["point"]) == point
-    table = CycleTable(*(np.ascontiguousarray(cols[c][sel]) for c in (
-        "stress_from", "stress_to", "count", "start_index", "end_index")))
-    return table, cols["damage"][sel]
+    """A point's cycle table and per-cycle damage, recounted from its samples.
+
+    Uses the gate and residue treatment the assessment used and its settings,
+    so the rows are the ones the stored result was computed from.
+    """
+    request = assessment["request"]
+    res = assessment["result"]["points"][point]
+    samples = parquet.read_channels(data_dir, assessment["samples_file"], [point])[point]
+    table = astm_e1049(samples, gate=res["gate_mpa"], residue=res["settings"]["residue"])
+    settings = {**(request.get("settings") or {}),
+                **((request.get("points") or {}).get(point) or {})}
+    curve, opts, _ = point_from_dict(settings)
+    r = assess(table, curve, replace(opts, reserve_factor=False, top_cycles=0))
+    return table, r.damage_per_cycle
 
 
 def range_mean(table: CycleTable, range_bins, mean_bins) -> dict:

@@ -86,8 +86,10 @@ def create():
     runs.counting_options(body)
     planned = runs.plan(body, dict.fromkeys(names))
     if samples * len(planned) > current_app.config["ASYNC_SAMPLES"] or _prefers_async():
-        return _queue(body, channels, duration, hid, len(planned))
-    row = runs.run(db(), data_dir(), body, channels(), duration, hid)
+        return _queue(body, channels, duration, hid, len(planned),
+                      hist["file"] if hid else None)
+    row = runs.run(db(), data_dir(), body, channels(), duration, hid,
+                   samples_file=hist["file"] if hid else None)
     resp = jsonify(resource(row))
     resp.status_code = 201
     resp.headers["Location"] = resp.json["links"]["self"]
@@ -100,15 +102,13 @@ def _prefers_async() -> bool:
                for h in request.headers.getlist("Prefer") for p in h.split(","))
 
 
-def _queue(body, channels, duration, hid, n_points):
-    from service import jobs as _jobs  # noqa: F401  (the runner lives on the app)
-
+def _queue(body, channels, duration, hid, n_points, samples_file):
     job_id = sqlite.new_id("j")
     con = db()
     with sqlite.write(con):
         sqlite.insert_job(con, job_id, "assessment", n_points)
     current_app.extensions["cycleledger.jobs"].submit_assessment(
-        job_id, body, channels, duration, hid)
+        job_id, body, channels, duration, hid, samples_file)
     resp = jsonify(job_resource(sqlite.get_job(con, job_id)))
     resp.status_code = 202
     resp.headers["Location"] = resp.json["links"]["self"]

@@ -73,7 +73,11 @@ def delete(history_id: str):
     con = db()
     with sqlite.write(con):
         sqlite.delete_history(con, history_id)
-    parquet.remove(data_dir(), row["file"])
+        keep = sqlite.file_in_use(con, row["file"])
+    if not keep:
+        # Assessments made from it keep its samples (their cycle tables are
+        # recounted from them), so the file goes only with the last user.
+        parquet.remove(data_dir(), row["file"])
     return "", 204
 
 

@@ -1,6 +1,6 @@
 -- Metadata of the embedded store. Long arrays live in Parquet files beside
 -- the database; a row here names its file. Times are UTC ISO 8601 strings.
-PRAGMA user_version = 1;
+PRAGMA user_version = 2;
 
 CREATE TABLE IF NOT EXISTS histories (
     id              TEXT PRIMARY KEY,
@@ -20,7 +20,9 @@ CREATE TABLE IF NOT EXISTS assessments (
     state           TEXT NOT NULL,   -- done | failed
     request         TEXT NOT NULL,   -- JSON: the settings as posted
     result          TEXT,            -- JSON: per-point results
-    cycles_file     TEXT             -- Parquet file of every point's cycles
+    samples_file    TEXT             -- Parquet file of the samples assessed (MPa): the
+                                     -- history's file, or a copy of inline samples;
+                                     -- cycle tables are recounted from it on request
 );
 
 CREATE INDEX IF NOT EXISTS assessments_history ON assessments(history_id);

@@ -44,10 +44,26 @@ def connect(data_dir: str | Path) -> sqlite3.Connection:
     return con
 
 
+#: Version of schema.sql (its PRAGMA user_version).
+SCHEMA_VERSION = 2
+
+
+class IncompatibleStore(RuntimeError):
+    """The data directory was written by another version of the schema."""
+
+
 def init(data_dir: str | Path) -> None:
-    """Create the tables if they are missing."""
+    """Create the tables if they are missing; refuse a directory of another schema."""
     con = connect(data_dir)
     try:
+        version = con.execute("PRAGMA user_version").fetchone()[0]
+        has_tables = con.execute("SELECT count(*) FROM sqlite_master WHERE type = 'table'"
+                                 ).fetchone()[0]
+        if has_tables and version != SCHEMA_VERSION:
+            raise IncompatibleStore(
+                f"{Path(data_dir) / DB_NAME} has schema version {version}; this service "
+                f"needs {SCHEMA_VERSION} (a pre-release data directory: move it away or "
+                f"start with another --data-dir)")
         con.executescript(resources.files(__package__).joinpath("schema.sql").read_text())
     finally:
         con.close()
@@ -100,15 +116,21 @@ def delete_history(con, history_id: str) -> bool:
     return con.execute("DELETE FROM histories WHERE id = ?", (history_id,)).rowcount > 0
 
 
+def file_in_use(con, rel: str) -> bool:
+    """Whether an assessment still reads its samples from ``rel``."""
+    return con.execute("SELECT 1 FROM assessments WHERE samples_file = ? LIMIT 1",
+                       (rel,)).fetchone() is not None
+
+
 # ---------------------------------------------------------------- assessments
 
 
 def insert_assessment(con, row: dict) -> None:
     con.execute(
         "INSERT INTO assessments (id, history_id, created_at, state, request, result, "
-        "cycles_file) VALUES (?, ?, ?, ?, ?, ?, ?)",
+        "samples_file) VALUES (?, ?, ?, ?, ?, ?, ?)",
         (row["id"], row.get("history_id"), row["created_at"], row["state"],
-         json.dumps(row["request"]), json.dumps(row.get("result")), row.get("cycles_file")))
+         json.dumps(row["request"]), json.dumps(row.get("result")), row.get("samples_file")))
 
 
 def get_assessment(con, assessment_id: str) -> dict | None:

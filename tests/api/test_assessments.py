@@ -210,3 +210,14 @@ def test_wrong_content_type_and_malformed_json(client):
                    415, "unsupported-media-type")
     assert_problem(client.post("/v1/assessments", data="{", content_type="application/json"),
                    400, "malformed-body")
+
+
+def test_deleting_a_history_keeps_what_its_assessments_need(client, app):
+    x = np.random.default_rng(12).standard_normal(4000) * 70
+    hid = upload(client, {"a": x})
+    a = client.post("/v1/assessments", json={"history_id": hid, "settings": EN71}).get_json()
+    assert client.delete(f"/v1/histories/{hid}").status_code == 204
+    assert_problem(client.get(f"/v1/histories/{hid}"), 404, "not-found")
+    cyc = client.get(a["links"]["points"]["a"]["cycles"]).get_json()
+    assert math.fsum(cyc["damage"]) == pytest.approx(a["points"]["a"]["damage"], rel=1e-12)
+    assert len(stored_files(app)) == 1  # the samples, now owned by the assessment

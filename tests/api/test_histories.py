@@ -139,3 +139,18 @@ def test_unknown_ids_and_paging(client):
     r = client.put("/v1/histories")
     assert_problem(r, 405)
     assert "POST" in r.headers["Allow"]
+
+
+def test_a_data_directory_of_another_schema_is_refused(tmp_path):
+    import sqlite3
+
+    from service.api import create_app
+    from service.store.sqlite import DB_NAME, IncompatibleStore
+
+    d = tmp_path / "old"
+    d.mkdir()
+    con = sqlite3.connect(d / DB_NAME)
+    con.executescript("CREATE TABLE histories (id TEXT); PRAGMA user_version = 1;")
+    con.close()
+    with pytest.raises(IncompatibleStore, match="schema version 1"):
+        create_app({"DATA_DIR": str(d), "WARM_KERNELS": False})
