@@ -80,3 +80,44 @@ def test_demo_command_starts_posts_and_stops(tmp_path, capsys):
     for gauge in ("weld_toe_upper", "weld_toe_lower", "pin_lug", "cylinder_mount"):
         assert gauge in out
     assert "Service on http://127.0.0.1:" in out and "/summary?format=csv" in out
+
+
+def _demo_csv(tmp_path):
+    import sys
+    from pathlib import Path
+
+    sys.path.insert(0, str(Path(__file__).resolve().parents[2] / "examples"))
+    import make_demo
+
+    return make_demo.write(tmp_path / "data" / "loader_arm_rig.csv")
+
+
+def test_pipeline_example_posts_waits_and_fetches(served, tmp_path):
+    import subprocess
+    import sys
+    from pathlib import Path
+
+    csv = _demo_csv(tmp_path)
+    script = Path(__file__).resolve().parents[2] / "examples" / "pipeline.py"
+    out = subprocess.run([sys.executable, str(script), str(csv), "--url", served],
+                         capture_output=True, text=True, timeout=300)
+    assert out.returncode == 0, out.stderr
+    assert "pin_lug" in out.stdout
+    written = sorted(p.name for p in csv.parent.glob("*.cycles.parquet"))
+    assert len(written) == 4 and pd.read_parquet(csv.parent / written[0]).shape[0] > 0
+
+
+def test_curl_examples_run(served, tmp_path):
+    import shutil
+    import subprocess
+    from pathlib import Path
+
+    if shutil.which("curl") is None:
+        pytest.skip("curl is not installed")
+    examples = Path(__file__).resolve().parents[2] / "examples"
+    work = tmp_path / "ex"
+    shutil.copytree(examples, work, ignore=shutil.ignore_patterns("data", "__pycache__"))
+    out = subprocess.run(["sh", str(work / "curl.sh"), served], capture_output=True,
+                         text=True, timeout=300)
+    assert out.returncode == 0, out.stderr
+    assert "point,damage" in out.stdout and "unknown-name" in out.stdout
