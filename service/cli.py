@@ -182,6 +182,12 @@ def _cmd_demo(args) -> int:
         if args.no_wait:
             return 0
         print("Serving until Ctrl-C.", flush=True)
+        import signal
+
+        def _stop(_sig, _frame):
+            raise KeyboardInterrupt
+
+        signal.signal(signal.SIGTERM, _stop)  # a service manager's stop, like Ctrl-C
         while thread.is_alive():
             thread.join(0.5)
     except KeyboardInterrupt:
