@@ -318,20 +318,25 @@ def _version() -> str:
     return service.__version__
 
 
-def main(argv=None) -> int:
-    parser = argparse.ArgumentParser(prog="cycleledger", description=__doc__.splitlines()[0])
-    sub = parser.add_subparsers(dest="command", required=True)
-    p = sub.add_parser("assess", help="assess the channels of a recording")
+def _recording_args(p, unit_help: str) -> None:
+    """The options shared by ``assess`` and ``post``: a recording and its settings."""
     p.add_argument("file", help="CSV (header row; optional time_s column) or Parquet")
     p.add_argument("--points", help="JSON file with settings per channel")
     p.add_argument("--curve", help="catalogue designation for every channel")
     p.add_argument("--mean-stress-method", dest="mean_stress_method")
-    p.add_argument("--unit", help="unit of the samples (default MPa)")
+    p.add_argument("--unit", help=unit_help)
     p.add_argument("--youngs-modulus", dest="youngs_modulus", type=float,
                    help="E in MPa, for strain units")
     p.add_argument("--gate-fraction", dest="gate_fraction", type=float)
     p.add_argument("--sample-rate-hz", dest="sample_rate_hz", type=float)
     p.add_argument("--json", action="store_true", help="machine-readable output")
+
+
+def main(argv=None) -> int:
+    parser = argparse.ArgumentParser(prog="cycleledger", description=__doc__.splitlines()[0])
+    sub = parser.add_subparsers(dest="command", required=True)
+    p = sub.add_parser("assess", help="assess the channels of a recording")
+    _recording_args(p, "unit of the samples (default MPa)")
     p.set_defaults(func=_cmd_assess)
     p = sub.add_parser("demo", help="start the service, post the bundled demo, keep serving")
     p.add_argument("--out", help="where to write the demo CSV")
@@ -344,17 +349,8 @@ def main(argv=None) -> int:
                    help="assess in this process without the service")
     p.set_defaults(func=_cmd_demo)
     p = sub.add_parser("post", help="upload a recording to a running service and assess it")
-    p.add_argument("file", help="CSV (header row; optional time_s column) or Parquet")
+    _recording_args(p, "unit of the samples (required by the service)")
     p.add_argument("--url", default="http://127.0.0.1:8350", help="the service")
-    p.add_argument("--points", help="JSON file with settings per channel")
-    p.add_argument("--curve", help="catalogue designation for every channel")
-    p.add_argument("--mean-stress-method", dest="mean_stress_method")
-    p.add_argument("--unit", help="unit of the samples")
-    p.add_argument("--youngs-modulus", dest="youngs_modulus", type=float,
-                   help="E in MPa, for strain units")
-    p.add_argument("--gate-fraction", dest="gate_fraction", type=float)
-    p.add_argument("--sample-rate-hz", dest="sample_rate_hz", type=float)
-    p.add_argument("--json", action="store_true", help="machine-readable output")
     p.set_defaults(func=_cmd_post)
     p = sub.add_parser("curves", help="list the catalogue of published S-N curves")
     p.set_defaults(func=_cmd_curves)
