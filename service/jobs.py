@@ -49,7 +49,8 @@ class JobRunner:
                     "detail": f"history {history_id} was deleted before the job ran"})
                 return
             row = runs.run(con, self.data_dir, request, channels, duration_s,
-                           history_id, progress=progress, samples_file=samples_file)
+                           history_id, progress=progress, samples_file=samples_file,
+                           lookup=runs.store_lookup(con))
             sqlite.update_job(con, job_id, state="done", assessment_id=row["id"])
         except EngineError as exc:
             sqlite.update_job(con, job_id, state="failed",

@@ -19,7 +19,7 @@ from service.engine import histograms
 from service.engine.damage import CAUTIONS, assess
 from service.engine.errors import InvalidParameter, unknown
 from service.engine.rainflow import RESIDUE_TREATMENTS, CycleTable, astm_e1049, resolve_gate
-from service.engine.settings import point_from_dict
+from service.engine.settings import USER_CURVE_PREFIX, point_from_dict, resolve
 from service.store import parquet, sqlite
 
 #: Mean samples a point above which points are assessed on worker threads.
@@ -38,8 +38,12 @@ class PlannedPoint:
     settings: dict
 
 
-def plan(request: dict, channels: dict[str, np.ndarray]) -> list[PlannedPoint]:
-    """Which channels to assess with which settings; every error before any work."""
+def plan(request: dict, channels: dict[str, np.ndarray], lookup=None) -> list[PlannedPoint]:
+    """Which channels to assess with which settings; every error before any work.
+
+    ``lookup(kind, name)`` resolves stored materials and user curves (see
+    ``engine.settings.resolve``); each point keeps its resolved settings.
+    """
     unknown_keys = set(request) - REQUEST_KEYS
     if unknown_keys:
         raise InvalidParameter(f"unknown field(s): {', '.join(sorted(unknown_keys))}",
@@ -60,6 +64,8 @@ def plan(request: dict, channels: dict[str, np.ndarray]) -> list[PlannedPoint]:
             raise InvalidParameter(f"settings of point {name!r} must be an object",
                                    field="points")
         merged = {**defaults, **own}
+        if lookup is not None:
+            merged = resolve(merged, lookup)
         point_from_dict(merged)  # validate now: nothing is counted if any point is wrong
         out.append(PlannedPoint(name, channels[name], merged))
     return out
@@ -77,6 +83,19 @@ def counting_options(request: dict) -> tuple[float | None, float | None, str]:
     if residue not in RESIDUE_TREATMENTS:
         raise unknown("residue", residue, RESIDUE_TREATMENTS)
     return gate, frac, residue
+
+
+def store_lookup(con):
+    """``lookup(kind, name)`` over the stored materials and user curves."""
+    def lookup(kind: str, name: str) -> dict:
+        table = "materials" if kind == "material" else "user_curves"
+        doc = sqlite.get_named(con, table, name)
+        if doc is None:
+            names = [d["name"] for d in sqlite.list_named(con, table)]
+            shown = names if kind == "material" else [USER_CURVE_PREFIX + n for n in names]
+            raise unknown(kind, name if kind == "material" else USER_CURVE_PREFIX + name, shown)
+        return doc
+    return lookup
 
 
 def json_safe(value):
@@ -107,6 +126,7 @@ def assess_point(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
         curve=r.curve,
         estimate=estimate.as_dict() if estimate is not None else None,
         settings={**r.options, "residue": residue},
+        settings_used=point.settings,
         cautions=[c for c in r.cautions if c not in CAUTIONS],
     )
     return json_safe(out), table, r.damage_per_cycle
@@ -114,7 +134,7 @@ def assess_point(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
 
 def run(con, data_dir, request: dict, channels: dict[str, np.ndarray],
         duration_s: float | None, history_id: str | None, progress=None,
-        samples_file: str | None = None) -> dict:
+        samples_file: str | None = None, lookup=None) -> dict:
     """Assess, store and return the assessment row.
 
     ``samples_file`` is the stored history the channels came from; inline
@@ -125,7 +145,7 @@ def run(con, data_dir, request: dict, channels: dict[str, np.ndarray],
     after each point, if given.
     """
     gate, frac, residue = counting_options(request)
-    points = plan(request, channels)
+    points = plan(request, channels, lookup)
     results = {}
 
     def one(p):
@@ -171,13 +191,10 @@ def point_cycles(data_dir, assessment: dict, point: str) -> tuple[CycleTable, np
     Uses the gate and residue treatment the assessment used and its settings,
     so the rows are the ones the stored result was computed from.
     """
-    request = assessment["request"]
     res = assessment["result"]["points"][point]
     samples = parquet.read_channels(data_dir, assessment["samples_file"], [point])[point]
     table = astm_e1049(samples, gate=res["gate_mpa"], residue=res["settings"]["residue"])
-    settings = {**(request.get("settings") or {}),
-                **((request.get("points") or {}).get(point) or {})}
-    curve, opts, _ = point_from_dict(settings)
+    curve, opts, _ = point_from_dict(res["settings_used"])
     r = assess(table, curve, replace(opts, reserve_factor=False, top_cycles=0))
     return table, r.damage_per_cycle
 

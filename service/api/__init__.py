@@ -69,9 +69,9 @@ def create_app(test_config: dict | None = None) -> Flask:
             con.close()
 
     problems.register(app)
-    from . import assessments, catalogue, histories, meta
+    from . import assessments, catalogue, histories, library, meta
 
-    for bp in (meta.bp, histories.bp, assessments.bp, catalogue.bp):
+    for bp in (meta.bp, histories.bp, assessments.bp, catalogue.bp, library.bp):
         app.register_blueprint(bp)
     return app
 

@@ -84,12 +84,13 @@ def create():
     # Every check that needs no counting runs now: bad input is a 4xx here,
     # never a failed job later.
     runs.counting_options(body)
-    planned = runs.plan(body, dict.fromkeys(names))
+    planned = runs.plan(body, dict.fromkeys(names), runs.store_lookup(db()))
     if samples * len(planned) > current_app.config["ASYNC_SAMPLES"] or _prefers_async():
         return _queue(body, channels, duration, hid, len(planned),
                       hist["file"] if hid else None)
     row = runs.run(db(), data_dir(), body, channels(), duration, hid,
-                   samples_file=hist["file"] if hid else None)
+                   samples_file=hist["file"] if hid else None,
+                   lookup=runs.store_lookup(db()))
     resp = jsonify(resource(row))
     resp.status_code = 201
     resp.headers["Location"] = resp.json["links"]["self"]

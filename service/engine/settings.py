@@ -10,7 +10,8 @@ from __future__ import annotations
 from dataclasses import fields
 
 from .damage import AssessmentOptions
-from .errors import InvalidParameter
+from .errors import EngineError, InvalidParameter
+from .mean_stress import check_strengths
 from .sn_catalogue import catalogue_curve, thickness_factor
 from .sn_curve import SNCurve, basquin_amplitude, basquin_range, from_points
 from .sn_estimate import EstimatedCurve, shigley
@@ -49,7 +50,10 @@ def curve_from_dict(settings: dict) -> tuple[SNCurve, EstimatedCurve | None]:
             curve = basquin_range(**spec)
         else:
             curve = basquin_amplitude(**spec)
-    except TypeError as exc:
+    except EngineError:
+        raise
+    except (TypeError, ValueError) as exc:
+        # e.g. text where a number belongs, or arrays that do not fit
         raise InvalidParameter(f"{kind}: {exc}", field=kind) from exc
     if "below_limit" in settings:
         curve = curve.below_limit(settings["below_limit"])
@@ -89,3 +93,86 @@ def point_from_dict(settings: dict):
     """``(curve, options, estimate)`` for one point's settings dictionary."""
     curve, estimate = curve_from_dict(settings)
     return curve, options_from_dict(settings, curve), estimate
+
+
+# ---------------------------------------------------------------- what users store by name
+
+#: A point's ``curve`` naming a stored user curve starts with this.
+USER_CURVE_PREFIX = "user:"
+_CURVE_DEF_KEYS = {"curve_points", "basquin", "below_limit", "source"}
+MATERIAL_KEYS = ("ultimate_strength", "yield_strength", "fatigue_strength_coefficient",
+                 "walker_exponent")
+
+
+def user_curve_definition(doc) -> dict:
+    """Check a user curve: one of ``curve_points`` or ``basquin``, optionally
+    ``below_limit`` and a free-text ``source``. Returns the definition to store."""
+    doc = _mapping(doc, "definition")
+    extra = set(doc) - _CURVE_DEF_KEYS - {"name"}
+    if extra:
+        raise InvalidParameter(f"unknown field(s) of a user curve: {', '.join(sorted(extra))}",
+                               field=sorted(extra)[0])
+    out = {k: doc[k] for k in _CURVE_DEF_KEYS if k in doc}
+    if "source" in out and not isinstance(out["source"], str):
+        raise InvalidParameter("source must be text", field="source")
+    if sum(k in out for k in ("curve_points", "basquin")) != 1:
+        raise InvalidParameter("a user curve has exactly one of curve_points or basquin",
+                               field="curve_points")
+    curve_from_dict({k: v for k, v in out.items() if k != "source"})
+    return out
+
+
+def material_properties(doc) -> dict:
+    """Check a material: strengths in MPa (and Walker's exponent) with a free-text
+    ``source`` (tensile test, data sheet). Returns the properties to store."""
+    doc = _mapping(doc, "material")
+    extra = set(doc) - set(MATERIAL_KEYS) - {"source", "name"}
+    if extra:
+        raise InvalidParameter(f"unknown field(s) of a material: {', '.join(sorted(extra))}",
+                               field=sorted(extra)[0])
+    out = {}
+    for k in MATERIAL_KEYS:
+        if k in doc and doc[k] is not None:
+            v = doc[k]
+            if isinstance(v, bool) or not isinstance(v, (int, float)):
+                raise InvalidParameter(f"{k} {v!r} must be a number", field=k)
+            out[k] = float(v)
+    if not out:
+        raise InvalidParameter("a material needs at least one of "
+                               + ", ".join(MATERIAL_KEYS), field="ultimate_strength")
+    check_strengths(**out)
+    if "source" in doc:
+        if not isinstance(doc["source"], str):
+            raise InvalidParameter("source must be text", field="source")
+        out["source"] = doc["source"]
+    return out
+
+
+def resolve(settings: dict, lookup) -> dict:
+    """``settings`` with stored references replaced by what they name.
+
+    ``material``: the material's strengths fill in (a strength given in the
+    settings wins). ``curve`` = ``user:<name>``: the stored definition takes
+    its place. ``lookup(kind, name)`` returns the stored document or raises
+    (kind is ``"material"`` or ``"curve"``).
+    """
+    out = dict(settings)
+    if "material" in out:
+        name = out.pop("material")
+        if not isinstance(name, str):
+            raise InvalidParameter("material must be the name of a stored material",
+                                   field="material")
+        props = lookup("material", name)
+        for k in MATERIAL_KEYS:
+            if k in props and out.get(k) is None:
+                out[k] = props[k]
+    curve = out.get("curve")
+    if isinstance(curve, str) and curve.startswith(USER_CURVE_PREFIX):
+        name = curve[len(USER_CURVE_PREFIX):]
+        doc = lookup("curve", name)
+        del out["curve"]
+        kind = "curve_points" if "curve_points" in doc else "basquin"
+        out[kind] = {**doc[kind], "name": curve, "source": doc.get("source") or "user"}
+        if "below_limit" in doc and "below_limit" not in out:
+            out["below_limit"] = doc["below_limit"]
+    return out

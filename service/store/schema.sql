@@ -1,6 +1,6 @@
 -- Metadata of the embedded store. Long arrays live in Parquet files beside
 -- the database; a row here names its file. Times are UTC ISO 8601 strings.
-PRAGMA user_version = 2;
+PRAGMA user_version = 3;
 
 CREATE TABLE IF NOT EXISTS histories (
     id              TEXT PRIMARY KEY,
@@ -37,4 +37,18 @@ CREATE TABLE IF NOT EXISTS jobs (
     points_done     INTEGER NOT NULL DEFAULT 0,
     assessment_id   TEXT,
     error           TEXT             -- JSON problem details when failed
+);
+
+-- What users enter themselves: S-N curves (from points or Basquin constants)
+-- and materials (strengths from a tensile test or a data sheet), by name.
+CREATE TABLE IF NOT EXISTS user_curves (
+    name            TEXT PRIMARY KEY,
+    created_at      TEXT NOT NULL,
+    definition      TEXT NOT NULL    -- JSON: {curve_points | basquin, below_limit?, source?}
+);
+
+CREATE TABLE IF NOT EXISTS materials (
+    name            TEXT PRIMARY KEY,
+    created_at      TEXT NOT NULL,
+    properties      TEXT NOT NULL    -- JSON: strengths in MPa, walker_exponent, source
 );

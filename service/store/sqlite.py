@@ -45,7 +45,7 @@ def connect(data_dir: str | Path) -> sqlite3.Connection:
 
 
 #: Version of schema.sql (its PRAGMA user_version).
-SCHEMA_VERSION = 2
+SCHEMA_VERSION = 3
 
 
 class IncompatibleStore(RuntimeError):
@@ -190,3 +190,39 @@ def fail_interrupted_jobs(con) -> int:
     with write(con):
         return con.execute("UPDATE jobs SET state = 'failed', error = ?, updated_at = ? "
                            "WHERE state IN ('queued', 'running')", (err, now())).rowcount
+
+
+# ---------------------------------------------------------------- user curves, materials
+
+_NAMED = {"user_curves": "definition", "materials": "properties"}
+
+
+def insert_named(con, table: str, name: str, doc: dict) -> bool:
+    """Store ``doc`` under ``name``; False if the name is taken."""
+    col = _NAMED[table]
+    try:
+        con.execute(f"INSERT INTO {table} (name, created_at, {col}) VALUES (?, ?, ?)",
+                    (name, now(), json.dumps(doc)))
+    except sqlite3.IntegrityError:
+        return False
+    return True
+
+
+def get_named(con, table: str, name: str) -> dict | None:
+    col = _NAMED[table]
+    r = con.execute(f"SELECT name, created_at, {col} FROM {table} WHERE name = ?",
+                    (name,)).fetchone()
+    if r is None:
+        return None
+    return {"name": r["name"], "created_at": r["created_at"], **json.loads(r[col])}
+
+
+def list_named(con, table: str) -> list[dict]:
+    col = _NAMED[table]
+    rows = con.execute(f"SELECT name, created_at, {col} FROM {table} ORDER BY name").fetchall()
+    return [{"name": r["name"], "created_at": r["created_at"], **json.loads(r[col])}
+            for r in rows]
+
+
+def delete_named(con, table: str, name: str) -> bool:
+    return con.execute(f"DELETE FROM {table} WHERE name = ?", (name,)).rowcount > 0
