@@ -444,6 +444,19 @@ def assess_history(samples, curve: SNCurve, options: AssessmentOptions | None = 
     return assess(table, curve, options, duration_s=duration_s)
 
 
+def _column_items(array: np.ndarray, block: int = 32):
+    """``("0", column), ...`` of a 2-D array, each column contiguous.
+
+    Columns are copied 32 at a time as they are needed: a strided column
+    costs a cache miss per sample, and a whole-array transpose would hold a
+    second copy of everything at once.
+    """
+    for j in range(0, array.shape[1], block):
+        rows = np.ascontiguousarray(array[:, j:j + block].T)
+        for k in range(rows.shape[0]):
+            yield str(j + k), rows[k]
+
+
 def assess_many(histories, curve: SNCurve, options: AssessmentOptions | None = None, *,
                 gate: float = 0.0, residue: str = "half_cycles",
                 duration_s: float | None = None, workers: int = 2) -> dict:
@@ -454,16 +467,20 @@ def assess_many(histories, curve: SNCurve, options: AssessmentOptions | None = N
     The compiled kernels release the GIL, so ``workers`` threads count
     points side by side once points are long enough (on average
     ``_THREADED_SAMPLES`` samples) to pay for handing the GIL back and
-    forth; shorter points run one after another, which measured faster. A point that fails validation raises for the whole
-    call, naming the point (``channel``) so the caller can drop or fix it.
+    forth; shorter points run one after another, which measured faster. A
+    point that fails validation raises for the whole call, naming the point
+    (``channel``) so the caller can drop or fix it.
     """
     if isinstance(histories, np.ndarray):
         if histories.ndim != 2:
             raise InvalidParameter("a history array must be 2-D: samples x points",
                                    field="samples")
-        # One blocked transpose beats copying each strided column.
-        cols = np.asfortranarray(histories)
-        histories = {str(i): cols[:, i] for i in range(cols.shape[1])}
+        items = _column_items(histories)
+        n_items, mean_size = histories.shape[1], histories.shape[0]
+    else:
+        items = list(histories.items())
+        n_items = len(items)
+        mean_size = sum(np.size(v) for _, v in items) / max(n_items, 1)
     opts = options or AssessmentOptions()
 
     def one(item):
@@ -476,9 +493,7 @@ def assess_many(histories, curve: SNCurve, options: AssessmentOptions | None = N
             exc.details["channel"] = name
             raise
 
-    items = list(histories.items())
-    sizes = [np.size(v) for _, v in items]
-    if workers <= 1 or len(items) < 4 or sum(sizes) < _THREADED_SAMPLES * len(items):
+    if workers <= 1 or n_items < 4 or mean_size < _THREADED_SAMPLES:
         return dict(one(it) for it in items)
     with ThreadPoolExecutor(max_workers=workers) as pool:
         return dict(pool.map(one, items))

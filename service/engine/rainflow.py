@@ -30,8 +30,12 @@ from .errors import IncompatibleState, InvalidLoadHistory, InvalidParameter, unk
 #: Residue treatments for :func:`astm_e1049`, keyed by their public names.
 RESIDUE_TREATMENTS = ("half_cycles", "repeating_block")
 
-# Headroom kept in a cycle table before it is trimmed by a copy.
+# Headroom kept in a cycle table before it is trimmed by a copy: trimming
+# small tables (the usual case for many short points) cost five copies a
+# table for a few kilobytes saved.
 _SLACK_ROWS = 64
+_ROW_BYTES = 40
+_TRIM_BYTES = 1 << 20
 # Turning-point scratch kept per thread between calls, up to this many bytes:
 # fresh pages cost a fault each, which is a fifth of the time on short signals.
 _SCRATCH_MAX_BYTES = 32 * 2**20
@@ -398,7 +402,8 @@ def _stack(codes, k, x, offset, pre_v, pre_i, sv, si, sp, half_rule, final, cap)
         frm[m:need], to[m:need], cnt[m:need] = rv[:-1], rv[1:], 0.5
         s_ix[m:need], e_ix[m:need] = ri[:-1], ri[1:]
         m = need
-    if cols[0].shape[0] - m > max(_SLACK_ROWS, m // 4):
+    slack = cols[0].shape[0] - m
+    if slack > _SLACK_ROWS and slack * _ROW_BYTES > _TRIM_BYTES and slack > m // 4:
         table = CycleTable(*(c[:m].copy() for c in cols))
     else:
         table = CycleTable(*(c[:m] for c in cols))
