@@ -230,16 +230,33 @@ def _max_range(frm, to, lo, hi):
     return out
 
 
+#: Rows of the ``model`` array of :func:`damage_pass`: method code, its
+#: parameter, clip compressive means (0/1), ultimate strength (inf: none),
+#: range factor, equivalent slope, the slope as a whole number (or 0).
+MODEL_ROWS = 7
+#: Rows of the ``segments`` array: 1/S_a, 1/N_a, m, m as a whole number
+#: (or 0), lower and upper range of the segment.
+SEGMENT_ROWS = 6
+
+
+def model_array(method: str, param: float, clip: bool, ultimate: float, range_factor: float,
+                eq_slope: float) -> np.ndarray:
+    """The scalar settings of :func:`damage_pass` in one array (one argument)."""
+    return np.array([METHOD_CODES[method], param, 1.0 if clip else 0.0, ultimate,
+                     range_factor, eq_slope, _whole(eq_slope)], np.float64)
+
+
 @kernel
-def damage_pass(frm, to, cnt, scale, method, param, clip, ultimate, range_factor,
-                seg_inv_s, seg_c, seg_m, seg_whole, seg_lo, seg_hi, eq_slope, eq_whole,
-                per_cycle, extras):
+def damage_pass(frm, to, cnt, scale, model, segments, per_cycle, extras):
     """Miner damage of cycles ``frm -> to`` with every stress times ``scale``.
 
-    The curve comes as segments: on ``[seg_lo[j], seg_hi[j])`` a range S
-    fails after ``(S * seg_inv_s[j])^-seg_m[j] / seg_c[j]`` cycles
-    (``seg_whole[j]``: the slope as an int for the fast power, or 0).
-    Writes per-cycle damage into ``per_cycle`` unless it is empty.
+    ``model`` holds the scalar settings (:data:`MODEL_ROWS`, built by
+    :func:`model_array`) and ``segments`` the curve (:data:`SEGMENT_ROWS` x
+    segments, from :func:`curve_segments`): on ``[lo_j, hi_j)`` a range S
+    fails after ``(S / S_a)^-m / (1/N_a)`` cycles. Few arguments on purpose:
+    numba types every argument on every call, which costs more than the loop
+    on a short history. Writes per-cycle damage into ``per_cycle`` unless it
+    is empty.
 
     Returns ``(damage, overloads, slope_weight, max_range_on_curve, eq_sum,
     max_range)``: damage (inf with any overload), overload cycles, the
@@ -248,9 +265,21 @@ def damage_pass(frm, to, cnt, scale, method, param, clip, ultimate, range_factor
     range, ``sum count (S / range_factor)^eq_slope`` and the largest unscaled
     range.
     """
+    method = int(model[0])
+    param = model[1]
+    clip = model[2] != 0.0
+    ultimate = model[3]
+    range_factor = model[4]
+    eq_slope = model[5]
+    eq_whole = int(model[6])
+    seg_inv_s = segments[0]
+    seg_c = segments[1]
+    seg_m = segments[2]
+    seg_lo = segments[4]
+    seg_hi = segments[5]
     n = frm.shape[0]
     write_d = per_cycle.shape[0] > 0
-    nseg = seg_m.shape[0]
+    nseg = segments.shape[1]
     sr = np.empty(_CHUNK)
     d = np.empty(_CHUNK)
     w = np.empty(_CHUNK)
@@ -271,7 +300,7 @@ def damage_pass(frm, to, cnt, scale, method, param, clip, ultimate, range_factor
         w[:k] = 0.0
         for g in range(nseg):
             _segment_damage(sr, k, cnt, lo, seg_inv_s[g], seg_c[g], seg_m[g],
-                            seg_whole[g], seg_lo[g], seg_hi[g], d, w)
+                            int(segments[3, g]), seg_lo[g], seg_hi[g], d, w)
         total += _sum8(d, k)
         weight += _sum8(w, k)
         if write_d:
@@ -288,7 +317,8 @@ def damage_pass(frm, to, cnt, scale, method, param, clip, ultimate, range_factor
 
 @functools.lru_cache(maxsize=256)
 def curve_segments(curve):
-    """The curve as ``damage_pass`` segment arrays ``(inv_s, c, m, whole, lo, hi)``.
+    """The curve as the ``segments`` array of ``damage_pass`` (rows inv_s, c, m,
+    whole, lo, hi; one column a segment).
 
     Segment j runs from its lower knee (or the cut-off) up to the knee above;
     on it N = N_a (S / S_a)^-m through its anchor (N_a, S_a).
@@ -304,10 +334,9 @@ def curve_segments(curve):
     lo = np.maximum(lo, max(cut, np.nextafter(0.0, 1.0)))
     inv_s = 1.0 / anchors_s[:nseg]
     c = 1.0 / anchors_n[:nseg]
-    whole = np.array([_whole(m) for m in slopes], np.int64)
-    out = (inv_s, c, slopes, whole, lo, hi)
-    for a in out:
-        a.flags.writeable = False  # shared between calls through the cache
+    whole = np.array([_whole(m) for m in slopes], np.float64)
+    out = np.ascontiguousarray(np.vstack([inv_s, c, slopes, whole, lo, hi]))
+    out.flags.writeable = False  # shared between calls through the cache
     return out
 
 

@@ -230,11 +230,12 @@ class _Evaluator:
             opts.compressive_mean == "zero"
             or (opts.compressive_mean == "no_benefit" and method != "gerber"))
         self.curve = curve
-        self.args = (_dk.METHOD_CODES[method], float(param), bool(clip),
-                     float(opts.ultimate_strength) if opts.ultimate_strength else math.inf,
-                     opts.thickness_factor * opts.strength_factor,
-                     *_dk.curve_segments(curve), float(opts.equivalent_slope),
-                     _dk._whole(opts.equivalent_slope))
+        self.segments = _dk.curve_segments(curve)
+        self.args = (_dk.model_array(
+            method, float(param), clip,
+            float(opts.ultimate_strength) if opts.ultimate_strength else math.inf,
+            opts.thickness_factor * opts.strength_factor, float(opts.equivalent_slope)),
+            self.segments)
         self.load_factor = opts.load_factor
         self.cols = (table.stress_from, table.stress_to, table.count)
         self.calls = 0
@@ -252,7 +253,7 @@ class _Evaluator:
         slope = weight / d if 0 < d < math.inf else None
         max_inv = 0.0
         if extras and out[3] > 0:
-            max_inv = _dk.inverse_life(self.args[5:11], out[3])
+            max_inv = _dk.inverse_life(self.segments, out[3])
         return (d, over, slope, max_inv) + tuple(out[4:])
 
     def restrict(self, s_max: float, damage_at_s_max=None) -> None:
