@@ -279,7 +279,7 @@ def _cmd_curves(args) -> int:
 def _cmd_serve(args) -> int:
     import logging
 
-    from waitress import serve
+    from gunicorn.app.base import BaseApplication
 
     from service.api import create_app
 
@@ -291,11 +291,27 @@ def _cmd_serve(args) -> int:
         config["JOB_WORKERS"] = args.job_workers
     if args.async_samples is not None:
         config["ASYNC_SAMPLES"] = args.async_samples
-    app = create_app(config)
-    print(f"cycleledger {_version()} serving on http://{args.host}:{args.port}/v1/ "
-          f"(data in {app.config['DATA_DIR']}; Ctrl-C stops)", flush=True)
-    serve(app, host=args.host, port=args.port, threads=args.threads, ident="cycleledger",
-          **waitress_options(app))
+
+    class Server(BaseApplication):
+        # One worker process with request threads: jobs and their state live
+        # in this process, and gunicorn hands a request body to the app as it
+        # arrives, so an upload is written to disk while it is received.
+        def load_config(self):
+            for key, value in {
+                    "bind": f"{args.host}:{args.port}", "workers": 1,
+                    "worker_class": "gthread", "threads": args.threads,
+                    "timeout": 600, "graceful_timeout": 30, "keepalive": 5,
+                    "control_socket_disable": True, "accesslog": "-",
+                    "errorlog": "-"}.items():
+                self.cfg.set(key, value)
+
+        def load(self):
+            app = create_app(config)
+            print(f"cycleledger {_version()} serving on http://{args.host}:{args.port}/v1/ "
+                  f"(data in {app.config['DATA_DIR']}; Ctrl-C stops)", flush=True)
+            return app
+
+    Server().run()
     return 0
 
 
@@ -354,7 +370,7 @@ def main(argv=None) -> int:
     p.set_defaults(func=_cmd_post)
     p = sub.add_parser("curves", help="list the catalogue of published S-N curves")
     p.set_defaults(func=_cmd_curves)
-    p = sub.add_parser("serve", help="run the HTTP service (waitress)")
+    p = sub.add_parser("serve", help="run the HTTP service (gunicorn, one process, threads)")
     p.add_argument("--host", default="127.0.0.1", help="address to listen on")
     p.add_argument("--port", type=int, default=8350)
     p.add_argument("--data-dir", dest="data_dir",

@@ -30,15 +30,21 @@ def load(history_id: str) -> dict:
 @bp.post("/v1/histories")
 def upload():
     """Store one recording: every channel checked and converted to MPa."""
-    up = uploads.parse(request_body(), request.content_type, request.args.to_dict())
-    hid = sqlite.new_id("h")
+    uploads.check_media_type(request.content_type)
+    folder = data_dir() / parquet.HISTORIES
+    spooled = spool_body(folder)
+    try:
+        up = uploads.parse(spooled, request.content_type, request.args.to_dict())
+        hid = sqlite.new_id("h")
+        if up.stored_as_sent:
+            rel = parquet.adopt(data_dir(), parquet.HISTORIES, hid, spooled)
+        else:
+            rel = parquet.write_columns(data_dir(), parquet.HISTORIES, hid, up.channels)
+    finally:
+        spooled.unlink(missing_ok=True)
     channels = [{"name": name, "unit": up.source_units[name], "stored_unit": "MPa",
                  "min_mpa": up.ranges[name][0], "max_mpa": up.ranges[name][1]}
                 for name in up.channels]
-    if up.parquet_bytes is not None:
-        rel = parquet.write_bytes(data_dir(), parquet.HISTORIES, hid, up.parquet_bytes)
-    else:
-        rel = parquet.write_columns(data_dir(), parquet.HISTORIES, hid, up.channels)
     row = {"id": hid, "name": up.name, "created_at": sqlite.now(),
            "sample_count": up.sample_count, "sample_rate_hz": up.sample_rate_hz,
            "duration_s": up.duration_s, "channels": channels, "file": rel}
@@ -81,31 +87,37 @@ def delete(history_id: str):
     return "", 204
 
 
-def request_body() -> bytes:
-    """The whole body in one read.
+def spool_body(folder) -> "Path":
+    """Write the request body to a temporary file in ``folder`` as it arrives.
 
-    Werkzeug's ``get_data`` copies a large body in 64 kB pieces (about 0.1 s
-    for 64 MB); with a declared length under the limit one read of the WSGI
-    stream does the same. Without a length, or for chunked bodies, fall back
-    to werkzeug (which also enforces the limit).
+    Under gunicorn the body is read from the socket while this runs, so a
+    large upload is on its way to disk before its last byte is in; the
+    caller parses the file (memory-mapped) and either keeps it or removes it.
+    Werkzeug's stream enforces the upload limit (413).
     """
-    n = request.content_length
-    limit = request.max_content_length
-    env = request.environ
-    if n is None or env.get("HTTP_TRANSFER_ENCODING", "").lower() == "chunked":
-        return request.get_data(cache=False)
-    if limit is not None and n > limit:
-        from werkzeug.exceptions import RequestEntityTooLarge
+    import uuid
+    from pathlib import Path
 
-        raise RequestEntityTooLarge()
-    body = env["wsgi.input"].read(n)
-    if len(body) < n:
-        from .problems import MalformedBody
+    from .problems import MalformedBody
 
-        raise MalformedBody(f"the body ended after {len(body)} of {n} bytes")
-    # What get_data() would have cached, so later readers see the body too.
-    request._cached_data = body
-    return body
+    Path(folder).mkdir(parents=True, exist_ok=True)
+    tmp = Path(folder) / f"{parquet.TMP_PREFIX}{uuid.uuid4().hex}.upload"
+    expected = request.content_length
+    got = 0
+    try:
+        with open(tmp, "wb") as f:
+            while True:
+                chunk = request.stream.read(1 << 22)
+                if not chunk:
+                    break
+                f.write(chunk)
+                got += len(chunk)
+        if expected is not None and got < expected:
+            raise MalformedBody(f"the body ended after {got} of {expected} bytes")
+    except BaseException:
+        tmp.unlink(missing_ok=True)
+        raise
+    return tmp
 
 
 def page_args() -> tuple[int, int]:

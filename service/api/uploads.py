@@ -9,7 +9,6 @@ stored.
 
 from __future__ import annotations
 
-import io
 import math
 from dataclasses import dataclass
 
@@ -38,7 +37,7 @@ class Upload:
     sample_rate_hz: float | None
     name: str | None
     ranges: dict[str, tuple[float, float]]  # (min, max) of each channel [MPa]
-    parquet_bytes: bytes | None = None       # the body, when it can be stored as sent
+    stored_as_sent: bool = False             # the uploaded Parquet file can be kept as is
 
     @property
     def sample_count(self) -> int:
@@ -51,27 +50,36 @@ class Upload:
         return self.sample_count / self.sample_rate_hz
 
 
-def parse(body: bytes, content_type: str, params: dict) -> Upload:
-    """Parse and validate an upload. ``params`` are the query parameters."""
+def check_media_type(content_type: str | None) -> str:
+    """The body's media type, or 415 listing the accepted ones."""
     mime = (content_type or "").split(";")[0].strip().lower()
     if mime not in UPLOAD_TYPES:
         raise UnsupportedMediaType(
             f"content type {mime or '(none)'!r} is not accepted; send one of "
             f"{', '.join(UPLOAD_TYPES)}", valid=list(UPLOAD_TYPES))
-    if not body:
+    return mime
+
+
+def parse(path, content_type: str, params: dict) -> Upload:
+    """Parse and validate an upload spooled to ``path``; ``params`` are the
+    query parameters. Parquet and Arrow are memory-mapped, not read."""
+    import os
+
+    mime = check_media_type(content_type)
+    if os.path.getsize(path) == 0:
         raise InvalidUpload("the upload is empty", field="body")
     params = dict(params)
     if mime in JSON_TYPES:
-        columns, params = _json(body, params)
+        with open(path, "rb") as f:
+            columns, params = _json(f.read(), params)
     elif mime in CSV_TYPES:
-        columns = _csv(body)
+        columns = _csv(path)
     else:
-        columns = _arrow(body, mime)
+        columns = _arrow(path, mime)
     up = validated(columns, params)
-    if mime in PARQUET_TYPES and _stored_as_sent(up, columns):
-        # Already float64 MPa with nothing to convert: keep the file as sent
-        # (one write, no re-encoding); readers select the channel columns.
-        up.parquet_bytes = body
+    # Already float64 MPa with nothing to convert: keep the file as sent
+    # (no second write, no re-encoding); readers select the channel columns.
+    up.stored_as_sent = mime in PARQUET_TYPES and _stored_as_sent(up, columns)
     return up
 
 
@@ -102,28 +110,29 @@ def _json(body: bytes, params: dict):
     return columns, params
 
 
-def _csv(body: bytes) -> dict:
+def _csv(path) -> dict:
     import pyarrow as pa
     from pyarrow import csv as pacsv
 
     try:
-        table = pacsv.read_csv(io.BytesIO(body))
+        table = pacsv.read_csv(str(path))
     except (pa.ArrowInvalid, UnicodeDecodeError) as exc:
         raise MalformedBody(f"the CSV could not be read: {exc}") from None
     return _table_columns(table)
 
 
-def _arrow(body: bytes, mime: str) -> dict:
+def _arrow(path, mime: str) -> dict:
     import pyarrow as pa
     import pyarrow.parquet as pq
 
     try:
+        source = pa.memory_map(str(path))
         if mime in PARQUET_TYPES:
-            table = pq.read_table(pa.BufferReader(body))
+            table = pq.read_table(source)
         elif mime.endswith("stream"):
-            table = pa.ipc.open_stream(body).read_all()
+            table = pa.ipc.open_stream(source).read_all()
         else:
-            table = pa.ipc.open_file(pa.BufferReader(body)).read_all()
+            table = pa.ipc.open_file(source).read_all()
     except (pa.ArrowException, OSError) as exc:
         raise MalformedBody(f"the {mime} body could not be read: {exc}") from None
     return _table_columns(table)

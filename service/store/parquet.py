@@ -17,7 +17,8 @@ import pyarrow.parquet as pq
 
 HISTORIES = "histories"
 INPUTS = "inputs"
-_TMP = ".tmp-"
+TMP_PREFIX = ".tmp-"
+_TMP = TMP_PREFIX
 
 
 def _atomic(data_dir: str | Path, folder: str, name: str, write) -> str:
@@ -49,9 +50,15 @@ def write_columns(data_dir: str | Path, folder: str, name: str,
         table, tmp, compression="none", use_dictionary=False))
 
 
-def write_bytes(data_dir: str | Path, folder: str, name: str, data: bytes) -> str:
-    """Store a Parquet file as it came (already validated); returns the relative path."""
-    return _atomic(data_dir, folder, name, lambda tmp: Path(tmp).write_bytes(data))
+def adopt(data_dir: str | Path, folder: str, name: str, path: str | Path) -> str:
+    """Keep an already written, validated file (an upload spooled to disk) as
+    ``<folder>/<name>.parquet``: fsync it, rename it into place, fsync the folder."""
+    rel = f"{folder}/{name}.parquet"
+    target = Path(data_dir) / rel
+    _fsync(Path(path))
+    os.replace(path, target)
+    _fsync(target.parent)
+    return rel
 
 
 def _fsync(path: Path) -> None:
