@@ -138,7 +138,7 @@ def run(con, data_dir, request: dict, channels: dict[str, np.ndarray],
     """Assess, store and return the assessment row.
 
     ``samples_file`` is the stored history the channels came from; inline
-    channels are stored with the assessment instead. Cycle tables are not
+    channels are stored with the assessment, in the database. Cycle tables are not
     stored: counting is exact and repeatable, so :func:`point_cycles`
     recounts a point from these samples when asked (a fraction of the cost
     of writing and keeping every cycle). ``progress(done, total)`` is called
@@ -165,34 +165,35 @@ def run(con, data_dir, request: dict, channels: dict[str, np.ndarray],
         if pool:
             pool.shutdown(cancel_futures=True)
     aid = sqlite.new_id("a")
-    own = samples_file is None
-    rel = samples_file or parquet.write_columns(
-        data_dir, parquet.INPUTS, aid, {p.name: p.samples for p in points})
     row = {"id": aid, "history_id": history_id, "created_at": sqlite.now(), "state": "done",
            "request": json_safe({k: v for k, v in request.items() if k != "samples"}),
            "result": {"points": results, "duration_s": json_safe(duration_s),
                       "units": {"stress": "MPa", "damage": "-", "life_hours": "h",
                                 "life_cycles": "cycles"},
                       "cautions": list(CAUTIONS)},
-           "samples_file": rel}
-    try:
-        with sqlite.write(con):
-            sqlite.insert_assessment(con, row)
-    except BaseException:
-        if own:
-            parquet.remove(data_dir, rel)
-        raise
+           "samples_file": samples_file}
+    with sqlite.write(con):
+        sqlite.insert_assessment(con, row)
+        if samples_file is None:
+            # Inline samples go into the same transaction: one commit (one
+            # fsync) makes the result and what it was made from durable.
+            sqlite.insert_samples(con, aid, {p.name: np.ascontiguousarray(p.samples)
+                                             for p in points})
     return row
 
 
-def point_cycles(data_dir, assessment: dict, point: str) -> tuple[CycleTable, np.ndarray]:
+def point_cycles(data_dir, assessment: dict, point: str,
+                 con=None) -> tuple[CycleTable, np.ndarray]:
     """A point's cycle table and per-cycle damage, recounted from its samples.
 
     Uses the gate and residue treatment the assessment used and its settings,
     so the rows are the ones the stored result was computed from.
     """
     res = assessment["result"]["points"][point]
-    samples = parquet.read_channels(data_dir, assessment["samples_file"], [point])[point]
+    if assessment["samples_file"]:
+        samples = parquet.read_channels(data_dir, assessment["samples_file"], [point])[point]
+    else:
+        samples = sqlite.get_samples(con, assessment["id"], point)
     table = astm_e1049(samples, gate=res["gate_mpa"], residue=res["settings"]["residue"])
     curve, opts, _ = point_from_dict(res["settings_used"])
     r = assess(table, curve, replace(opts, reserve_factor=False, top_cycles=0))

@@ -198,7 +198,7 @@ def _point(assessment_id: str, point: str):
     row = load(assessment_id)
     if point not in (row["result"] or {}).get("points", {}):
         raise NotFound(f"assessment {assessment_id!r} has no point {point!r}", field="point")
-    return runs.point_cycles(data_dir(), row, point)
+    return runs.point_cycles(data_dir(), row, point, db())
 
 
 @bp.get("/v1/assessments/<assessment_id>/points/<point>/cycles")

@@ -16,7 +16,6 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 
 HISTORIES = "histories"
-INPUTS = "inputs"
 TMP_PREFIX = ".tmp-"
 _TMP = TMP_PREFIX
 
@@ -94,7 +93,7 @@ def remove(data_dir: str | Path, rel: str | None) -> None:
 def sweep(data_dir: str | Path) -> int:
     """Remove temporary files left by a crash; returns how many."""
     n = 0
-    for folder in (HISTORIES, INPUTS):
+    for folder in (HISTORIES,):
         for p in (Path(data_dir) / folder).glob(f"{_TMP}*"):
             p.unlink(missing_ok=True)
             n += 1

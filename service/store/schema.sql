@@ -1,6 +1,6 @@
 -- Metadata of the embedded store. Long arrays live in Parquet files beside
 -- the database; a row here names its file. Times are UTC ISO 8601 strings.
-PRAGMA user_version = 3;
+PRAGMA user_version = 4;
 
 CREATE TABLE IF NOT EXISTS histories (
     id              TEXT PRIMARY KEY,
@@ -51,4 +51,13 @@ CREATE TABLE IF NOT EXISTS materials (
     name            TEXT PRIMARY KEY,
     created_at      TEXT NOT NULL,
     properties      TEXT NOT NULL    -- JSON: strengths in MPa, walker_exponent, source
+);
+
+-- Inline samples of an assessment (small by nature: they came in a JSON
+-- body), kept in the same transaction as its result, as float64 bytes in MPa.
+CREATE TABLE IF NOT EXISTS assessment_samples (
+    assessment_id   TEXT NOT NULL REFERENCES assessments(id) ON DELETE CASCADE,
+    point           TEXT NOT NULL,
+    samples         BLOB NOT NULL,
+    PRIMARY KEY (assessment_id, point)
 );

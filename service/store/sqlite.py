@@ -45,7 +45,7 @@ def connect(data_dir: str | Path) -> sqlite3.Connection:
 
 
 #: Version of schema.sql (its PRAGMA user_version).
-SCHEMA_VERSION = 3
+SCHEMA_VERSION = 4
 
 
 class IncompatibleStore(RuntimeError):
@@ -131,6 +131,22 @@ def insert_assessment(con, row: dict) -> None:
         "samples_file) VALUES (?, ?, ?, ?, ?, ?, ?)",
         (row["id"], row.get("history_id"), row["created_at"], row["state"],
          json.dumps(row["request"]), json.dumps(row.get("result")), row.get("samples_file")))
+
+
+def insert_samples(con, assessment_id: str, channels: dict) -> None:
+    """Keep an assessment's inline samples (float64 arrays, MPa)."""
+    con.executemany("INSERT INTO assessment_samples (assessment_id, point, samples) "
+                    "VALUES (?, ?, ?)",
+                    [(assessment_id, name, memoryview(x)) for name, x in channels.items()])
+
+
+def get_samples(con, assessment_id: str, point: str):
+    """One point's inline samples as a float64 array, or None."""
+    import numpy as np
+
+    r = con.execute("SELECT samples FROM assessment_samples WHERE assessment_id = ? AND "
+                    "point = ?", (assessment_id, point)).fetchone()
+    return None if r is None else np.frombuffer(r[0], dtype=np.float64)
 
 
 def get_assessment(con, assessment_id: str) -> dict | None:
