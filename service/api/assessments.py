@@ -11,7 +11,7 @@ from flask import Blueprint, Response, current_app, jsonify, request, url_for
 from service import runs
 from service.store import parquet, sqlite
 
-from . import data_dir, db, uploads
+from . import created, data_dir, db, uploads
 from .histories import load as load_history, page_args
 from .problems import ApiProblem, MalformedBody, NotAcceptable, NotFound, UnsupportedMediaType
 
@@ -91,10 +91,7 @@ def create():
     row = runs.run(db(), data_dir(), body, channels(), duration, hid,
                    samples_file=hist["file"] if hid else None,
                    lookup=runs.store_lookup(db()))
-    resp = jsonify(resource(row))
-    resp.status_code = 201
-    resp.headers["Location"] = resp.json["links"]["self"]
-    return resp
+    return created(resource(row), 201)
 
 
 def _prefers_async() -> bool:
@@ -110,10 +107,7 @@ def _queue(body, channels, duration, hid, n_points, samples_file):
         sqlite.insert_job(con, job_id, "assessment", n_points)
     current_app.extensions["cycleledger.jobs"].submit_assessment(
         job_id, body, channels, duration, hid, samples_file)
-    resp = jsonify(job_resource(sqlite.get_job(con, job_id)))
-    resp.status_code = 202
-    resp.headers["Location"] = resp.json["links"]["self"]
-    return resp
+    return created(job_resource(sqlite.get_job(con, job_id)), 202)
 
 
 def job_resource(job: dict) -> dict:

@@ -6,7 +6,7 @@ from flask import Blueprint, jsonify, request, url_for
 
 from service.store import parquet, sqlite
 
-from . import data_dir, db, uploads
+from . import created, data_dir, db, uploads
 from .problems import NotFound
 
 bp = Blueprint("histories", __name__)
@@ -55,10 +55,7 @@ def upload():
     except BaseException:
         parquet.remove(data_dir(), rel)
         raise
-    resp = jsonify(resource(row))
-    resp.status_code = 201
-    resp.headers["Location"] = resp.json["links"]["self"]
-    return resp
+    return created(resource(row), 201)
 
 
 @bp.get("/v1/histories")

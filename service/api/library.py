@@ -17,7 +17,7 @@ from service.engine.settings import (USER_CURVE_PREFIX, curve_from_dict, materia
 from service.runs import json_safe
 from service.store import sqlite
 
-from . import db
+from . import created, db
 from .problems import ApiProblem, MalformedBody, NotFound, UnsupportedMediaType
 
 bp = Blueprint("library", __name__)
@@ -67,10 +67,7 @@ def _create(table: str, doc: dict, name: str):
     if not ok:
         raise NameTaken(f"a {_KINDS[table][0]} named {name!r} exists; delete it first",
                         field="name")
-    resp = jsonify(_resource(table, sqlite.get_named(con, table, name)))
-    resp.status_code = 201
-    resp.headers["Location"] = resp.json["links"]["self"]
-    return resp
+    return created(_resource(table, sqlite.get_named(con, table, name)), 201)
 
 
 def _get(table: str, name: str) -> dict:

@@ -246,6 +246,28 @@ def model_array(method: str, param: float, clip: bool, ultimate: float, range_fa
                      range_factor, eq_slope, _whole(eq_slope)], np.float64)
 
 
+@njit(cache=True, nogil=True)
+def _overload_onset(frm, to, lo, hi, method, param, clip, ultimate):
+    """Smallest factor on the stresses of cycles lo..hi at which one becomes a
+    static overload (inf if none does), mirroring ``_equivalent_ranges``: the
+    peak above ``ultimate`` (strictly), or the correction's denominator
+    reaching zero (Goodman-type at mu >= param, Gerber at |mu| >= param)."""
+    out = math.inf
+    for i in range(lo, hi):
+        a = 0.5 * abs(frm[i] - to[i])
+        mean = 0.5 * (frm[i] + to[i])
+        peak = mean + a
+        if peak > 0.0 and ultimate < math.inf:
+            out = min(out, ultimate / peak)
+        if a > 0.0 and 1 <= method <= 4:
+            mu = max(mean, 0.0) if clip else mean
+            if method == 2:
+                mu = abs(mu)
+            if mu > 0.0:
+                out = min(out, param / mu)
+    return out
+
+
 @kernel
 def damage_pass(frm, to, cnt, scale, model, segments, per_cycle, extras):
     """Miner damage of cycles ``frm -> to`` with every stress times ``scale``.
@@ -259,11 +281,12 @@ def damage_pass(frm, to, cnt, scale, model, segments, per_cycle, extras):
     is empty.
 
     Returns ``(damage, overloads, slope_weight, max_range_on_curve, eq_sum,
-    max_range)``: damage (inf with any overload), overload cycles, the
-    damage-weighted slope sum (``slope_weight / damage`` is d log D / d log s
-    away from the cut-off), and, with ``extras``, the largest finite corrected
-    range, ``sum count (S / range_factor)^eq_slope`` and the largest unscaled
-    range.
+    max_range, overload_onset)``: damage (inf with any overload), overload
+    cycles, the damage-weighted slope sum (``slope_weight / damage`` is
+    d log D / d log s away from the cut-off), and, with ``extras``, the
+    largest finite corrected range, ``sum count (S / range_factor)^eq_slope``,
+    the largest unscaled range and the factor on the unscaled stresses at
+    which the first cycle becomes a static overload.
     """
     method = int(model[0])
     param = model[1]
@@ -290,6 +313,7 @@ def damage_pass(frm, to, cnt, scale, model, segments, per_cycle, extras):
     max_sr = 0.0
     eq_sum = 0.0
     max_range = 0.0
+    onset = math.inf
     inv_rf = 1.0 / range_factor
     for lo in range(0, n, _CHUNK):
         hi = min(lo + _CHUNK, n)
@@ -310,9 +334,10 @@ def damage_pass(frm, to, cnt, scale, model, segments, per_cycle, extras):
             eq_sum += _sum8(e, k)
             max_sr = max(max_sr, _max_finite(sr, k))
             max_range = max(max_range, _max_range(frm, to, lo, hi))
+            onset = min(onset, _overload_onset(frm, to, lo, hi, method, param, clip, ultimate))
     if over:
         total = math.inf
-    return total, over, weight, max_sr, eq_sum, max_range
+    return total, over, weight, max_sr, eq_sum, max_range, onset
 
 
 @functools.lru_cache(maxsize=256)

@@ -239,6 +239,7 @@ class _Evaluator:
         self.load_factor = opts.load_factor
         self.cols = (table.stress_from, table.stress_to, table.count)
         self.calls = 0
+        self.overload_scale = math.inf
 
     def __call__(self, s: float, per_cycle=None, extras: bool = False):
         """``(damage, overloads, slope, max_inv_life, eq_sum, max_range)`` at scale s.
@@ -252,9 +253,12 @@ class _Evaluator:
         d, over, weight = out[0], out[1], out[2]
         slope = weight / d if 0 < d < math.inf else None
         max_inv = 0.0
-        if extras and out[3] > 0:
-            max_inv = _dk.inverse_life(self.segments, out[3])
-        return (d, over, slope, max_inv) + tuple(out[4:])
+        if extras:
+            if out[3] > 0:
+                max_inv = _dk.inverse_life(self.segments, out[3])
+            # Scale s at which the first cycle becomes a static overload.
+            self.overload_scale = out[6] / self.load_factor
+        return (d, over, slope, max_inv) + tuple(out[4:6])
 
     def restrict(self, s_max: float, damage_at_s_max=None) -> None:
         """Keep only cycles that do damage at scale ``s_max``.
@@ -288,6 +292,18 @@ def _reserve_factor(evaluate, target: float, first, per_cycle=None) -> float | N
     flo = fhi = None
     s, (d, _, slope) = 1.0, first[:3]
     x_lo, x_hi = math.log(lo), math.log(hi)
+    s_over = getattr(evaluate, "overload_scale", math.inf)
+    if 1.0 < s_over < hi and math.isfinite(d) and d < target:
+        # Every scale from s_over on is a static overload (infinite damage).
+        # If just below it the damage is still short of the target, the
+        # reserve is s_over itself: no need to bisect down to the onset.
+        below = s_over * (1.0 - 1e-12)
+        d_below, _, slope_below = evaluate(below)[:3]
+        if d_below < target:
+            return s_over
+        x_hi, fhi = math.log(below), math.log(d_below) - log_t if d_below > 0 else None
+        if fhi is not None and abs(fhi) < 1e-8:
+            return below
     restricted = False
     prev = None
     for _ in range(100):
