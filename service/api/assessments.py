@@ -203,12 +203,7 @@ def cycles(assessment_id: str, point: str):
     cols = {c: getattr(table, c) for c in CYCLE_COLUMNS[:-1]}
     cols["damage"] = dmg
     if fmt == "parquet":
-        import pyarrow as pa
-        import pyarrow.parquet as pq
-
-        buf = io.BytesIO()
-        pq.write_table(pa.table(cols), buf)
-        return Response(buf.getvalue(), mimetype="application/vnd.apache.parquet")
+        return _parquet(cols)
     if fmt == "csv":
         return _csv(CYCLE_COLUMNS, zip(*(cols[c].tolist() for c in CYCLE_COLUMNS)))
     out = {c: runs.json_safe(cols[c].tolist()) for c in CYCLE_COLUMNS}
@@ -218,7 +213,7 @@ def cycles(assessment_id: str, point: str):
 @bp.get("/v1/assessments/<assessment_id>/points/<point>/range-mean")
 def range_mean(assessment_id: str, point: str):
     """Range-mean matrix of a point's cycles (``range_bins``, ``mean_bins``)."""
-    fmt = _format(("json", "csv"))
+    fmt = _format(("json", "csv", "parquet"))
     try:
         rb = int(request.args.get("range_bins", 32))
         mb = int(request.args.get("mean_bins", 32))
@@ -231,7 +226,21 @@ def range_mean(assessment_id: str, point: str):
     m = runs.range_mean(table, rb, mb)
     if fmt == "json":
         return jsonify(point=point, units={"stress": "MPa", "counts": "cycles"}, **m)
+    # CSV and Parquet: one row a bin (long format), the same columns.
     r, me = np.asarray(m["range_edges_mpa"]), np.asarray(m["mean_edges_mpa"])
-    rows = [[r[i], r[i + 1], me[j], me[j + 1], m["counts"][i][j]]
-            for i in range(len(r) - 1) for j in range(len(me) - 1)]
-    return _csv(("range_lo_mpa", "range_hi_mpa", "mean_lo_mpa", "mean_hi_mpa", "cycles"), rows)
+    i, j = np.meshgrid(np.arange(r.size - 1), np.arange(me.size - 1), indexing="ij")
+    i, j = i.ravel(), j.ravel()
+    cols = {"range_lo_mpa": r[i], "range_hi_mpa": r[i + 1], "mean_lo_mpa": me[j],
+            "mean_hi_mpa": me[j + 1], "cycles": np.asarray(m["counts"]).ravel()}
+    if fmt == "parquet":
+        return _parquet(cols)
+    return _csv(tuple(cols), zip(*(c.tolist() for c in cols.values())))
+
+
+def _parquet(cols: dict) -> Response:
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    buf = io.BytesIO()
+    pq.write_table(pa.table(cols), buf)
+    return Response(buf.getvalue(), mimetype="application/vnd.apache.parquet")
