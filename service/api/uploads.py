@@ -60,7 +60,7 @@ def check_media_type(content_type: str | None) -> str:
     return mime
 
 
-def parse(path, content_type: str, params: dict) -> Upload:
+def parse(path, content_type: str, params: dict, registered: dict | None = None) -> Upload:
     """Parse and validate an upload spooled to ``path``; ``params`` are the
     query parameters. Parquet and Arrow are memory-mapped, not read."""
     import os
@@ -76,7 +76,7 @@ def parse(path, content_type: str, params: dict) -> Upload:
         columns = _csv(path)
     else:
         columns = _arrow(path, mime)
-    up = validated(columns, params)
+    up = validated(columns, params, registered)
     # Already float64 MPa with nothing to convert: keep the file as sent
     # (no second write, no re-encoding); readers select the channel columns.
     up.stored_as_sent = mime in PARQUET_TYPES and _stored_as_sent(up, columns)
@@ -157,8 +157,13 @@ def _table_columns(table) -> dict:
     return out
 
 
-def validated(columns: dict, params: dict) -> Upload:
-    """Check named columns (arrays or lists) and convert them to MPa."""
+def validated(columns: dict, params: dict, registered: dict | None = None) -> Upload:
+    """Check named columns (arrays or lists) and convert them to MPa.
+
+    ``registered`` ({channel: (unit, youngs_modulus)}), when given, names the
+    only channels allowed (the ledger's points) and gives a channel whose
+    unit the request does not state its registered unit and modulus.
+    """
     time_col = params.get("time_column") or DEFAULT_TIME_COLUMN
     rate = params.get("sample_rate_hz")
     if rate is not None:
@@ -180,7 +185,11 @@ def validated(columns: dict, params: dict) -> Upload:
             raise InvalidParameter(
                 f"sample_rate_hz {rate} contradicts the time column ({inferred:.6g} Hz)",
                 field="sample_rate_hz", value=rate, limit=inferred)
-    unit_of = _units(params, list(columns))
+    if registered is not None:
+        for name in columns:
+            if name not in registered:
+                raise unknown("point", name, sorted(registered))
+    unit_of = _units(params, list(columns), registered or {})
     e = params.get("youngs_modulus")
     if e is not None:
         e = _positive(e, "youngs_modulus")
@@ -197,8 +206,11 @@ def validated(columns: dict, params: dict) -> Upload:
             exc.details["channel"] = name
             raise
         lengths.add(x.shape[0])
+        e_here = e
+        if e_here is None and registered and name in registered:
+            e_here = registered[name][1]
         with np.errstate(over="ignore", invalid="ignore"):
-            mpa = units.to_mpa(x, unit_of[name], e)
+            mpa = units.to_mpa(x, unit_of[name], e_here)
             # min and max carry NaN and inf through: two passes check
             # finiteness and give the range the history resource reports.
             lo, hi = float(np.min(mpa)), float(np.max(mpa))
@@ -237,9 +249,10 @@ def check_name(name, field: str) -> None:
                                f"{MAX_NAME_CHARS} characters", field=field)
 
 
-def _units(params: dict, names: list) -> dict:
+def _units(params: dict, names: list, registered: dict) -> dict:
     """Unit of each channel: ``units`` ({name: unit} or "a:MPa,b:microstrain"),
-    else ``unit`` for all. A channel without a unit is refused."""
+    else ``unit`` for all, else the channel's registered unit. A channel
+    without a unit is refused."""
     per = params.get("units") or {}
     if isinstance(per, str):
         try:
@@ -257,6 +270,8 @@ def _units(params: dict, names: list) -> dict:
     out = {}
     for name in names:
         unit = per.get(name, default)
+        if not unit and name in registered:
+            unit = registered[name][0]
         if not unit:
             raise InvalidParameter(
                 f"channel {name!r} has no unit; give unit (for all channels) or units "

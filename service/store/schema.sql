@@ -1,6 +1,6 @@
 -- Metadata of the embedded store. Long arrays live in Parquet files beside
 -- the database; a row here names its file. Times are UTC ISO 8601 strings.
-PRAGMA user_version = 4;
+PRAGMA user_version = 5;
 
 CREATE TABLE IF NOT EXISTS histories (
     id              TEXT PRIMARY KEY,
@@ -61,3 +61,81 @@ CREATE TABLE IF NOT EXISTS assessment_samples (
     samples         BLOB NOT NULL,
     PRIMARY KEY (assessment_id, point)
 );
+
+-- The ledger: running damage per asset and point over successive blocks.
+CREATE TABLE IF NOT EXISTS assets (
+    name            TEXT PRIMARY KEY,
+    created_at      TEXT NOT NULL,
+    description     TEXT
+);
+
+CREATE TABLE IF NOT EXISTS ledger_points (
+    asset           TEXT NOT NULL REFERENCES assets(name) ON DELETE CASCADE,
+    point           TEXT NOT NULL,
+    created_at      TEXT NOT NULL,
+    unit            TEXT NOT NULL,
+    youngs_modulus  REAL,
+    settings_version INTEGER NOT NULL,
+    -- running state under the current settings version
+    last_seq        INTEGER,         -- highest sequence number posted (voided included)
+    counting_state  TEXT,            -- JSON CountingState: the residue carried forward
+    damage          REAL NOT NULL DEFAULT 0,   -- Miner sum of the closed cycles
+    residue_damage  REAL NOT NULL DEFAULT 0,   -- what closing the residue now would add
+    cycles          REAL NOT NULL DEFAULT 0,
+    hours           REAL NOT NULL DEFAULT 0,   -- recorded hours counted
+    overload        INTEGER NOT NULL DEFAULT 0,
+    last_block_at   TEXT,            -- recording time of the latest block counted
+    updated_at      TEXT NOT NULL,
+    PRIMARY KEY (asset, point)
+);
+
+CREATE TABLE IF NOT EXISTS point_settings (
+    asset           TEXT NOT NULL,
+    point           TEXT NOT NULL,
+    version         INTEGER NOT NULL,
+    created_at      TEXT NOT NULL,
+    settings        TEXT NOT NULL,   -- JSON, as given
+    resolved        TEXT NOT NULL,   -- JSON, materials and user curves resolved
+    PRIMARY KEY (asset, point, version)
+);
+
+CREATE TABLE IF NOT EXISTS blocks (
+    id              TEXT PRIMARY KEY,
+    asset           TEXT NOT NULL REFERENCES assets(name) ON DELETE CASCADE,
+    seq             INTEGER NOT NULL,
+    created_at      TEXT NOT NULL,
+    recorded_at     TEXT,
+    idempotency_key TEXT,
+    content_hash    TEXT NOT NULL,
+    sample_rate_hz  REAL NOT NULL,
+    sample_count    INTEGER NOT NULL,
+    points          TEXT NOT NULL,   -- JSON list of point names
+    file            TEXT NOT NULL,   -- Parquet of the block's samples (MPa)
+    voided_at       TEXT,
+    response        TEXT             -- JSON: the first answer, replayed on a retry
+);
+CREATE UNIQUE INDEX IF NOT EXISTS blocks_key ON blocks(asset, idempotency_key)
+    WHERE idempotency_key IS NOT NULL;
+
+CREATE TABLE IF NOT EXISTS block_points (
+    asset           TEXT NOT NULL,
+    point           TEXT NOT NULL,
+    seq             INTEGER NOT NULL,
+    block_id        TEXT NOT NULL REFERENCES blocks(id) ON DELETE CASCADE,
+    PRIMARY KEY (asset, point, seq)
+);
+
+-- Every change of a point's totals: a block, a voided block, new settings.
+CREATE TABLE IF NOT EXISTS point_totals (
+    asset           TEXT NOT NULL,
+    point           TEXT NOT NULL,
+    at              TEXT NOT NULL,
+    reason          TEXT NOT NULL,   -- block | void | settings | late_block
+    block_id        TEXT,
+    settings_version INTEGER NOT NULL,
+    damage          REAL,            -- null = infinite (static overload)
+    residue_damage  REAL,
+    hours           REAL NOT NULL,
+    cycles          REAL NOT NULL
+);
+CREATE INDEX IF NOT EXISTS point_totals_point ON point_totals(asset, point, at);

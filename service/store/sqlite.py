@@ -45,7 +45,7 @@ def connect(data_dir: str | Path) -> sqlite3.Connection:
 
 
 #: Version of schema.sql (its PRAGMA user_version).
-SCHEMA_VERSION = 4
+SCHEMA_VERSION = 5
 
 
 class IncompatibleStore(RuntimeError):

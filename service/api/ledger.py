@@ -1,0 +1,288 @@
+"""The ledger over HTTP: assets, points, blocks, totals, dashboard feeds."""
+
+from __future__ import annotations
+
+import hashlib
+import math
+
+from flask import Blueprint, Response, jsonify, request, url_for
+
+from service import ledger, runs
+from service.engine import units as engine_units
+from service.engine.errors import InvalidParameter, unknown
+from service.store import ledger as sql
+from service.store import sqlite
+
+from . import created, data_dir, db, uploads
+from .assessments import _csv, _format
+from .histories import page_args, spool_body
+from .library import NameTaken, _NAME
+from .problems import ApiProblem, MalformedBody, NotFound, UnsupportedMediaType
+
+bp = Blueprint("ledger", __name__)
+
+#: Columns of the dashboard feed, in order (JSON fields and CSV header alike).
+FEED_COLUMNS = ("asset", "point", "damage", "consumed_percent", "projected_hours_remaining",
+                "damage_rate_per_hour", "recorded_hours", "residue_damage", "last_block_at",
+                "settings_version", "flags")
+
+
+class SequenceConflict(ApiProblem):
+    status, slug, title = 409, "sequence-conflict", "Block does not follow the sequence"
+
+
+def _json_body() -> dict:
+    if request.mimetype != "application/json":
+        raise UnsupportedMediaType("send JSON (application/json)", valid=["application/json"])
+    body = request.get_json(silent=True)
+    if not isinstance(body, dict):
+        raise MalformedBody("the body must be a JSON object")
+    return body
+
+
+def _name(value, field: str) -> str:
+    if not isinstance(value, str) or not _NAME.match(value):
+        raise ApiProblem(f"{field} must be 1-64 letters, digits, '_', '.' or '-', starting "
+                         f"with a letter or digit", field=field)
+    return value
+
+
+def _asset(asset: str) -> dict:
+    row = sql.get_asset(db(), asset)
+    if row is None:
+        raise NotFound(f"no asset {asset!r}", field="asset")
+    return row
+
+
+def _point(asset: str, point: str) -> dict:
+    _asset(asset)
+    row = sql.get_point(db(), asset, point)
+    if row is None:
+        raise NotFound(f"asset {asset!r} has no point {point!r}", field="point")
+    return row
+
+
+def _point_resource(row: dict) -> dict:
+    out = ledger.status(row)
+    out["settings"] = row["settings"]
+    out["settings_used"] = row["resolved"]
+    out["youngs_modulus"] = row["youngs_modulus"]
+    out["links"] = {
+        "self": url_for("ledger.get_point", asset=row["asset"], point=row["point"]),
+        "history": url_for("ledger.point_history", asset=row["asset"], point=row["point"]),
+        "settings": url_for("ledger.put_settings", asset=row["asset"], point=row["point"])}
+    return out
+
+
+def _asset_resource(row: dict) -> dict:
+    points = [ledger.status(p) for p in sql.list_points(db(), row["name"])]
+    return {**row, "points": points,
+            "links": {"self": url_for("ledger.get_asset", asset=row["name"]),
+                      "blocks": url_for("ledger.list_blocks", asset=row["name"])}}
+
+
+# ---------------------------------------------------------------- assets, points
+
+
+@bp.post("/v1/assets")
+def create_asset():
+    body = _json_body()
+    name = _name(body.get("name"), "name")
+    desc = body.get("description")
+    if desc is not None and not isinstance(desc, str):
+        raise ApiProblem("description must be text", field="description")
+    con = db()
+    with sqlite.write(con):
+        if not sql.insert_asset(con, name, desc):
+            raise NameTaken(f"an asset named {name!r} exists", field="name")
+    return created(_asset_resource(sql.get_asset(con, name)))
+
+
+@bp.get("/v1/assets")
+def list_assets():
+    return jsonify(items=[_asset_resource(a) for a in sql.list_assets(db())])
+
+
+@bp.get("/v1/assets/<asset>")
+def get_asset(asset: str):
+    return jsonify(_asset_resource(_asset(asset)))
+
+
+@bp.post("/v1/assets/<asset>/points")
+def create_point(asset: str):
+    """Register a point with its unit and assessment settings (version 1)."""
+    _asset(asset)
+    body = _json_body()
+    name = _name(body.get("name"), "name")
+    unit = body.get("unit")
+    if unit not in engine_units.UNITS:
+        raise unknown("unit", unit, engine_units.UNITS)
+    e = body.get("youngs_modulus")
+    if engine_units.is_strain(unit):
+        if isinstance(e, bool) or not isinstance(e, (int, float)) or not (
+                math.isfinite(e) and e > 0):
+            raise InvalidParameter(f"unit {unit!r} is a strain: youngs_modulus (MPa) must be "
+                                   f"a positive number", field="youngs_modulus")
+    elif e is not None:
+        raise InvalidParameter("youngs_modulus applies to strain units only",
+                               field="youngs_modulus")
+    settings, resolved = ledger.check_settings(body.get("settings", {}),
+                                               runs.store_lookup(db()))
+    con = db()
+    with sqlite.write(con):
+        if not sql.insert_point(con, asset, name, unit, e, settings, resolved):
+            raise NameTaken(f"asset {asset!r} has a point named {name!r}", field="name")
+    return created(_point_resource(sql.get_point(con, asset, name)))
+
+
+@bp.get("/v1/assets/<asset>/points/<point>")
+def get_point(asset: str, point: str):
+    return jsonify(_point_resource(_point(asset, point)))
+
+
+@bp.put("/v1/assets/<asset>/points/<point>/settings")
+def put_settings(asset: str, point: str):
+    """New settings version; the point's totals are recounted under it."""
+    _point(asset, point)
+    body = _json_body()
+    settings, resolved = ledger.check_settings(body.get("settings"), runs.store_lookup(db()))
+    ledger.new_settings(db(), data_dir(), asset, point, settings, resolved)
+    return jsonify(_point_resource(sql.get_point(db(), asset, point)))
+
+
+@bp.get("/v1/assets/<asset>/points/<point>/history")
+def point_history(asset: str, point: str):
+    """Every change of the point's totals, oldest first (JSON or CSV)."""
+    fmt = _format(("json", "csv"))
+    _point(asset, point)
+    rows = [runs.json_safe(r) for r in sql.point_history(db(), asset, point)]
+    cols = ("at", "reason", "block_id", "settings_version", "damage", "residue_damage",
+            "hours", "cycles")
+    if fmt == "csv":
+        return _csv(cols, [["" if r[c] is None else r[c] for c in cols] for r in rows])
+    return jsonify(asset=asset, point=point, items=rows)
+
+
+# ---------------------------------------------------------------- blocks
+
+
+def _flag(name: str) -> bool:
+    v = request.args.get(name, "false").lower()
+    if v not in ("true", "false", "1", "0"):
+        raise ApiProblem(f"{name} must be true or false", field=name)
+    return v in ("true", "1")
+
+
+def _block_resource(block: dict) -> dict:
+    return {k: block[k] for k in ("id", "asset", "seq", "created_at", "recorded_at",
+                                  "sample_rate_hz", "sample_count", "points")} | {
+        "voided": bool(block.get("voided_at")), "voided_at": block.get("voided_at"),
+        "links": {"self": url_for("ledger.get_block", asset=block["asset"],
+                                  block_id=block["id"])}}
+
+
+@bp.post("/v1/assets/<asset>/blocks")
+def post_block(asset: str):
+    """Count a block of samples for some of the asset's points (``seq`` per point)."""
+    _asset(asset)
+    try:
+        seq = int(request.args["seq"])
+    except (KeyError, ValueError):
+        raise ApiProblem("seq (a whole number) is required", field="seq") from None
+    if not 0 <= seq <= 2**62:
+        raise ApiProblem("seq must be 0..2^62", field="seq")
+    recorded_at = request.args.get("recorded_at")
+    key = request.headers.get("Idempotency-Key")
+    if key is not None and not (0 < len(key) <= 200 and key.isprintable()):
+        raise ApiProblem("Idempotency-Key must be 1-200 printable characters",
+                         field="Idempotency-Key")
+    allow_gap, allow_late = _flag("allow_gap"), _flag("allow_late")
+    uploads.check_media_type(request.content_type)
+    con = db()
+    registered = {p["point"]: (p["unit"], p["youngs_modulus"])
+                  for p in sql.list_points(con, asset)}
+    spooled = spool_body(data_dir() / ledger.BLOCKS)
+    try:
+        params = {k: v for k, v in request.args.items()
+                  if k not in ("seq", "recorded_at", "allow_gap", "allow_late")}
+        digest = hashlib.sha256()
+        with open(spooled, "rb") as f:
+            for chunk in iter(lambda: f.read(1 << 22), b""):
+                digest.update(chunk)
+        up = uploads.parse(spooled, request.content_type, params, registered)
+        ledger.check_block(con, asset, up, {n: {"unit": u} for n, (u, _) in registered.items()})
+
+        def respond(block, statuses):
+            return {"block": _block_resource(block), "points": statuses}
+
+        try:
+            answer, _replayed = ledger.post_block(
+                con, data_dir(), asset, seq, up, spooled, recorded_at=recorded_at,
+                idempotency_key=key, content_hash=digest.hexdigest(), allow_gap=allow_gap,
+                allow_late=allow_late, respond=respond)
+        except ledger.LedgerConflict as exc:
+            raise SequenceConflict(exc.detail, **exc.extra) from None
+    finally:
+        spooled.unlink(missing_ok=True)
+    resp = jsonify(answer)
+    resp.status_code = 201
+    resp.headers["Location"] = answer["block"]["links"]["self"]
+    return resp
+
+
+@bp.get("/v1/assets/<asset>/blocks")
+def list_blocks(asset: str):
+    _asset(asset)
+    limit, offset = page_args()
+    return jsonify(items=[_block_resource(b) for b in sql.list_blocks(db(), asset, limit,
+                                                                     offset)],
+                   limit=limit, offset=offset)
+
+
+def _block(asset: str, block_id: str) -> dict:
+    _asset(asset)
+    b = sql.get_block(db(), block_id)
+    if b is None or b["asset"] != asset:
+        raise NotFound(f"asset {asset!r} has no block {block_id!r}", field="block_id")
+    return b
+
+
+@bp.get("/v1/assets/<asset>/blocks/<block_id>")
+def get_block(asset: str, block_id: str):
+    return jsonify(_block_resource(_block(asset, block_id)))
+
+
+@bp.post("/v1/assets/<asset>/blocks/<block_id>/void")
+def void_block(asset: str, block_id: str):
+    """Take a block out of the totals; its points are recounted without it."""
+    _block(asset, block_id)
+    try:
+        statuses = ledger.void(db(), data_dir(), asset, block_id)
+    except ledger.LedgerConflict as exc:
+        raise SequenceConflict(exc.detail, **exc.extra) from None
+    return jsonify(block=_block_resource(sql.get_block(db(), block_id)), points=statuses)
+
+
+# ---------------------------------------------------------------- feeds
+
+
+@bp.get("/v1/feeds/points")
+def feed():
+    """One flat row per point for dashboards (JSON or CSV); ``asset`` and
+    ``since`` (ISO time: points updated at or after it) filter."""
+    fmt = _format(("json", "csv"))
+    asset = request.args.get("asset")
+    since = request.args.get("since")
+    rows = [ledger.status(p) for p in sql.list_points(db(), asset)]
+    if since:
+        rows = [r for r in rows if (r["updated_at"] or "") >= since]
+    rows = [{c: r[c] for c in FEED_COLUMNS} for r in rows]
+    if fmt == "csv":
+        return _csv(FEED_COLUMNS, [[";".join(r[c]) if c == "flags" else
+                                    ("" if r[c] is None else r[c]) for c in FEED_COLUMNS]
+                                   for r in rows])
+    return jsonify(items=rows, columns=list(FEED_COLUMNS),
+                   units={"damage": "-", "consumed_percent": "%",
+                          "projected_hours_remaining": "h", "damage_rate_per_hour": "1/h",
+                          "recorded_hours": "h"})
+
