@@ -17,11 +17,13 @@ from __future__ import annotations
 
 import math
 import threading
+from concurrent.futures import ThreadPoolExecutor
 from contextlib import ExitStack
 from dataclasses import replace
 
 import numpy as np
 
+from service import runs
 from service.engine.damage import AssessmentOptions, assess
 from service.engine.errors import InvalidLoadHistory, InvalidParameter, unknown
 from service.engine.rainflow import CountingState, close_residue, count_block
@@ -224,14 +226,20 @@ def post_block(con, data_dir, asset: str, seq: int, up, spooled, *, recorded_at=
         try:
             # In-order points advance from their state; a late block means a
             # recount of that point, done inside the transaction below.
-            totals = {}
-            for n in names:
-                if plans[n] is None:
-                    t = _advance(_current(rows[n]), up.channels[n], block,
-                                 _model(rows[n]["resolved"]))
-                    t["last_seq"] = seq if rows[n]["last_seq"] is None else max(
-                        seq, rows[n]["last_seq"])
-                    totals[n] = t
+            def advance(n):
+                t = _advance(_current(rows[n]), up.channels[n], block,
+                             _model(rows[n]["resolved"]))
+                t["last_seq"] = seq if rows[n]["last_seq"] is None else max(
+                    seq, rows[n]["last_seq"])
+                return n, t
+
+            in_order = [n for n in names if plans[n] is None]
+            if len(in_order) > 1 and up.sample_count >= runs.THREADED_SAMPLES:
+                # Long blocks: points side by side (the kernels release the GIL).
+                with ThreadPoolExecutor(runs.POINT_WORKERS) as pool:
+                    totals = dict(pool.map(advance, in_order))
+            else:
+                totals = dict(map(advance, in_order))
             with sqlite.write(con):
                 sql.insert_block(con, block)
                 for n in names:

@@ -84,13 +84,14 @@ def delete(history_id: str):
     return "", 204
 
 
-def spool_body(folder) -> "Path":
+def spool_body(folder, digest=None) -> "Path":
     """Write the request body to a temporary file in ``folder`` as it arrives.
 
     Under gunicorn the body is read from the socket while this runs, so a
     large upload is on its way to disk before its last byte is in; the
     caller parses the file (memory-mapped) and either keeps it or removes it.
-    Werkzeug's stream enforces the upload limit (413).
+    ``digest`` (a hashlib object) is fed the bytes on the way. Werkzeug's
+    stream enforces the upload limit (413).
     """
     import uuid
     from pathlib import Path
@@ -108,6 +109,8 @@ def spool_body(folder) -> "Path":
                 if not chunk:
                     break
                 f.write(chunk)
+                if digest is not None:
+                    digest.update(chunk)
                 got += len(chunk)
         if expected is not None and got < expected:
             raise MalformedBody(f"the body ended after {got} of {expected} bytes")
