@@ -16,6 +16,7 @@ written in one transaction with the totals they produce.
 from __future__ import annotations
 
 import math
+import sqlite3
 import threading
 from concurrent.futures import ThreadPoolExecutor
 from contextlib import ExitStack
@@ -241,7 +242,14 @@ def post_block(con, data_dir, asset: str, seq: int, up, spooled, *, recorded_at=
             else:
                 totals = dict(map(advance, in_order))
             with sqlite.write(con):
-                sql.insert_block(con, block)
+                try:
+                    sql.insert_block(con, block)
+                except sqlite3.IntegrityError:
+                    # Only the Idempotency-Key can collide here (sequence numbers
+                    # are checked under the points' locks): a concurrent request
+                    # took it for other points.
+                    raise LedgerConflict(f"Idempotency-Key {idempotency_key!r} is in use by "
+                                         f"another block") from None
                 for n in names:
                     if plans[n] == "late":
                         t = recount(con, data_dir, rows[n])
