@@ -114,13 +114,19 @@ def print_report(report: dict, out=None) -> None:
         print(f"  - {c}", file=out)
 
 
-def _cmd_assess(args) -> int:
+def _recording_config(args) -> dict:
+    """The points file (if any) with the command-line options over it."""
     config = json.loads(Path(args.points).read_text()) if args.points else {}
     for key in ("unit", "youngs_modulus", "curve", "mean_stress_method", "gate_fraction",
                 "sample_rate_hz"):
         value = getattr(args, key, None)
         if value is not None:
             config[key] = value
+    return config
+
+
+def _cmd_assess(args) -> int:
+    config = _recording_config(args)
     if not config.get("points") and not config.get("curve"):
         print("error: give --curve or a --points file naming each channel's curve",
               file=sys.stderr)
@@ -238,12 +244,7 @@ def _progress_bar(job) -> None:
 def _cmd_post(args) -> int:
     from service.client import Client, ServiceError
 
-    config = json.loads(Path(args.points).read_text()) if args.points else {}
-    for key in ("unit", "youngs_modulus", "curve", "mean_stress_method", "gate_fraction",
-                "sample_rate_hz"):
-        value = getattr(args, key, None)
-        if value is not None:
-            config[key] = value
+    config = _recording_config(args)
     client = Client(args.url)
     try:
         report = post_file(client, Path(args.file), config,

@@ -97,6 +97,20 @@ def db():
     return g.con
 
 
+def json_object() -> dict:
+    """The request's JSON object body, or 415 / 400 problems."""
+    from flask import request
+
+    from .problems import MalformedBody, UnsupportedMediaType
+
+    if request.mimetype != "application/json":
+        raise UnsupportedMediaType("send JSON (application/json)", valid=["application/json"])
+    body = request.get_json(silent=True)
+    if not isinstance(body, dict):
+        raise MalformedBody("the body must be a JSON object")
+    return body
+
+
 def created(doc: dict, status: int = 201):
     """A JSON answer for a new resource, with its Location."""
     from flask import jsonify

@@ -11,9 +11,9 @@ from flask import Blueprint, Response, current_app, jsonify, request, url_for
 from service import runs
 from service.store import parquet, sqlite
 
-from . import created, data_dir, db, uploads
+from . import created, data_dir, db, json_object, uploads
 from .histories import load as load_history, page_args
-from .problems import ApiProblem, MalformedBody, NotAcceptable, NotFound, UnsupportedMediaType
+from .problems import ApiProblem, NotAcceptable, NotFound
 
 bp = Blueprint("assessments", __name__)
 
@@ -52,12 +52,7 @@ def load(assessment_id: str) -> dict:
 @bp.post("/v1/assessments")
 def create():
     """Assess a stored history (``history_id``) or inline ``samples``; 201 with results."""
-    if request.mimetype != "application/json":
-        raise UnsupportedMediaType("an assessment request is JSON (application/json)",
-                                   valid=["application/json"])
-    body = request.get_json(silent=True)
-    if not isinstance(body, dict):
-        raise MalformedBody("the body must be a JSON object")
+    body = json_object()
     if ("history_id" in body) == ("samples" in body):
         raise ApiProblem("give exactly one of history_id or samples", field="history_id")
     if "history_id" in body:

@@ -14,11 +14,11 @@ from service.engine.errors import InvalidParameter, unknown
 from service.store import ledger as sql
 from service.store import sqlite
 
-from . import created, data_dir, db, uploads
+from . import created, data_dir, db, json_object, uploads
 from .assessments import _csv, _format
 from .histories import page_args, spool_body
 from .library import NameTaken, _NAME
-from .problems import ApiProblem, MalformedBody, NotFound, UnsupportedMediaType
+from .problems import ApiProblem, NotFound
 
 bp = Blueprint("ledger", __name__)
 
@@ -30,15 +30,6 @@ FEED_COLUMNS = ("asset", "point", "damage", "consumed_percent", "projected_hours
 
 class SequenceConflict(ApiProblem):
     status, slug, title = 409, "sequence-conflict", "Block does not follow the sequence"
-
-
-def _json_body() -> dict:
-    if request.mimetype != "application/json":
-        raise UnsupportedMediaType("send JSON (application/json)", valid=["application/json"])
-    body = request.get_json(silent=True)
-    if not isinstance(body, dict):
-        raise MalformedBody("the body must be a JSON object")
-    return body
 
 
 def _name(value, field: str) -> str:
@@ -87,7 +78,7 @@ def _asset_resource(row: dict) -> dict:
 
 @bp.post("/v1/assets")
 def create_asset():
-    body = _json_body()
+    body = json_object()
     name = _name(body.get("name"), "name")
     desc = body.get("description")
     if desc is not None and not isinstance(desc, str):
@@ -113,7 +104,7 @@ def get_asset(asset: str):
 def create_point(asset: str):
     """Register a point with its unit and assessment settings (version 1)."""
     _asset(asset)
-    body = _json_body()
+    body = json_object()
     name = _name(body.get("name"), "name")
     unit = body.get("unit")
     if unit not in engine_units.UNITS:
@@ -145,7 +136,7 @@ def get_point(asset: str, point: str):
 def put_settings(asset: str, point: str):
     """New settings version; the point's totals are recounted under it."""
     _point(asset, point)
-    body = _json_body()
+    body = json_object()
     settings, resolved = ledger.check_settings(body.get("settings"), runs.store_lookup(db()))
     ledger.new_settings(db(), data_dir(), asset, point, settings, resolved)
     return jsonify(_point_resource(sql.get_point(db(), asset, point)))

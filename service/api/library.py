@@ -10,15 +10,15 @@ from __future__ import annotations
 
 import re
 
-from flask import Blueprint, jsonify, request, url_for
+from flask import Blueprint, jsonify, url_for
 
 from service.engine.settings import (USER_CURVE_PREFIX, curve_from_dict, material_properties,
                                      user_curve_definition)
 from service.runs import json_safe
 from service.store import sqlite
 
-from . import created, db
-from .problems import ApiProblem, MalformedBody, NotFound, UnsupportedMediaType
+from . import created, db, json_object
+from .problems import ApiProblem, NotFound
 
 bp = Blueprint("library", __name__)
 
@@ -32,11 +32,7 @@ class NameTaken(ApiProblem):
 
 
 def _body() -> dict:
-    if request.mimetype != "application/json":
-        raise UnsupportedMediaType("send JSON (application/json)", valid=["application/json"])
-    body = request.get_json(silent=True)
-    if not isinstance(body, dict):
-        raise MalformedBody("the body must be a JSON object")
+    body = json_object()
     name = body.get("name")
     if not isinstance(name, str) or not _NAME.match(name):
         raise ApiProblem("name must be 1-64 letters, digits, '_', '.' or '-', starting with "

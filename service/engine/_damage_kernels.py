@@ -33,12 +33,14 @@ METHOD_CODES = {"none": 0, "goodman": 1, "gerber": 2, "soderberg": 3, "morrow": 
 #: Cycles per chunk: the scratch row of equivalent ranges stays in L1.
 _CHUNK = 1024
 
-_simd = njit(cache=True, nogil=True, error_model="numpy",
-             fastmath={"reassoc", "nsz", "contract"})
+# No "contract": a fused multiply-add rounds once where numpy rounds twice,
+# and at an exact zero (a peak of 0 MPa, the edge of Walker and SWT) that
+# turned "no damage" into 1e-39 (found by the compiled == numpy property).
+_simd = njit(cache=True, nogil=True, error_model="numpy", fastmath={"reassoc", "nsz"})
 
 
 @njit(cache=True, nogil=True, inline="always", error_model="numpy",
-      fastmath={"reassoc", "nsz", "contract"})
+      fastmath={"reassoc", "nsz"})
 def _ipow(x, m):
     # x**m for a whole m in 1..31 by binary powering with selects: a fixed
     # five-step loop that vectorises; within a few ulps of pow.
