@@ -414,7 +414,20 @@ def assess(table: CycleTable, curve: SNCurve, options: AssessmentOptions | None 
     per_cycle = np.empty(n)
     first = evaluate(1.0, per_cycle, extras=True)
     damage, overloads, _, max_inv_life, eq_sum, max_range = first
-    total_count = table.total_count
+    target = opts.allowable_damage
+    reserve = None
+    if opts.reserve_factor and n and max_range > 0:
+        reserve = _reserve_factor(evaluate, target, first, per_cycle)
+    top_rows = _dk.top_k(per_cycle, opts.top_cycles) if opts.top_cycles and n else ()
+    return _assemble(table, per_cycle, top_rows, damage, overloads, max_inv_life, eq_sum,
+                     max_range, table.total_count, reserve, curve, opts, duration_s)
+
+
+def _assemble(table, per_cycle, top_rows, damage, overloads, max_inv_life, eq_sum, max_range,
+              total_count, reserve, curve, opts, duration_s, echo=None, description=None):
+    """The :class:`PointAssessment` from the computed figures (shared by the
+    one-point and the batch path). ``table`` gives the rows of ``top_rows``."""
+    n = per_cycle.shape[0]
     flags = []
     if n == 0:
         flags.append("no_cycles")
@@ -424,33 +437,30 @@ def assess(table: CycleTable, curve: SNCurve, options: AssessmentOptions | None 
         flags.append("below_fatigue_limit")
     if not overloads and max_inv_life > 1.0 / _LOW_CYCLE_LIMIT:
         flags.append("low_cycle_regime")
-    target = opts.allowable_damage
-    life = math.inf if damage == 0 else target / damage
-    reserve = None
-    if opts.reserve_factor and n and max_range > 0:
-        reserve = _reserve_factor(evaluate, target, first, per_cycle)
+    life = math.inf if damage == 0 else opts.allowable_damage / damage
     top = []
-    if opts.top_cycles and n:
-        for i in _dk.top_k(per_cycle, opts.top_cycles):
-            if per_cycle[i] == 0:
-                break
-            f, t = float(table.stress_from[i]), float(table.stress_to[i])
-            top.append({
-                "start_index": int(table.start_index[i]), "end_index": int(table.end_index[i]),
-                "stress_range": abs(f - t), "stress_mean": 0.5 * (f + t),
-                "count": float(table.count[i]), "damage": float(per_cycle[i]),
-                "damage_share": float(per_cycle[i] / damage) if math.isfinite(damage) else None,
-            })
+    for i in top_rows:
+        if i < 0 or per_cycle[i] == 0:
+            break
+        f, t = float(table.stress_from[i]), float(table.stress_to[i])
+        top.append({
+            "start_index": int(table.start_index[i]), "end_index": int(table.end_index[i]),
+            "stress_range": abs(f - t), "stress_mean": 0.5 * (f + t),
+            "count": float(table.count[i]), "damage": float(per_cycle[i]),
+            "damage_share": float(per_cycle[i] / damage) if math.isfinite(damage) else None,
+        })
     eq_range = float((eq_sum / opts.equivalent_cycles) ** (1.0 / opts.equivalent_slope))
     cautions = CAUTIONS + tuple(FLAG_CAUTIONS[f] for f in flags) + tuple(curve.notes)
     return PointAssessment(
         damage=float(damage), life_repeats=float(life),
         life_hours=None if duration_s is None else float(life * duration_s / 3600.0),
-        life_cycles=float(life * total_count), reserve_factor=reserve,
-        equivalent_range=eq_range, cycles_counted=total_count, max_range=float(max_range),
-        overload_cycles=int(overloads), flags=tuple(flags), top_cycles=top,
-        cautions=cautions, options=opts.echo(), curve=dict(curve.description),
-        damage_per_cycle=per_cycle)
+        # Infinite life stays infinite even with no cycles (inf * 0 is NaN).
+        life_cycles=math.inf if math.isinf(life) else float(life * total_count),
+        reserve_factor=reserve,
+        equivalent_range=eq_range, cycles_counted=float(total_count),
+        max_range=float(max_range), overload_cycles=int(overloads), flags=tuple(flags),
+        top_cycles=top, cautions=cautions, options=echo or opts.echo(),
+        curve=dict(description or curve.description), damage_per_cycle=per_cycle)
 
 
 def assess_history(samples, curve: SNCurve, options: AssessmentOptions | None = None, *,
@@ -459,6 +469,82 @@ def assess_history(samples, curve: SNCurve, options: AssessmentOptions | None = 
     """Count ``samples`` by rainflow and :func:`assess` the cycles."""
     table = astm_e1049(samples, gate=gate, residue=residue)
     return assess(table, curve, options, duration_s=duration_s)
+
+
+#: Longest point (samples) for the batch path; longer points are few enough
+#: for the one-point path, and the batch sizes its buffers by the length.
+_BATCH_MAX_SAMPLES = 65536
+_BATCH_POINTS = 64
+
+
+def _assess_batch(array: np.ndarray, curve: SNCurve, opts: AssessmentOptions,
+                  duration_s, workers: int) -> dict:
+    """:func:`assess_many` for short points: whole runs of points per compiled
+    calls (``_batch_kernels.count_points`` then ``assess_counted``), on
+    ``workers`` threads."""
+    if duration_s is not None and (not math.isfinite(duration_s) or duration_s <= 0):
+        raise InvalidParameter(f"duration_s {duration_s} must be positive", field="duration_s",
+                               value=duration_s, limit=0.0)
+    from . import _batch_kernels as _bk
+
+    n, points = array.shape
+    ev = _Evaluator(CycleTable.empty(), curve, opts)
+    model, segments = ev.args
+    k_top = max(int(opts.top_cycles), 1)
+    stats = np.zeros((points, 7))
+    top = np.full((points, k_top), -1, np.int64)
+    echo, description = opts.echo(), curve.description
+
+    # Runs of points: at most _BATCH_POINTS (buffers grow with it), and at
+    # least two runs a worker so the threads finish together.
+    per_run = max(1, min(_BATCH_POINTS, -(-points // (2 * max(workers, 1)))))
+
+    def run(j):
+        block = array[:, j:j + per_run]
+        if block.dtype != np.float64:
+            block = block.astype(np.float64)
+        b = block.shape[1]
+        frm, to, cnt = (np.empty((b, n)) for _ in range(3))
+        s_ix, e_ix = (np.empty((b, n), np.int64) for _ in range(2))
+        nrows = np.empty(b, np.int64)
+        bad = np.zeros(b, np.int64)
+        _bk.count_points(block, nrows, frm, to, cnt, s_ix, e_ix, bad)
+        for r in np.flatnonzero(bad):
+            # A bad sample: the one-point path raises the precise error.
+            try:
+                assess_history(np.ascontiguousarray(block[:, r]), curve, opts,
+                               duration_s=duration_s)
+            except InvalidLoadHistory as exc:
+                exc.channel = str(j + r)
+                exc.details["channel"] = str(j + r)
+                raise
+        offsets = np.zeros(b, np.int64)
+        offsets[1:] = np.cumsum(nrows)[:-1]
+        per_cycle = np.empty(int(nrows.sum()))
+        st = stats[j:j + b]
+        _bk.assess_counted(nrows, offsets, frm, to, cnt, ev.load_factor, model, segments,
+                           opts.allowable_damage, bool(opts.reserve_factor), k_top, per_cycle,
+                           st, top[j:j + b])
+        out = []
+        for r in range(b):
+            m, o = int(nrows[r]), int(offsets[r])
+            table = CycleTable(frm[r, :m], to[r, :m], cnt[r, :m], s_ix[r, :m], e_ix[r, :m])
+            d, over, max_sr, eq_sum, max_range, reserve, total = st[r, :7]
+            max_inv = _dk.inverse_life(segments, max_sr) if max_sr > 0 else 0.0
+            tops = top[j + r, :opts.top_cycles] if opts.top_cycles else ()
+            out.append((str(j + r), _assemble(
+                table, per_cycle[o:o + m], tops, d, over, max_inv, eq_sum, max_range, total,
+                None if math.isnan(reserve) else float(reserve), curve, opts, duration_s,
+                echo=dict(echo), description=description)))
+        return out
+
+    starts = range(0, points, per_run)
+    if workers > 1 and len(starts) > 1:
+        with ThreadPoolExecutor(max_workers=workers) as pool:
+            parts = list(pool.map(run, starts))
+    else:
+        parts = [run(j) for j in starts]
+    return {name: r for part in parts for name, r in part}
 
 
 def _column_items(array: np.ndarray, block: int = 32):
@@ -492,6 +578,10 @@ def assess_many(histories, curve: SNCurve, options: AssessmentOptions | None = N
         if histories.ndim != 2:
             raise InvalidParameter("a history array must be 2-D: samples x points",
                                    field="samples")
+        if (gate == 0.0 and residue == "half_cycles" and histories.dtype.kind in "iuf"
+                and 2 <= histories.shape[0] <= _BATCH_MAX_SAMPLES):
+            return _assess_batch(histories, curve, options or AssessmentOptions(),
+                                 duration_s, workers)
         items = _column_items(histories)
         n_items, mean_size = histories.shape[1], histories.shape[0]
     else:
@@ -527,6 +617,7 @@ def warm_up() -> None:
                                  yield_strength=600.0, fatigue_strength_coefficient=1200.0,
                                  walker_exponent=0.5)
         assess_history(x, curve, opts)
+    assess_many(np.tile(x, (2, 1)).T.copy(), curve)  # the batch kernels
 
 
 __all__ = ["AssessmentOptions", "PointAssessment", "CAUTIONS", "palmgren_miner",

@@ -189,6 +189,8 @@ def test_top_cycles_are_the_most_damaging():
 def test_no_cycles():
     r = assess(CycleTable.empty(), EN71)
     assert r.flags == ("no_cycles",) and r.damage == 0.0 and r.reserve_factor is None
+    # Never NaN (issue rule): an infinite life with no cycles is still infinite.
+    assert math.isinf(r.life_repeats) and math.isinf(r.life_cycles)
 
 
 def test_cautions_always_present():
@@ -204,6 +206,41 @@ def test_assess_many_equals_one_by_one():
         one = assess_history(data[:, i], EN71)
         assert many[str(i)].damage == one.damage
         assert many[str(i)].reserve_factor == one.reserve_factor
+
+
+@pytest.mark.parametrize("method", ["none", "goodman", "walker"])
+@pytest.mark.parametrize("workers", [1, 2])
+def test_batch_path_gives_the_one_point_results(method, workers):
+    # assess_many on a 2-D array of short points runs the compiled batch
+    # path; every figure must equal the one-point path (regression pin on
+    # the engine's own definitions), including a point with a static
+    # overload, one below the cut-off and one with no cycles.
+    rng = np.random.default_rng(12)
+    data = rng.standard_normal((4000, 150)) * 70 + 20
+    data[:, 3] = 5.0 * np.sign(np.sin(np.arange(4000)))   # below the cut-off
+    data[:, 4] = 1.0                                       # no cycles
+    data[::97, 5] = 500.0                                  # static overloads
+    opts = AssessmentOptions(mean_stress_method=method, ultimate_strength=450.0,
+                             walker_exponent=0.5)
+    many = assess_many(data, EN71, opts, workers=workers, duration_s=60.0)
+    assert list(many) == [str(i) for i in range(150)]
+    for i in range(150):
+        one = assess_history(data[:, i].copy(), EN71, opts, duration_s=60.0)
+        b = many[str(i)]
+        assert (b.damage, b.reserve_factor, b.equivalent_range, b.flags, b.life_hours,
+                b.cycles_counted, b.max_range, b.overload_cycles) == (
+            one.damage, one.reserve_factor, one.equivalent_range, one.flags, one.life_hours,
+            one.cycles_counted, one.max_range, one.overload_cycles), i
+        assert b.top_cycles == one.top_cycles and b.cautions == one.cautions
+        assert np.array_equal(b.damage_per_cycle, one.damage_per_cycle)
+
+
+def test_batch_path_names_the_bad_point():
+    data = np.random.default_rng(1).standard_normal((100, 5))
+    data[17, 3] = np.inf
+    with pytest.raises(ValueError) as err:
+        assess_many(data, EN71, workers=1)
+    assert err.value.channel == "3" and err.value.sample_index == 17
 
 
 def test_assess_many_names_the_bad_point():
