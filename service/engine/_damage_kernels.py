@@ -224,14 +224,6 @@ def _max_finite(sr, n):
     return out
 
 
-@njit(cache=True, nogil=True, fastmath={"reassoc", "nsz", "nnan"})
-def _max_range(frm, to, lo, hi):
-    out = 0.0
-    for i in range(lo, hi):
-        out = max(out, abs(frm[i] - to[i]))
-    return out
-
-
 #: Rows of the ``model`` array of :func:`damage_pass`: method code, its
 #: parameter, clip compressive means (0/1), ultimate strength (inf: none),
 #: range factor, equivalent slope, the slope as a whole number (or 0).
@@ -248,26 +240,31 @@ def model_array(method: str, param: float, clip: bool, ultimate: float, range_fa
                      range_factor, eq_slope, _whole(eq_slope)], np.float64)
 
 
-@njit(cache=True, nogil=True)
-def _overload_onset(frm, to, lo, hi, method, param, clip, ultimate):
-    """Smallest factor on the stresses of cycles lo..hi at which one becomes a
-    static overload (inf if none does), mirroring ``_equivalent_ranges``: the
-    peak above ``ultimate`` (strictly), or the correction's denominator
-    reaching zero (Goodman-type at mu >= param, Gerber at |mu| >= param)."""
-    out = math.inf
+# Inputs are finite (checked histories) and the selects below never form
+# NaN, so the min/max reductions may vectorise (nnan).
+@njit(cache=True, nogil=True, error_model="numpy", fastmath={"reassoc", "nsz", "nnan"})
+def _onset_and_range(frm, to, lo, hi, method, param, clip, ultimate):
+    """``(onset, max_range)`` of cycles lo..hi: the smallest factor on the
+    stresses at which one becomes a static overload (inf if none does),
+    mirroring ``_equivalent_ranges`` (peak strictly above ``ultimate``, or
+    the correction's denominator reaching zero: Goodman-type at mu >= param,
+    Gerber at |mu| >= param), and the largest unscaled range."""
+    onset = math.inf
+    max_range = 0.0
+    ratio = 1 <= method <= 4
+    gerber = method == 2
     for i in range(lo, hi):
-        a = 0.5 * abs(frm[i] - to[i])
+        rng = abs(frm[i] - to[i])
+        a = 0.5 * rng
         mean = 0.5 * (frm[i] + to[i])
         peak = mean + a
-        if peak > 0.0 and ultimate < math.inf:
-            out = min(out, ultimate / peak)
-        if a > 0.0 and 1 <= method <= 4:
-            mu = max(mean, 0.0) if clip else mean
-            if method == 2:
-                mu = abs(mu)
-            if mu > 0.0:
-                out = min(out, param / mu)
-    return out
+        t_peak = ultimate / peak if peak > 0.0 else math.inf
+        mu = max(mean, 0.0) if clip else mean
+        mu = abs(mu) if gerber else mu
+        t_den = param / mu if (ratio and a > 0.0 and mu > 0.0) else math.inf
+        onset = min(onset, min(t_peak, t_den))
+        max_range = max(max_range, rng)
+    return onset, max_range
 
 
 @kernel
@@ -335,8 +332,9 @@ def damage_pass(frm, to, cnt, scale, model, segments, per_cycle, extras):
             _power_terms(sr, k, cnt, lo, inv_rf, eq_slope, eq_whole, e)
             eq_sum += _sum8(e, k)
             max_sr = max(max_sr, _max_finite(sr, k))
-            max_range = max(max_range, _max_range(frm, to, lo, hi))
-            onset = min(onset, _overload_onset(frm, to, lo, hi, method, param, clip, ultimate))
+            o, r = _onset_and_range(frm, to, lo, hi, method, param, clip, ultimate)
+            onset = min(onset, o)
+            max_range = max(max_range, r)
     if over:
         total = math.inf
     return total, over, weight, max_sr, eq_sum, max_range, onset
