@@ -59,8 +59,11 @@ def _whole(m: float) -> int:
 
 @_simd
 def _equivalent_ranges(frm, to, lo, hi, scale, method, param, clip, ultimate,
-                       range_factor, sr):
-    """``sr[i - lo]`` = corrected range ``2 sigma_ar range_factor`` of cycle i.
+                       range_factor, sr, gr):
+    """``sr[i - lo]`` = corrected range ``2 sigma_ar range_factor`` of cycle i,
+    and ``gr[i - lo]`` = d log sr / d log scale (1 where the range scales
+    with the load; 1/den for Goodman-type corrections, (1 + r^2)/(1 - r^2)
+    for Gerber), for the reserve search's slope.
 
     Static overloads (breakdown of the correction, or a peak above
     ``ultimate``) get ``inf``. Returns the number of overloads.
@@ -72,6 +75,8 @@ def _equivalent_ranges(frm, to, lo, hi, scale, method, param, clip, ultimate,
     # Every branch is one straight loop so that each vectorises; the sum of
     # the ranges is inf exactly when some cycle is an overload.
     acc = 0.0
+    if method == 0 or method == 5 or method == 6:
+        gr[:n] = 1.0
     if method == 0:
         for j in range(n):
             f = frm[lo + j]
@@ -117,6 +122,8 @@ def _equivalent_ranges(frm, to, lo, hi, scale, method, param, clip, ultimate,
             v = 0.0 if a == 0.0 else v
             v = inf if mean + a > ultimate else v
             sr[j] = v
+            g = (1.0 + r * r) / den if gerber else 1.0 / den
+            gr[j] = g if den > 0.0 else 1.0
             acc += v
     over = 0
     if acc == inf:
@@ -126,11 +133,12 @@ def _equivalent_ranges(frm, to, lo, hi, scale, method, param, clip, ultimate,
 
 
 @_simd
-def _segment_damage(sr, n, cnt, lo, inv_s, c, m, whole, s_lo, s_hi, d, w):
+def _segment_damage(sr, gr, n, cnt, lo, inv_s, c, m, whole, s_lo, s_hi, d, w):
     """Damage of ranges ``sr[:n]`` on one segment [s_lo, s_hi) of the curve.
 
     Adds ``cnt[lo + j] * (sr / S_a)^m / N_a`` into ``d[j]`` and that times
-    ``m`` into ``w[j]`` for the ranges on the segment. No running sum here:
+    ``m * gr[j]`` (d log d / d log scale) into ``w[j]`` for the ranges on the
+    segment. No running sum here:
     the sums are taken by :func:`_sum8` in a fixed order, so a result never
     depends on where numpy placed the arrays.
     """
@@ -143,7 +151,7 @@ def _segment_damage(sr, n, cnt, lo, inv_s, c, m, whole, s_lo, s_hi, d, w):
             on = (s >= s_lo) & (s < s_hi)
             v = cnt[lo + j] * (q * q * q) * c if on else 0.0
             d[j] += v
-            w[j] += v * m
+            w[j] += v * m * gr[j]
     elif whole == 5:
         for j in range(n):
             s = sr[j]
@@ -152,21 +160,21 @@ def _segment_damage(sr, n, cnt, lo, inv_s, c, m, whole, s_lo, s_hi, d, w):
             on = (s >= s_lo) & (s < s_hi)
             v = cnt[lo + j] * (q2 * q2 * q) * c if on else 0.0
             d[j] += v
-            w[j] += v * m
+            w[j] += v * m * gr[j]
     elif whole:
         for j in range(n):
             s = sr[j]
             on = (s >= s_lo) & (s < s_hi)
             v = cnt[lo + j] * _ipow(s * inv_s, whole) * c if on else 0.0
             d[j] += v
-            w[j] += v * m
+            w[j] += v * m * gr[j]
     else:
         for j in range(n):
             s = sr[j]
             if (s >= s_lo) & (s < s_hi):
                 v = cnt[lo + j] * math.pow(s * inv_s, m) * c
                 d[j] += v
-                w[j] += v * m
+                w[j] += v * m * gr[j]
 
 
 @_simd
@@ -303,6 +311,7 @@ def damage_pass(frm, to, cnt, scale, model, segments, per_cycle, extras):
     write_d = per_cycle.shape[0] > 0
     nseg = segments.shape[1]
     sr = np.empty(_CHUNK)
+    gr = np.empty(_CHUNK)
     d = np.empty(_CHUNK)
     w = np.empty(_CHUNK)
     e = np.empty(_CHUNK)
@@ -318,11 +327,11 @@ def damage_pass(frm, to, cnt, scale, model, segments, per_cycle, extras):
         hi = min(lo + _CHUNK, n)
         k = hi - lo
         over += _equivalent_ranges(frm, to, lo, hi, scale, method, param, clip, ultimate,
-                                   range_factor, sr)
+                                   range_factor, sr, gr)
         d[:k] = 0.0
         w[:k] = 0.0
         for g in range(nseg):
-            _segment_damage(sr, k, cnt, lo, seg_inv_s[g], seg_c[g], seg_m[g],
+            _segment_damage(sr, gr, k, cnt, lo, seg_inv_s[g], seg_c[g], seg_m[g],
                             int(segments[3, g]), seg_lo[g], seg_hi[g], d, w)
         total += _sum8(d, k)
         weight += _sum8(w, k)
