@@ -269,7 +269,8 @@ def _onset_and_range(frm, to, lo, hi, method, param, clip, ultimate):
         t_peak = ultimate / peak if peak > 0.0 else math.inf
         mu = max(mean, 0.0) if clip else mean
         mu = abs(mu) if gerber else mu
-        t_den = param / mu if (ratio and a > 0.0 and mu > 0.0) else math.inf
+        # & not "and": a short-circuit is a branch, which stops vectorising.
+        t_den = param / mu if (ratio & (a > 0.0) & (mu > 0.0)) else math.inf
         onset = min(onset, min(t_peak, t_den))
         max_range = max(max_range, rng)
     return onset, max_range
