@@ -7,10 +7,9 @@ spend their time handing the GIL back and forth. ``count_points`` and
 each take half the points and run side by side.
 
 It uses the same kernels as the one-point path (``turning_points_plain``,
-``stack_pass``, ``damage_pass``, ``top_k``) and :func:`reserve_search` is
-the same search as ``damage._reserve_factor`` (without the restriction to
-damaging cycles, which only saves time), so the results agree with
-``assess_history`` to rounding; the tests compare them.
+``stack_pass``, ``damage_pass``, ``top_k``, and :func:`reserve_search`,
+which the one-point path calls too), so the results equal
+``assess_history``'s; the tests compare them.
 """
 
 from __future__ import annotations
@@ -49,8 +48,8 @@ def count_whole(x, codes, sv, si, frm, to, cnt, s_ix, e_ix):
 
 @kernel
 def reserve_search(frm, to, cnt, load_factor, model, segments, target, d, slope, s_over):
-    """``damage._reserve_factor`` compiled: the smallest scale whose damage
-    reaches ``target`` (NaN for none within 1e-6..1e6). ``d`` and ``slope``
+    """The reserve-factor search (see ``damage._reserve_factor``): the smallest
+    scale whose damage reaches ``target`` (NaN for none within 1e-6..1e6). ``d`` and ``slope``
     are the damage and slope at scale 1 (slope NaN when undefined),
     ``s_over`` the scale at which the first cycle becomes an overload."""
     none = np.empty(0)

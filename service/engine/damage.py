@@ -260,110 +260,27 @@ class _Evaluator:
             self.overload_scale = out[6] / self.load_factor
         return (d, over, slope, max_inv) + tuple(out[4:6])
 
-    def restrict(self, s_max: float, damage_at_s_max=None) -> None:
-        """Keep only cycles that do damage at scale ``s_max``.
 
-        Every model's equivalent amplitude grows with the scale, so a cycle
-        without damage at ``s_max`` has none at any smaller scale: the search
-        below ``s_max`` may drop it. ``damage_at_s_max`` saves an evaluation
-        when the per-cycle damage there is already known.
-        """
-        d = damage_at_s_max
-        if d is None:
-            d = np.empty(self.cols[0].shape[0])
-            self(s_max, d)
-        keep = d > 0
-        if np.count_nonzero(keep) < 0.5 * keep.shape[0]:
-            self.cols = tuple(np.ascontiguousarray(c[keep]) for c in self.cols)
-
-
-def _reserve_factor(evaluate, target: float, first, per_cycle=None) -> float | None:
-    """Smallest scale s with damage(s) >= target.
+def _reserve_factor(evaluate, target: float, first) -> float | None:
+    """Smallest scale s with damage(s) >= target (None: none within 1e-6..1e6).
 
     damage(s) is non-decreasing in s and close to a power law, so Newton
-    steps in log-log space (the local slope comes with each evaluation)
-    converge in two or three evaluations; a bracket [lo, hi] with
-    damage(lo) < target <= damage(hi) is kept, and a step that leaves it, or
-    meets a zero or infinite damage (cut-off, overload), bisects instead.
-    Returns None if no scale within 1e-6..1e6 reaches the target.
+    steps in log-log space converge in two or three evaluations (the exact
+    local slope, mean-stress correction included, comes with each pass; a
+    secant over a short step also sees knees and the cut-off). A bracket
+    damage(lo) < target <= damage(hi) is kept; a step that leaves it, or a
+    zero or infinite damage (cut-off, overload), grows or bisects it; a
+    reserve limited by static overload is found from its onset directly.
+    The search is compiled (``_batch_kernels.reserve_search``) and shared
+    with the batch path, so both give the same factor.
     """
-    log_t = math.log(target)
-    lo, hi = 1e-6, 1e6
-    flo = fhi = None
-    s, (d, _, slope) = 1.0, first[:3]
-    x_lo, x_hi = math.log(lo), math.log(hi)
-    s_over = getattr(evaluate, "overload_scale", math.inf)
-    if 1.0 < s_over < hi and math.isfinite(d) and d < target:
-        # Every scale from s_over on is a static overload (infinite damage).
-        # If just below it the damage is still short of the target, the
-        # reserve is s_over itself: no need to bisect down to the onset.
-        below = s_over * (1.0 - 1e-12)
-        d_below, _, slope_below = evaluate(below)[:3]
-        if d_below < target:
-            return s_over
-        x_hi, fhi = math.log(below), math.log(d_below) - log_t if d_below > 0 else None
-        if fhi is not None and abs(fhi) < 1e-8:
-            return below
-    restricted = False
-    prev = None
-    for _ in range(100):
-        if d == 0.0:
-            f = -math.inf
-        elif math.isinf(d):
-            f = math.inf
-        else:
-            f = math.log(d) - log_t
-        # 1e-8 on log damage is ~3e-9 on the factor: far below what is reported.
-        if abs(f) < 1e-8:
-            return s
-        x = math.log(s)
-        if f < 0:
-            x_lo, flo = x, f
-        else:
-            x_hi, fhi = x, f
-            if not restricted:
-                restricted = True
-                # More cycles damage at s than at 1: if half already do at 1,
-                # restricting at s would keep more than half, so skip it.
-                if s <= 1.0 or per_cycle is None or (
-                        np.count_nonzero(per_cycle) < 0.5 * per_cycle.shape[0]):
-                    evaluate.restrict(s, per_cycle if s == 1.0 else None)
-        if x_hi - x_lo < 1e-10:
-            break
-        if (prev is not None and math.isfinite(f) and math.isfinite(prev[1])
-                and 0 < abs(x - prev[0]) < 0.05):
-            # Secant slope over a short step: it sees knees and the cut-off,
-            # the local slope does not; over a long step it is the worse guess.
-            secant = (f - prev[1]) / (x - prev[0])
-            slope = secant if secant > 0 else slope
-        prev = (x, f)
-        if slope and math.isfinite(f):
-            x_new = x - f / slope
-            if abs(f) < 1e-6 and x_lo < x_new < x_hi:
-                # Within 1e-6 of the root (in log damage) the step's error is
-                # |f| times the slope's relative error (a few % for the local
-                # slope, far less for a secant): ~1e-8 of the factor at most,
-                # so take it without another pass over the cycles.
-                return math.exp(x_new)
-        elif flo is not None and fhi is not None and math.isfinite(flo) and math.isfinite(fhi):
-            x_new = x_hi - fhi * (x_hi - x_lo) / (fhi - flo)
-        else:
-            x_new = None
-        if x_new is None or not (x_lo < x_new < x_hi):
-            # Grow the bracket geometrically from the side we know, else bisect.
-            if fhi is None:
-                x_new = min(x_lo + math.log(4.0), x_hi)
-            elif flo is None:
-                x_new = max(x_hi - math.log(4.0), x_lo)
-            else:
-                x_new = 0.5 * (x_lo + x_hi)
-        if x_new == x:
-            break
-        s = math.exp(x_new)
-        d, _, slope = evaluate(s)[:3]
-    if fhi is None:
-        return None
-    return math.exp(x_hi)
+    from . import _batch_kernels as _bk
+
+    d, _, slope = first[:3]
+    model, segments = evaluate.args
+    s = _bk.reserve_search(*evaluate.cols, evaluate.load_factor, model, segments, target,
+                           d, math.nan if slope is None else slope, evaluate.overload_scale)
+    return None if math.isnan(s) else float(s)
 
 
 # ---------------------------------------------------------------------------- assess
@@ -414,10 +331,9 @@ def assess(table: CycleTable, curve: SNCurve, options: AssessmentOptions | None 
     per_cycle = np.empty(n)
     first = evaluate(1.0, per_cycle, extras=True)
     damage, overloads, _, max_inv_life, eq_sum, max_range = first
-    target = opts.allowable_damage
     reserve = None
     if opts.reserve_factor and n and max_range > 0:
-        reserve = _reserve_factor(evaluate, target, first, per_cycle)
+        reserve = _reserve_factor(evaluate, opts.allowable_damage, first)
     top_rows = _dk.top_k(per_cycle, opts.top_cycles) if opts.top_cycles and n else ()
     return _assemble(table, per_cycle, top_rows, damage, overloads, max_inv_life, eq_sum,
                      max_range, table.total_count, reserve, curve, opts, duration_s)
