@@ -48,6 +48,9 @@ def make(kind: str, n: int, seed: int) -> np.ndarray:
 
 
 def _timed(fn, x) -> float:
+    # Every timed call starts from the same state: a collection first (it
+    # also evicts caches), so no contender runs warm after another.
+    gc.collect()
     t0 = time.perf_counter()
     fn(x)
     return time.perf_counter() - t0
@@ -78,7 +81,6 @@ def bench(kind: str, n: int, reps_engine: int, reps_ref: int) -> dict:
     for r in range(max(reps_engine, reps_ref)):
         x = make(kind, n, seed=r)
         if r < reps_engine:
-            gc.collect()
             te.append(_timed(engine, x))
             td.append(_timed(np.diff, x))
         if r < reps_ref:
