@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import os
 import re
 import shutil
 import tempfile
@@ -85,7 +86,8 @@ def _cleanup_fuzz_app():
 
 
 @schema.parametrize()
-@settings(max_examples=40, deadline=None, suppress_health_check=list(HealthCheck))
+@settings(max_examples=int(os.environ.get("FUZZ_EXAMPLES", "40")), deadline=None,
+          suppress_health_check=list(HealthCheck))
 def test_contract_fuzz(case):
     # No 5xx, and every response conforms to the document (status, media
     # type, schema) whatever the generated request. Left out: the check that
