@@ -5,6 +5,7 @@ Subcommands
 assess   count and assess the channels of a CSV or Parquet file, print a table
 demo     start the service, post the bundled demo, print the table, keep serving
 post     upload a recording to a running service, assess it, print the table
+report   write an assessment's or an asset's HTML page (plots, tables, cautions)
 curves   list the published S-N curves the catalogue holds
 serve    run the HTTP service on embedded storage
 """
@@ -180,7 +181,8 @@ def _cmd_demo(args) -> int:
         print_report(report)
         a = report["assessment_id"]
         print(f"\nService on {url} (data in {app.config['DATA_DIR']}). Look at:")
-        for path in ("/v1/assessments/" + a, f"/v1/assessments/{a}/summary?format=csv",
+        for path in (f"/v1/assessments/{a}/report", "/v1/assessments/" + a,
+                     f"/v1/assessments/{a}/summary?format=csv",
                      f"/v1/assessments/{a}/points/pin_lug/cycles?format=csv",
                      f"/v1/assessments/{a}/points/pin_lug/range-mean", "/v1/curves",
                      "/openapi.yaml"):
@@ -335,6 +337,24 @@ def _version() -> str:
     return service.__version__
 
 
+def _cmd_report(args) -> int:
+    """Fetch an assessment's (or an asset's) HTML page from the service into a file."""
+    from service.client import Client, ServiceError
+
+    client = Client(args.url)
+    path = (f"/v1/assets/{args.asset}/report" if args.asset
+            else f"/v1/assessments/{args.assessment}/report")
+    try:
+        _, _, body = client.request("GET", path, accept="text/html")
+    except ServiceError as exc:
+        print(f"error: {exc}", file=sys.stderr)
+        return 2 if 400 <= exc.status < 500 else 3
+    out = Path(args.out or (f"{args.asset or args.assessment}.html"))
+    out.write_bytes(body)
+    print(f"wrote {out} ({len(body) / 1024:.0f} kB; open it in a browser, it needs no network)")
+    return 0
+
+
 def _recording_args(p, unit_help: str) -> None:
     """The options shared by ``assess`` and ``post``: a recording and its settings."""
     p.add_argument("file", help="CSV (header row; optional time_s column) or Parquet")
@@ -369,6 +389,13 @@ def main(argv=None) -> int:
     _recording_args(p, "unit of the samples (required by the service)")
     p.add_argument("--url", default="http://127.0.0.1:8350", help="the service")
     p.set_defaults(func=_cmd_post)
+    p = sub.add_parser("report", help="write an assessment's or an asset's HTML page")
+    who = p.add_mutually_exclusive_group(required=True)
+    who.add_argument("assessment", nargs="?", help="assessment id (a_...)")
+    who.add_argument("--asset", help="a ledger asset instead")
+    p.add_argument("--url", default="http://127.0.0.1:8350", help="the service")
+    p.add_argument("--out", help="file to write (default: <id>.html)")
+    p.set_defaults(func=_cmd_report)
     p = sub.add_parser("curves", help="list the catalogue of published S-N curves")
     p.set_defaults(func=_cmd_curves)
     p = sub.add_parser("serve", help="run the HTTP service (gunicorn, one process, threads)")

@@ -75,11 +75,12 @@ def create_app(test_config: dict | None = None) -> Flask:
             con.execute("ROLLBACK")  # never leave a transaction open for the next request
 
     problems.register(app)
-    from . import assessments, catalogue, histories, ledger, library, meta, metrics
+    from . import (assessments, catalogue, histories, ledger, library, meta, metrics,
+                   reports)
 
     metrics.install(app)
     for bp in (meta.bp, histories.bp, assessments.bp, catalogue.bp, library.bp, ledger.bp,
-               metrics.bp):
+               metrics.bp, reports.bp):
         app.register_blueprint(bp)
     return app
 

@@ -30,6 +30,7 @@ SPEC = OpenAPI.from_file_path(str(SPEC_PATH), config=Config(
     extra_media_type_deserializers={
         "application/problem+json": json.loads, "text/csv": _text,
         "application/yaml": _text, "application/vnd.apache.parquet": _binary,
+        "text/html": _text, "image/svg+xml": _text, "image/png": _binary,
         "application/vnd.apache.arrow.stream": _binary}))
 
 

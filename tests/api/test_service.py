@@ -121,3 +121,14 @@ def test_curl_examples_run(served, tmp_path):
                          text=True, timeout=300)
     assert out.returncode == 0, out.stderr
     assert "point,damage" in out.stdout and "unknown-name" in out.stdout
+
+
+def test_report_command_writes_the_page(served, tmp_path, capsys):
+    c = Client(served, timeout_s=60)
+    a = c.assess(samples={"g": list(np.tile([-60.0, 60.0], 200))}, unit="MPa",
+                 settings={"curve": "EN1993-1-9:71"})
+    out = tmp_path / "page.html"
+    assert main(["report", a["id"], "--url", served, "--out", str(out)]) == 0
+    text = out.read_text()
+    assert text.startswith("<!DOCTYPE html>") and "<svg" in text
+    assert main(["report", "a_missing", "--url", served, "--out", str(out)]) == 2

@@ -1,0 +1,74 @@
+"""Report pages and plots of assessments and ledger assets (HTML, SVG, PNG)."""
+
+from __future__ import annotations
+
+from flask import Blueprint, Response, request
+
+from service.reports import build
+
+from . import data_dir, db
+from .assessments import load as load_assessment, resource as assessment_resource
+from .ledger import _asset, _point
+from .problems import ApiProblem, NotAcceptable, NotFound
+
+bp = Blueprint("reports", __name__)
+
+_IMAGE = {"svg": "image/svg+xml", "png": "image/png"}
+
+
+def _image_format() -> str:
+    fmt = request.args.get("format")
+    if fmt is not None:
+        if fmt not in _IMAGE:
+            raise ApiProblem(f"format {fmt!r} is not offered; use svg or png", field="format",
+                             valid=list(_IMAGE))
+        return fmt
+    best = (request.accept_mimetypes.best_match(list(_IMAGE.values()), default=None)
+            if request.accept_mimetypes else "image/svg+xml")
+    if best is None:
+        raise NotAcceptable("plots are offered as image/svg+xml and image/png",
+                            valid=list(_IMAGE.values()))
+    return {v: k for k, v in _IMAGE.items()}[best]
+
+
+def _html(text: str) -> Response:
+    return Response(text, mimetype="text/html")
+
+
+@bp.get("/v1/assessments/<assessment_id>/report")
+def assessment_report(assessment_id: str):
+    """A self-contained HTML page: summary, plots, settings and sources, cautions."""
+    row = load_assessment(assessment_id)
+    return _html(build.assessment_page(db(), data_dir(), row, assessment_resource(row)))
+
+
+@bp.get("/v1/assessments/<assessment_id>/plots/<plot>")
+def assessment_plot(assessment_id: str, plot: str):
+    """One plot alone (``point`` for the per-point ones), SVG or PNG."""
+    fmt = _image_format()
+    row = load_assessment(assessment_id)
+    if plot not in build.ASSESSMENT_PLOTS:
+        raise NotFound(f"no plot {plot!r}", field="plot", valid=sorted(build.ASSESSMENT_PLOTS))
+    point = request.args.get("point")
+    points = (row["result"] or {}).get("points", {})
+    if build.ASSESSMENT_PLOTS[plot]:
+        if point not in points:
+            raise ApiProblem(f"plot {plot!r} is per point: give point (one of "
+                             f"{', '.join(points)})", field="point", valid=list(points))
+    body = build.assessment_plot(db(), data_dir(), row, assessment_resource(row), plot,
+                                 point, fmt)
+    return Response(body, mimetype=_IMAGE[fmt])
+
+
+@bp.get("/v1/assets/<asset>/report")
+def asset_report(asset: str):
+    """A self-contained HTML page of a ledger asset's points."""
+    return _html(build.asset_page(db(), _asset(asset)))
+
+
+@bp.get("/v1/assets/<asset>/points/<point>/plot")
+def ledger_point_plot(asset: str, point: str):
+    """Cumulative damage over recorded hours with the projection, SVG or PNG."""
+    fmt = _image_format()
+    _point(asset, point)
+    return Response(build.ledger_plot(db(), asset, point, fmt), mimetype=_IMAGE[fmt])

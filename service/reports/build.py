@@ -1,0 +1,80 @@
+"""Gather what a report shows from the store and draw it.
+
+The per-point cycle tables are recounted from the stored samples exactly as
+the cycles endpoint does (``runs.point_cycles``), so plots, tables and the
+API agree.
+"""
+
+from __future__ import annotations
+
+from service import ledger, runs
+from service.engine.settings import point_from_dict
+from service.store import ledger as ledger_sql
+from service.store import parquet, sqlite
+
+from . import pages, plots
+
+#: Plots of an assessment: name -> whether it needs a point.
+ASSESSMENT_PLOTS = {"damage": False, "history": False, "exceedance": False, "sn": True,
+                    "range-mean": True}
+
+
+def _samples(con, data_dir, row: dict, point: str):
+    if row["samples_file"]:
+        return parquet.read_channels(data_dir, row["samples_file"], [point])[point]
+    return sqlite.get_samples(con, row["id"], point)
+
+
+def assessment_plot(con, data_dir, row: dict, resource: dict, name: str,
+                    point: str | None, fmt: str = "svg") -> bytes:
+    """One plot of an assessment as SVG or PNG bytes."""
+    points = resource["points"]
+    if name == "damage":
+        fig = plots.damage_by_point({p: v["damage"] for p, v in points.items()},
+                                    {p: v["settings"]["allowable_damage"]
+                                     for p, v in points.items()})
+    elif name == "history":
+        rate = None
+        if resource.get("duration_s"):
+            n = len(_samples(con, data_dir, row, next(iter(points))))
+            rate = n / resource["duration_s"]
+        fig = plots.history({p: _samples(con, data_dir, row, p) for p in points}, rate)
+    elif name == "exceedance":
+        fig = plots.exceedance({p: runs.point_cycles(data_dir, row, p, con)[0]
+                                for p in points})
+    else:
+        table, dmg = runs.point_cycles(data_dir, row, point, con)
+        if name == "sn":
+            curve, _, _ = point_from_dict(points[point]["settings_used"])
+            fig = plots.sn_with_spectrum(curve, table, dmg)
+        else:
+            fig = plots.range_mean(table)
+    return plots.render(fig, fmt)
+
+
+def assessment_page(con, data_dir, row: dict, resource: dict) -> str:
+    svgs = {}
+    for name, per_point in ASSESSMENT_PLOTS.items():
+        if per_point:
+            for p in resource["points"]:
+                svgs[f"{name}-{p}"] = assessment_plot(con, data_dir, row, resource, name, p)
+        else:
+            svgs[name] = assessment_plot(con, data_dir, row, resource, name, None)
+    return pages.assessment_page(resource, svgs)
+
+
+def ledger_plot(con, asset: str, point: str, fmt: str = "svg") -> bytes:
+    row = ledger_sql.get_point(con, asset, point)
+    status = ledger.status(row)
+    fig = plots.ledger_point(ledger_sql.point_history(con, asset, point),
+                             status["allowable_damage"], status["damage_rate_per_hour"])
+    return plots.render(fig, fmt)
+
+
+def asset_page(con, asset_row: dict) -> str:
+    rows = ledger_sql.list_points(con, asset_row["name"])
+    statuses = [ledger.status(r) for r in rows]
+    svgs = {f"ledger-{r['point']}": ledger_plot(con, asset_row["name"], r["point"])
+            for r in rows}
+    return pages.asset_page(asset_row, statuses, svgs)
+

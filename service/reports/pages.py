@@ -1,0 +1,169 @@
+"""HTML pages of an assessment and of an asset: one self-contained file each.
+
+Everything is inline (styles, SVG plots), so a page works offline, can be
+mailed or archived, and prints cleanly. The numbers in the tables are the
+ones the API returns for the same resource.
+"""
+
+from __future__ import annotations
+
+import html
+import math
+
+from service.engine.damage import CAUTIONS
+
+_CSS = """
+:root { --ink:#23313b; --teal:#17707f; --amber:#d48a0b; --rose:#b0384f; --ground:#eef3f4; }
+* { box-sizing: border-box; }
+body { margin: 0; font: 14px/1.45 "DejaVu Sans", "Segoe UI", sans-serif; color: var(--ink);
+       background: var(--ground); }
+header { background: var(--ink); color: #fff; padding: 18px 28px; }
+header h1 { margin: 0 0 4px; font-size: 20px; font-weight: 600; }
+header p { margin: 0; opacity: .8; }
+main { max-width: 1080px; margin: 0 auto; padding: 18px 28px 40px; }
+section { background: #fff; border-radius: 6px; padding: 14px 18px; margin: 14px 0;
+          box-shadow: 0 1px 2px rgba(0,0,0,.08); }
+h2 { font-size: 16px; margin: 0 0 10px; color: var(--teal); }
+table { border-collapse: collapse; width: 100%; font-variant-numeric: tabular-nums; }
+th, td { padding: 5px 8px; border-bottom: 1px solid #dde5e7; text-align: right; }
+th:first-child, td:first-child { text-align: left; }
+th { font-weight: 600; background: var(--ground); }
+td.flag { color: var(--rose); text-align: left; }
+.caution { border-left: 4px solid var(--amber); background: #fff8ea; padding: 10px 14px; }
+.caution ul { margin: 6px 0 0 18px; padding: 0; }
+.plots { display: grid; grid-template-columns: repeat(auto-fit, minmax(440px, 1fr)); gap: 12px; }
+figure { margin: 0; } figure svg { width: 100%; height: auto; }
+figcaption { font-size: 12px; opacity: .75; }
+dl { display: grid; grid-template-columns: max-content 1fr; gap: 4px 14px; margin: 0; }
+dt { font-weight: 600; }
+@media print { body { background: #fff; } section { box-shadow: none; break-inside: avoid; }
+               header { color: var(--ink); background: #fff; border-bottom: 2px solid var(--ink); } }
+"""
+
+
+def fmt(v, digits: int = 4) -> str:
+    """A number for a table: '-' for missing, 'inf' for infinite, 4 significant digits."""
+    if v is None:
+        return "-"
+    if isinstance(v, bool):
+        return "yes" if v else "no"
+    if isinstance(v, (int, float)):
+        if isinstance(v, float) and math.isinf(v):
+            return "inf"
+        return f"{v:.{digits}g}"
+    return html.escape(str(v))
+
+
+def _svg(svg: bytes) -> str:
+    text = svg.decode("utf-8")
+    return text[text.find("<svg"):]  # drop the XML prolog: inline in HTML
+
+
+def _page(title: str, subtitle: str, body: list[str], cautions) -> str:
+    items = "".join(f"<li>{html.escape(c)}</li>" for c in cautions)
+    return (
+        "<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'>"
+        f"<meta name='viewport' content='width=device-width, initial-scale=1'>"
+        f"<title>{html.escape(title)}</title><style>{_CSS}</style></head><body>"
+        f"<header><h1>{html.escape(title)}</h1><p>{html.escape(subtitle)}</p></header><main>"
+        f"<section class='caution' id='cautions'><strong>Read before use.</strong><ul>{items}"
+        "</ul></section>" + "".join(body) + "</main></body></html>")
+
+
+def _figure(plot_id: str, svg: bytes, caption: str) -> str:
+    return (f"<figure id='{html.escape(plot_id)}' class='plot'>{_svg(svg)}"
+            f"<figcaption>{html.escape(caption)}</figcaption></figure>")
+
+
+SUMMARY_COLUMNS = (("damage", "damage [-]"), ("life_repeats", "life [repeats]"),
+                   ("life_hours", "life [h]"), ("reserve_factor", "reserve factor [-]"),
+                   ("equivalent_range", "eq. range [MPa]"), ("max_range", "max range [MPa]"),
+                   ("cycles_counted", "cycles"))
+
+
+def assessment_page(resource: dict, plots: dict[str, bytes]) -> str:
+    """The page of an assessment: summary, settings and sources, plots, cautions.
+
+    ``plots`` maps plot ids (``damage``, ``history``, ``exceedance``,
+    ``sn-<point>``, ``range-mean-<point>``) to SVG bytes.
+    """
+    points = resource["points"]
+    head = "".join(f"<th>{label}</th>" for _, label in SUMMARY_COLUMNS)
+    rows = []
+    for name, p in points.items():
+        cells = "".join(f"<td data-field='{k}'>{fmt(p.get(k))}</td>" for k, _ in SUMMARY_COLUMNS)
+        flags = ", ".join(p["flags"]) or "-"
+        rows.append(f"<tr data-point='{html.escape(name)}'><td>{html.escape(name)}</td>{cells}"
+                    f"<td class='flag'>{html.escape(flags)}</td></tr>")
+    summary = ("<section id='summary'><h2>Per point</h2><table><thead><tr><th>point</th>"
+               f"{head}<th>flags</th></tr></thead><tbody>{''.join(rows)}</tbody></table>"
+               "<p>Damage is the Miner sum of one pass of the recording; life is how many "
+               "passes (and hours) reach the allowable damage sum; the reserve factor scales "
+               "the whole recording to reach it.</p></section>")
+    settings = []
+    for name, p in points.items():
+        s = p["settings"]
+        curve = p["curve"]
+        est = p.get("estimate")
+        factors = ""
+        if est:
+            factors = "<ul>" + "".join(
+                f"<li>{html.escape(f['symbol'])} = {fmt(f['value'])}: "
+                f"{html.escape(f['basis'])} ({html.escape(f['source'])})</li>"
+                for f in est["factors"]) + "</ul>"
+        settings.append(
+            f"<h3>{html.escape(name)}</h3><dl>"
+            f"<dt>S-N curve</dt><dd>{html.escape(curve['name'])} - {html.escape(curve['source'])}</dd>"
+            f"<dt>mean stress</dt><dd>{html.escape(s['mean_stress_method'])} "
+            f"(compressive means: {html.escape(s['compressive_mean'])})</dd>"
+            f"<dt>allowable damage</dt><dd>{fmt(s['allowable_damage'])}</dd>"
+            f"<dt>partial factors</dt><dd>load {fmt(s['load_factor'])}, strength "
+            f"{fmt(s['strength_factor'])}, thickness {fmt(s['thickness_factor'])}</dd>"
+            f"<dt>counting</dt><dd>ASTM E1049-85 rainflow, residue "
+            f"{html.escape(s['residue'])}, gate {fmt(p.get('gate_mpa'))} MPa</dd></dl>{factors}")
+    figs = [_figure("plot-damage", plots["damage"], "Damage of each point against its "
+                    "allowable sum.")]
+    if "history" in plots:
+        figs.append(_figure("plot-history", plots["history"], "Each history as a min/max "
+                            "envelope per column: no peak is dropped."))
+    figs.append(_figure("plot-exceedance", plots["exceedance"], "Cycles at or above each "
+                        "range."))
+    for name in points:
+        figs.append(_figure(f"plot-sn-{name}", plots[f"sn-{name}"],
+                            f"{name}: S-N curve, counted spectrum, damage share by range."))
+        figs.append(_figure(f"plot-range-mean-{name}", plots[f"range-mean-{name}"],
+                            f"{name}: rainflow matrix (range x mean)."))
+    body = [summary, "<section id='plots'><h2>Plots</h2><div class='plots'>"
+            + "".join(figs) + "</div></section>",
+            "<section id='settings'><h2>Settings and sources</h2>" + "".join(settings)
+            + "<p>Stresses in MPa. Cycles counted by ASTM E1049-85; damage by the "
+            "Palmgren-Miner rule.</p></section>"]
+    cautions = list(CAUTIONS) + sorted({c for p in points.values() for c in p["cautions"]})
+    sub = f"assessment {resource['id']} - {resource['created_at']}"
+    if resource.get("history_id"):
+        sub += f" - history {resource['history_id']}"
+    return _page("Fatigue assessment", sub, body, cautions)
+
+
+def asset_page(asset: dict, points: list[dict], plots: dict[str, bytes]) -> str:
+    """The page of a ledger asset: running figures per point and their curves."""
+    cols = (("damage", "damage [-]"), ("damage_if_ended", "with residue [-]"),
+            ("consumed_percent", "life used [%]"), ("recorded_hours", "recorded [h]"),
+            ("projected_hours_remaining", "hours left [h]"),
+            ("settings_version", "settings"))
+    head = "".join(f"<th>{label}</th>" for _, label in cols)
+    rows = "".join(
+        f"<tr data-point='{html.escape(p['point'])}'><td>{html.escape(p['point'])}</td>"
+        + "".join(f"<td data-field='{k}'>{fmt(p.get(k))}</td>" for k, _ in cols)
+        + f"<td class='flag'>{html.escape(', '.join(p['flags']) or '-')}</td></tr>"
+        for p in points)
+    figs = "".join(_figure(f"plot-ledger-{p['point']}", plots[f"ledger-{p['point']}"],
+                           f"{p['point']}: cumulative damage and projection.")
+                   for p in points)
+    body = [f"<section id='summary'><h2>Points</h2><table><thead><tr><th>point</th>{head}"
+            f"<th>flags</th></tr></thead><tbody>{rows}</tbody></table></section>",
+            f"<section id='plots'><h2>Running damage</h2><div class='plots'>{figs}</div>"
+            "</section>"]
+    return _page(f"Asset {asset['name']}", asset.get("description") or "running damage",
+                 body, list(CAUTIONS) + ["Projections assume the future loads like the "
+                                         "recorded ones."])

@@ -1,0 +1,189 @@
+"""Plots of an assessment, drawn with matplotlib (Agg) into SVG or PNG bytes.
+
+Each function takes plain arrays or the engine's results and returns a
+figure; :func:`render` turns it into bytes. Nothing here reads a request or
+the store. Long histories are drawn as a min/max envelope per pixel column
+(:func:`envelope`), so every peak and valley that matters for fatigue stays
+visible however long the recording is; taking every n-th sample would hide
+them.
+"""
+
+from __future__ import annotations
+
+import io
+import math
+
+import matplotlib
+
+matplotlib.use("Agg")  # no display; must precede pyplot
+import matplotlib.pyplot as plt  # noqa: E402
+import numpy as np  # noqa: E402
+
+from service.engine import histograms  # noqa: E402
+
+#: The report's own palette: ink, teal, amber, rose, and a pale ground.
+INK, TEAL, AMBER, ROSE, GROUND = "#23313b", "#17707f", "#d48a0b", "#b0384f", "#eef3f4"
+_STYLE = {
+    "font.family": "DejaVu Sans", "font.size": 9, "axes.edgecolor": INK,
+    "axes.labelcolor": INK, "xtick.color": INK, "ytick.color": INK,
+    "axes.facecolor": "white", "figure.facecolor": "white", "axes.grid": True,
+    "grid.color": "#d5dee0", "grid.linewidth": 0.6, "axes.spines.top": False,
+    "axes.spines.right": False, "svg.fonttype": "none",
+}
+
+
+def envelope(x: np.ndarray, columns: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Min and max of ``x`` in ``columns`` equal slices (fewer if ``x`` is short).
+
+    Returns ``(index, low, high)``: the first sample index of each slice and
+    its minimum and maximum. The global extremes of ``x`` are always among
+    them.
+    """
+    x = np.asarray(x, dtype=np.float64)
+    n = x.shape[0]
+    if n <= 2 * columns:
+        idx = np.arange(n)
+        return idx, x.copy(), x.copy()
+    edges = np.linspace(0, n, columns + 1).astype(np.int64)
+    starts = edges[:-1]
+    return starts, np.minimum.reduceat(x, starts), np.maximum.reduceat(x, starts)
+
+
+def render(fig, fmt: str = "svg") -> bytes:
+    """The figure as SVG or PNG bytes; the figure is closed."""
+    buf = io.BytesIO()
+    try:
+        fig.savefig(buf, format=fmt, dpi=110, bbox_inches="tight",
+                    metadata={"Date": None} if fmt == "svg" else None)
+    finally:
+        plt.close(fig)
+    return buf.getvalue()
+
+
+def _figure(w=7.0, h=2.6):
+    with plt.rc_context(_STYLE):
+        fig, ax = plt.subplots(figsize=(w, h))
+    return fig, ax
+
+
+def history(samples: dict[str, np.ndarray], sample_rate_hz: float | None,
+            columns: int = 800):
+    """Every point's history as an envelope, one row each. [MPa]"""
+    names = list(samples)
+    with plt.rc_context(_STYLE):
+        fig, axes = plt.subplots(len(names), 1, figsize=(7.0, 1.3 + 1.1 * len(names)),
+                                 sharex=True, squeeze=False)
+    for ax, name in zip(axes[:, 0], names):
+        idx, lo, hi = envelope(samples[name], columns)
+        t = idx / sample_rate_hz if sample_rate_hz else idx
+        ax.fill_between(t, lo, hi, color=TEAL, linewidth=0.4, step="post")
+        ax.set_ylabel(f"{name}\n[MPa]", rotation=0, ha="right", va="center")
+    axes[-1, 0].set_xlabel("time [s]" if sample_rate_hz else "sample")
+    fig.suptitle("History (min/max envelope per column)", color=INK, fontsize=10, x=0.02,
+                 ha="left")
+    return fig
+
+
+def range_mean(table, range_bins: int = 24, mean_bins: int = 24):
+    """The range-mean rainflow matrix as a heat map (cycles per bin)."""
+    fig, ax = _figure(5.4, 4.0)
+    if len(table):
+        m = histograms.range_mean_matrix(table, range_bins=range_bins, mean_bins=mean_bins)
+        counts = np.where(m.counts > 0, m.counts, np.nan)
+        mesh = ax.pcolormesh(m.col_edges, m.row_edges, counts, cmap="cividis", shading="flat")
+        fig.colorbar(mesh, ax=ax, label="cycles")
+    ax.set_xlabel("mean [MPa]")
+    ax.set_ylabel("range [MPa]")
+    ax.set_title("Rainflow matrix", color=INK, loc="left")
+    return fig
+
+
+def exceedance(tables: dict):
+    """Range exceedance spectra: cycles at or above each range, log cycles."""
+    fig, ax = _figure(5.4, 3.6)
+    colors = [TEAL, AMBER, ROSE, INK]
+    for k, (name, table) in enumerate(tables.items()):
+        rng, cum = histograms.exceedance(table)
+        if rng.size:
+            ax.step(cum, rng, where="post", color=colors[k % len(colors)], label=name)
+    ax.set_xscale("log")
+    ax.set_xlabel("cycles at or above the range")
+    ax.set_ylabel("range [MPa]")
+    ax.set_title("Exceedance spectrum", color=INK, loc="left")
+    if tables:
+        ax.legend(frameon=False)
+    return fig
+
+
+def sn_with_spectrum(curve, table, damage_per_cycle, corrected_range=None, bins: int = 20):
+    """The S-N curve, the counted spectrum, and each range bin's share of damage."""
+    fig, ax = _figure(6.0, 4.0)
+    n = np.logspace(3, 9, 200)
+    ax.loglog(n, curve.range_at(n), color=INK, linewidth=1.6, label=curve.name)
+    if len(table):
+        rng, cum = histograms.exceedance(table)
+        ax.step(np.maximum(cum, 1.0), rng, where="post", color=TEAL, label="counted spectrum")
+        edges = np.linspace(0.0, float(np.max(table.stress_range)) * 1.0001, bins + 1)
+        which = np.clip(np.searchsorted(edges, table.stress_range, side="right") - 1, 0,
+                        bins - 1)
+        finite = np.isfinite(damage_per_cycle)
+        share = np.bincount(which[finite], weights=damage_per_cycle[finite], minlength=bins)
+        total = share.sum()
+        if total > 0:
+            ax2 = ax.twiny()
+            ax2.barh(0.5 * (edges[1:] + edges[:-1]), 100 * share / total,
+                     height=np.diff(edges) * 0.9, color=AMBER, alpha=0.55,
+                     label="damage share")
+            ax2.set_xlabel("share of damage by range bin [%]", color=AMBER)
+            ax2.set_xlim(0, max(100 * share.max() / total * 1.6, 1.0))
+            ax2.spines["top"].set_visible(True)
+    # Down to a third of the curve's cut-off (or its last knee): smaller
+    # ranges do no damage and would only squash the plot.
+    floor = curve.cutoff_range or float(curve.range_at(1e8))
+    ax.set_ylim(bottom=max(floor / 3.0, 1e-3))
+    ax.set_xlabel("cycles")
+    ax.set_ylabel("stress range [MPa]")
+    ax.set_title("S-N curve and spectrum", color=INK, loc="left")
+    ax.legend(frameon=False, loc="lower left")
+    return fig
+
+
+def damage_by_point(damage: dict[str, float | None], allowable: dict[str, float]):
+    """Damage of each point with its allowable damage sum marked."""
+    names = list(damage)
+    fig, ax = _figure(6.0, 0.8 + 0.35 * max(len(names), 1))
+    vals = [np.nan if damage[p] is None else damage[p] for p in names]
+    finite = [v if math.isfinite(v) else np.nan for v in vals]
+    colors = [ROSE if (v is None or not math.isfinite(v) or v >= allowable[p]) else TEAL
+              for p, v in zip(names, vals)]
+    y = np.arange(len(names))
+    ax.barh(y, finite, color=colors)
+    for k, p in enumerate(names):
+        ax.plot([allowable[p]] * 2, [k - 0.45, k + 0.45], color=INK, linewidth=1.4)
+        if not math.isfinite(vals[k]):
+            ax.text(0, k, " static overload", va="center", color=ROSE)
+    ax.set_yticks(y, names)
+    ax.invert_yaxis()
+    ax.set_xscale("symlog", linthresh=1e-6)
+    ax.set_xlabel("Miner damage of the recording (bar) and the allowable sum (line) [-]")
+    ax.set_title("Damage by point", color=INK, loc="left")
+    return fig
+
+
+def ledger_point(history_rows: list[dict], allowable: float, rate_per_hour: float | None):
+    """Cumulative damage over recorded hours, with the projection to the allowable sum."""
+    fig, ax = _figure(6.0, 3.2)
+    hours = np.array([r["hours"] for r in history_rows], dtype=float)
+    dmg = np.array([np.nan if r["damage"] is None else r["damage"] for r in history_rows])
+    if hours.size:
+        ax.step(hours, dmg, where="post", color=TEAL, label="cumulative damage")
+        if rate_per_hour and rate_per_hour > 0 and np.isfinite(dmg[-1]) and dmg[-1] < allowable:
+            h_end = hours[-1] + (allowable - dmg[-1]) / rate_per_hour
+            ax.plot([hours[-1], h_end], [dmg[-1], allowable], color=AMBER, linestyle="--",
+                    label="projection at the recorded rate")
+    ax.axhline(allowable, color=ROSE, linewidth=1.2, label="allowable damage sum")
+    ax.set_xlabel("recorded hours [h]")
+    ax.set_ylabel("damage [-]")
+    ax.set_title("Running damage", color=INK, loc="left")
+    ax.legend(frameon=False)
+    return fig

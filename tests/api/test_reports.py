@@ -1,0 +1,144 @@
+"""Report pages and plots over HTTP, and the pages in a real headless browser."""
+
+from __future__ import annotations
+
+import os
+import re
+import shutil
+import subprocess
+import tempfile
+import threading
+
+import numpy as np
+import pytest
+
+from service.api import create_app
+from service.reports.pages import fmt
+from tests.api.conftest import assert_problem
+from tests.api.test_ledger import post, setup_asset
+
+SETTINGS = {"curve": "EN1993-1-9:71", "mean_stress_method": "goodman",
+            "ultimate_strength": 500.0}
+
+
+def make_assessment(client):
+    x = np.random.default_rng(3).standard_normal(6000) * 60
+    r = client.post("/v1/assessments", json={
+        "samples": {"a": x.tolist(), "b": (0.5 * x + 30).tolist()}, "unit": "MPa",
+        "sample_rate_hz": 100, "settings": SETTINGS})
+    assert r.status_code == 201
+    return r.get_json()
+
+
+def test_report_page_holds_the_api_numbers(client):
+    a = make_assessment(client)
+    r = client.get(f"/v1/assessments/{a['id']}/report")
+    assert r.status_code == 200 and r.mimetype == "text/html"
+    page = r.get_data(as_text=True)
+    for name, p in a["points"].items():
+        row = re.search(rf"<tr data-point='{name}'>(.*?)</tr>", page).group(1)
+        for field in ("damage", "life_repeats", "life_hours", "reserve_factor",
+                      "equivalent_range"):
+            cell = re.search(rf"<td data-field='{field}'>([^<]*)</td>", row).group(1)
+            assert cell == fmt(p[field]), (name, field, cell, p[field])
+    assert page.count("<svg") == 3 + 2 * len(a["points"])
+    assert "EN 1993-1-9" in page and "qualified engineer" in page
+    # Works offline: nothing is fetched (no external scripts, styles, images or fonts).
+    assert not re.search(r"""(src|href)\s*=\s*["']?https?:|@import|url\(\s*["']?https?:""", page)
+
+
+def test_plots_alone_as_svg_and_png(client):
+    a = make_assessment(client)
+    base = f"/v1/assessments/{a['id']}/plots"
+    svg = client.get(f"{base}/damage")
+    assert svg.mimetype == "image/svg+xml" and b"<svg" in svg.data
+    png = client.get(f"{base}/sn?point=a", headers={"Accept": "image/png"})
+    assert png.mimetype == "image/png" and png.data[:4] == b"\x89PNG"
+    assert_problem(client.get(f"{base}/sn"), 400, "bad-request", field="point")
+    assert_problem(client.get(f"{base}/pie"), 404, "not-found")
+    assert_problem(client.get(f"{base}/damage?format=gif"), 400, "bad-request")
+
+
+def test_asset_report_and_point_plot(client):
+    setup_asset(client, "arm", ("a",))
+    for i in range(3):
+        post(client, "arm", i + 1, {"a": np.random.default_rng(i).standard_normal(2000) * 80})
+    page = client.get("/v1/assets/arm/report").get_data(as_text=True)
+    status = client.get("/v1/assets/arm/points/a").get_json()
+    row = re.search(r"<tr data-point='a'>(.*?)</tr>", page).group(1)
+    cell = re.search(r"<td data-field='damage'>([^<]*)</td>", row).group(1)
+    assert cell == fmt(status["damage"])
+    plot = client.get("/v1/assets/arm/points/a/plot?format=png")
+    assert plot.mimetype == "image/png" and len(plot.data) > 5000
+
+
+# ---------------------------------------------------------------- real browser
+
+CHROMIUM = shutil.which("chromium") or shutil.which("chromium-browser")
+FLAGS = ["--headless", "--no-sandbox", "--disable-gpu", "--disable-quic", "--no-first-run",
+         "--disable-background-networking", "--disable-component-update", "--disable-sync",
+         "--enable-logging=stderr", "--v=0"]
+
+
+@pytest.fixture
+def served(tmp_path):
+    if CHROMIUM is None:
+        if os.environ.get("CYCLELEDGER_REQUIRE_BROWSER"):
+            pytest.fail("chromium is required here (.ci/run installs it)")
+        pytest.skip("chromium is not installed")
+    from waitress import create_server
+
+    app = create_app({"DATA_DIR": str(tmp_path / "d")})
+    server = create_server(app, host="127.0.0.1", port=0, threads=4)
+    thread = threading.Thread(target=server.run, daemon=True)
+    thread.start()
+    yield app, f"http://127.0.0.1:{server.effective_port}"
+    server.close()
+    app.extensions["cycleledger.jobs"].shutdown()
+    thread.join(timeout=10)
+
+
+def chromium(*args, timeout=90):
+    profile = tempfile.mkdtemp(prefix="cycleledger-chromium-")
+    try:
+        return subprocess.run([CHROMIUM, *FLAGS, f"--user-data-dir={profile}", *args],
+                              capture_output=True, text=True, timeout=timeout)
+    finally:
+        shutil.rmtree(profile, ignore_errors=True)
+
+
+@pytest.mark.parametrize("page", ["assessment", "asset"])
+def test_pages_in_a_headless_browser(served, tmp_path, page):
+    app, url = served
+    c = app.test_client()
+    if page == "assessment":
+        a = make_assessment(c)
+        path = f"/v1/assessments/{a['id']}/report"
+        expected_svgs = 3 + 2 * len(a["points"])
+        values = {n: fmt(p["damage"]) for n, p in a["points"].items()}
+    else:
+        setup_asset(c, "arm", ("a", "b"))
+        post(c, "arm", 1, {"a": np.random.default_rng(1).standard_normal(3000) * 80,
+                           "b": np.random.default_rng(2).standard_normal(3000) * 40})
+        path = "/v1/assets/arm/report"
+        expected_svgs = 2
+        values = {p: fmt(c.get(f"/v1/assets/arm/points/{p}").get_json()["damage"])
+                  for p in ("a", "b")}
+    dom = chromium("--dump-dom", url + path)
+    assert dom.returncode == 0, dom.stderr[-2000:]
+    assert "CONSOLE" not in dom.stderr or "ERROR:CONSOLE" not in dom.stderr
+    assert "Uncaught" not in dom.stderr
+    html = dom.stdout
+    assert html.count("<svg") == expected_svgs
+    for point, damage in values.items():
+        row = re.search(rf"<tr data-point=\"{point}\">(.*?)</tr>", html).group(1)
+        assert f'data-field="damage">{damage}<' in row
+    for figure in re.findall(r"<figure[^>]*>(.*?)</figure>", html, flags=re.S):
+        assert "<path" in figure  # every plot element holds drawing
+    shot = tmp_path / "page.png"
+    out = chromium("--window-size=1200,1600", f"--screenshot={shot}", url + path)
+    assert out.returncode == 0 and shot.exists(), out.stderr[-2000:]
+    from matplotlib.image import imread
+
+    pixels = imread(shot)
+    assert pixels.shape[0] >= 1000 and pixels[..., :3].std() > 0.05  # not blank

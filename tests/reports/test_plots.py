@@ -1,0 +1,66 @@
+"""Plots: honest decimation, and every plot draws what it claims."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from hypothesis import given
+from hypothesis import strategies as st
+
+from service.engine import astm_e1049
+from service.engine.damage import assess
+from service.engine.sn_catalogue import catalogue_curve
+from service.reports import plots
+
+
+@given(st.lists(st.floats(-1e3, 1e3), min_size=1, max_size=500), st.integers(1, 60))
+def test_envelope_keeps_every_extreme(values, columns):
+    # Common practice for plotting long signals: a min/max envelope per
+    # pixel column keeps every extreme (taking every n-th sample does not).
+    x = np.asarray(values)
+    idx, lo, hi = plots.envelope(x, columns)
+    assert lo.min() == x.min() and hi.max() == x.max()
+    assert np.all(lo <= hi)
+    # Each slice's extremes are those of the samples it covers.
+    bounds = list(idx) + [x.size]
+    for k in range(len(idx)):
+        part = x[bounds[k]:bounds[k + 1]] if x.size > 2 * columns else x[k:k + 1]
+        assert lo[k] == part.min() and hi[k] == part.max()
+
+
+def test_envelope_of_a_long_history_is_short():
+    x = np.random.default_rng(0).standard_normal(1_000_000)
+    idx, lo, hi = plots.envelope(x, 800)
+    assert idx.size == 800 and lo.min() == x.min() and hi.max() == x.max()
+
+
+@pytest.fixture(scope="module")
+def assessed():
+    x = np.random.default_rng(1).standard_normal(5000) * 70 + 10
+    table = astm_e1049(x)
+    curve = catalogue_curve("EN1993-1-9:71")
+    return x, table, curve, assess(table, curve)
+
+
+@pytest.mark.parametrize("kind", ["history", "range_mean", "exceedance", "sn", "damage",
+                                  "ledger"])
+@pytest.mark.parametrize("fmt", ["svg", "png"])
+def test_each_plot_renders(assessed, kind, fmt):
+    x, table, curve, r = assessed
+    fig = {
+        "history": lambda: plots.history({"a": x, "b": -x}, 100.0),
+        "range_mean": lambda: plots.range_mean(table),
+        "exceedance": lambda: plots.exceedance({"a": table}),
+        "sn": lambda: plots.sn_with_spectrum(curve, table, r.damage_per_cycle),
+        "damage": lambda: plots.damage_by_point({"a": r.damage, "b": None},
+                                                {"a": 1.0, "b": 1.0}),
+        "ledger": lambda: plots.ledger_point(
+            [{"hours": h, "damage": 0.01 * h} for h in range(1, 6)], 1.0, 0.01),
+    }[kind]()
+    out = plots.render(fig, fmt)
+    if fmt == "svg":
+        text = out.decode()
+        assert text.lstrip().startswith("<?xml") and "<svg" in text and "</svg>" in text
+        assert text.count("<path") > 5
+    else:
+        assert out[:8] == b"\x89PNG\r\n\x1a\n" and len(out) > 5000
