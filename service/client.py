@@ -14,6 +14,7 @@ Example::
 
 from __future__ import annotations
 
+import http.client
 import io
 import json
 import time
@@ -68,6 +69,10 @@ class Client:
             raise ServiceError(exc.code, problem) from None
         except urllib.error.URLError as exc:
             raise ServiceError(0, {"title": "Unreachable", "detail": str(exc.reason)}) from None
+        except (OSError, http.client.HTTPException) as exc:
+            # The connection broke mid-request: the answer (if any) is lost;
+            # a pipeline retries, and the service counts a retry once.
+            raise ServiceError(0, {"title": "Connection lost", "detail": str(exc)}) from None
 
     def get_json(self, path: str, **params) -> dict:
         return json.loads(self.request("GET", path, params=params)[2])

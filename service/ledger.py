@@ -32,7 +32,7 @@ from service.engine.settings import point_from_dict, resolve
 from service.store import ledger as sql
 from service.store import parquet, sqlite
 
-BLOCKS = "blocks"
+BLOCKS = parquet.BLOCKS
 _HOUR_S = 3600.0
 
 

@@ -16,6 +16,7 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 
 HISTORIES = "histories"
+BLOCKS = "blocks"
 TMP_PREFIX = ".tmp-"
 _TMP = TMP_PREFIX
 
@@ -93,7 +94,7 @@ def remove(data_dir: str | Path, rel: str | None) -> None:
 def sweep(data_dir: str | Path) -> int:
     """Remove temporary files left by a crash; returns how many."""
     n = 0
-    for folder in (HISTORIES,):
+    for folder in (HISTORIES, BLOCKS):
         for p in (Path(data_dir) / folder).glob(f"{_TMP}*"):
             p.unlink(missing_ok=True)
             n += 1
