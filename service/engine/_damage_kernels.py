@@ -380,7 +380,8 @@ def inverse_life(segments, s: float) -> float:
     inv_s, c, m, _, lo, hi = segments
     for g in range(m.shape[0]):
         if lo[g] <= s < hi[g]:
-            return float((s * inv_s[g]) ** m[g] * c[g])
+            with np.errstate(over="ignore"):  # a range of 1e300 MPa: 1/N is inf
+                return float((s * inv_s[g]) ** m[g] * c[g])
     return 0.0
 
 

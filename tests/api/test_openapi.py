@@ -86,7 +86,7 @@ def _cleanup_fuzz_app():
 
 
 @schema.parametrize()
-@settings(max_examples=int(os.environ.get("FUZZ_EXAMPLES", "40")), deadline=None,
+@settings(max_examples=int(os.environ.get("FUZZ_EXAMPLES", "200")), deadline=None,
           suppress_health_check=list(HealthCheck))
 def test_contract_fuzz(case):
     # No 5xx, and every response conforms to the document (status, media
