@@ -279,12 +279,33 @@ def _cmd_curves(args) -> int:
     return 0
 
 
+def is_loopback(host: str) -> bool:
+    """Whether ``host`` only accepts connections from this machine."""
+    import ipaddress
+
+    if host == "localhost":
+        return True
+    try:
+        return ipaddress.ip_address(host).is_loopback
+    except ValueError:
+        return False
+
+
 def _cmd_serve(args) -> int:
     import logging
 
     from gunicorn.app.base import BaseApplication
 
     from service.api import create_app
+
+    if not is_loopback(args.host):
+        # The service has no access control of its own yet: every client can
+        # read and change everything. Open only to this machine.
+        print(f"error: refusing to serve on {args.host}: the service has no API keys yet, so "
+              f"anyone who can reach it could read and change every result. Bind to "
+              f"127.0.0.1 and put an authenticating, TLS-terminating proxy in front.",
+              file=sys.stderr)
+        return 2
 
     logging.basicConfig(level=logging.INFO, format="%(asctime)s %(name)s %(message)s")
     config = {"DATA_DIR": args.data_dir} if args.data_dir else {}
@@ -311,7 +332,8 @@ def _cmd_serve(args) -> int:
         def load(self):
             app = create_app(config)
             print(f"cycleledger {_version()} serving on http://{args.host}:{args.port}/v1/ "
-                  f"(data in {app.config['DATA_DIR']}; Ctrl-C stops)", flush=True)
+                  f"(data in {app.config['DATA_DIR']}; open to this machine only, no API "
+                  f"keys; Ctrl-C stops)", flush=True)
             return app
 
     Server().run()

@@ -77,3 +77,18 @@ def test_non_numeric_cell_names_channel_and_row(tmp_path, capsys):
     path.write_text("g1\n0\n1\nabc\n0\n")
     assert main(["assess", str(path), "--curve", "EN1993-1-9:71"]) == 2
     assert "channel 'g1' row 2 is 'abc'" in capsys.readouterr().err
+
+
+@pytest.mark.parametrize("host, allowed", [("127.0.0.1", True), ("127.0.0.2", True),
+                                           ("::1", True), ("localhost", True),
+                                           ("0.0.0.0", False), ("192.168.1.20", False),
+                                           ("rig-server.local", False)])
+def test_serve_is_open_to_this_machine_only(host, allowed, capsys):
+    # Without access control the service must not listen beyond loopback
+    # (common practice for an unauthenticated service).
+    from service.cli import is_loopback
+
+    assert is_loopback(host) == allowed
+    if not allowed:
+        assert main(["serve", "--host", host, "--port", "1"]) == 2
+        assert "refusing" in capsys.readouterr().err
