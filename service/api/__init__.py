@@ -30,6 +30,8 @@ def create_app(test_config: dict | None = None) -> Flask:
     ``ASYNC_SAMPLES``: samples x points above which an assessment runs as a
     job (202) instead of at once (201) (default 2e6);
     ``JOB_WORKERS``: threads running jobs (default 1);
+    ``MAX_CHANNELS``, ``MAX_SAMPLES_PER_CHANNEL``: per request (413 above);
+    ``MAX_QUEUED_JOBS``: jobs queued or running before new ones get 429;
     ``WARM_KERNELS``: compile or load the numba kernels at start (default on).
     """
     app = Flask(__name__)
@@ -38,6 +40,9 @@ def create_app(test_config: dict | None = None) -> Flask:
         MAX_UPLOAD_MB=512,
         ASYNC_SAMPLES=2_000_000,
         JOB_WORKERS=1,
+        MAX_CHANNELS=256,
+        MAX_SAMPLES_PER_CHANNEL=200_000_000,
+        MAX_QUEUED_JOBS=16,
         WARM_KERNELS=True,
         JSON_SORT_KEYS=False,
     )

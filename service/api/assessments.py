@@ -13,7 +13,7 @@ from service.store import parquet, sqlite
 
 from . import created, data_dir, db, json_object, uploads
 from .histories import load as load_history, page_args
-from .problems import ApiProblem, NotAcceptable, NotFound
+from .problems import ApiProblem, NotAcceptable, NotFound, TooManyJobs
 
 bp = Blueprint("assessments", __name__)
 
@@ -98,7 +98,12 @@ def _prefers_async() -> bool:
 def _queue(body, channels, duration, hid, n_points, samples_file):
     job_id = sqlite.new_id("j")
     con = db()
+    limit = current_app.config["MAX_QUEUED_JOBS"]
     with sqlite.write(con):
+        waiting = sqlite.count_jobs(con, ("queued", "running"))
+        if waiting >= limit:
+            raise TooManyJobs(f"{waiting} jobs are queued or running (limit {limit}); "
+                              f"retry later", retry_after_s=5, limit=limit)
         sqlite.insert_job(con, job_id, "assessment", n_points)
     current_app.extensions["cycleledger.jobs"].submit_assessment(
         job_id, body, channels, duration, hid, samples_file)

@@ -51,6 +51,18 @@ class InvalidUpload(ApiProblem):
     status, slug, title = 422, "invalid-upload", "Upload is not a valid load history"
 
 
+class TooLarge(ApiProblem):
+    status, slug, title = 413, "too-large", "Request exceeds a limit"
+
+
+class TooManyJobs(ApiProblem):
+    status, slug, title = 429, "too-many-jobs", "Too many jobs waiting"
+
+    def __init__(self, detail: str, retry_after_s: int, **extra):
+        super().__init__(detail, retry_after_s=retry_after_s, **extra)
+        self.retry_after_s = retry_after_s
+
+
 class NotAcceptable(ApiProblem):
     status, slug, title = 406, "not-acceptable", "No acceptable representation"
 
@@ -101,7 +113,10 @@ def register(app: Flask) -> None:
 
     @app.errorhandler(ApiProblem)
     def _api(exc: ApiProblem):
-        return problem(exc.status, exc.slug, exc.title, exc.detail, **exc.extra)
+        resp = problem(exc.status, exc.slug, exc.title, exc.detail, **exc.extra)
+        if getattr(exc, "retry_after_s", None):
+            resp.headers["Retry-After"] = str(exc.retry_after_s)
+        return resp
 
     @app.errorhandler(HTTPException)
     def _http(exc: HTTPException):

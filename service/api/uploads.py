@@ -18,7 +18,7 @@ from service.engine import units
 from service.engine.errors import InvalidLoadHistory, InvalidParameter, unknown
 from service.engine.rainflow import as_history
 
-from .problems import InvalidUpload, MalformedBody, UnsupportedMediaType
+from .problems import InvalidUpload, MalformedBody, TooLarge, UnsupportedMediaType
 
 CSV_TYPES = ("text/csv",)
 PARQUET_TYPES = ("application/vnd.apache.parquet", "application/x-parquet")
@@ -185,6 +185,7 @@ def validated(columns: dict, params: dict, registered: dict | None = None) -> Up
             raise InvalidParameter(
                 f"sample_rate_hz {rate} contradicts the time column ({inferred:.6g} Hz)",
                 field="sample_rate_hz", value=rate, limit=inferred)
+    _check_limits(columns)
     if registered is not None:
         for name in columns:
             if name not in registered:
@@ -247,6 +248,23 @@ def check_name(name, field: str) -> None:
         shown = repr(name)[:60]
         raise InvalidParameter(f"{field}: name {shown} must be printable text of 1 to "
                                f"{MAX_NAME_CHARS} characters", field=field)
+
+
+def _check_limits(columns: dict) -> None:
+    """Channels per request and samples per channel within the service's limits (413)."""
+    from flask import current_app, has_app_context
+
+    if not has_app_context():
+        return
+    cfg = current_app.config
+    if len(columns) > cfg["MAX_CHANNELS"]:
+        raise TooLarge(f"{len(columns)} channels in one request; the limit is "
+                       f"{cfg['MAX_CHANNELS']}", field="channels", limit=cfg["MAX_CHANNELS"])
+    for name, values in columns.items():
+        if len(values) > cfg["MAX_SAMPLES_PER_CHANNEL"]:
+            raise TooLarge(f"channel {name!r} has {len(values)} samples; the limit is "
+                           f"{cfg['MAX_SAMPLES_PER_CHANNEL']}", field="channels",
+                           channel=str(name), limit=cfg["MAX_SAMPLES_PER_CHANNEL"])
 
 
 def _units(params: dict, names: list, registered: dict) -> dict:

@@ -190,6 +190,12 @@ def update_job(con, job_id: str, **fields) -> None:
                     (*fields.values(), now(), job_id))
 
 
+def count_jobs(con, states) -> int:
+    marks = ", ".join("?" for _ in states)
+    return con.execute(f"SELECT count(*) FROM jobs WHERE state IN ({marks})",
+                       tuple(states)).fetchone()[0]
+
+
 def get_job(con, job_id: str) -> dict | None:
     r = con.execute("SELECT * FROM jobs WHERE id = ?", (job_id,)).fetchone()
     if r is None:

@@ -227,3 +227,22 @@ def test_deleting_a_history_keeps_what_its_assessments_need(client, app):
     cyc = client.get(a["links"]["points"]["a"]["cycles"]).get_json()
     assert math.fsum(cyc["damage"]) == pytest.approx(a["points"]["a"]["damage"], rel=1e-12)
     assert len(stored_files(app)) == 1  # the samples, now owned by the assessment
+
+
+def test_limits_answer_413_and_429_with_retry_after(tmp_path):
+    app = make_app(tmp_path, MAX_CHANNELS=2, MAX_SAMPLES_PER_CHANNEL=1000, MAX_QUEUED_JOBS=0)
+    c = app.test_client()
+    x = [0.0, 50.0, -50.0, 10.0]
+    r = c.post("/v1/assessments", json={"samples": {"a": x, "b": x, "c": x}, "unit": "MPa",
+                                         "settings": EN71})
+    assert_problem(r, 413, "too-large", field="channels", limit=2)
+    r = c.post("/v1/assessments", json={"samples": {"a": [0.0, 1.0] * 600}, "unit": "MPa",
+                                         "settings": EN71})
+    assert_problem(r, 413, "too-large", channel="a", limit=1000)
+    r = c.post("/v1/assessments", headers={"Prefer": "respond-async"},
+               json={"samples": {"a": x}, "unit": "MPa", "settings": EN71})
+    assert_problem(r, 429, "too-many-jobs", limit=0)
+    assert r.headers["Retry-After"] == "5"
+    assert c.get("/v1/assessments").get_json()["items"] == []
+    app.extensions["cycleledger.jobs"].shutdown()
+    assert not app.config["contract_errors"], app.config["contract_errors"]
