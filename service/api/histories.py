@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from pathlib import Path
+
 from flask import Blueprint, jsonify, request, url_for
 
 from service.store import parquet, sqlite
@@ -84,7 +86,7 @@ def delete(history_id: str):
     return "", 204
 
 
-def spool_body(folder, digest=None) -> "Path":
+def spool_body(folder, digest=None) -> Path:
     """Write the request body to a temporary file in ``folder`` as it arrives.
 
     Under gunicorn the body is read from the socket while this runs, so a
@@ -94,7 +96,6 @@ def spool_body(folder, digest=None) -> "Path":
     stream enforces the upload limit (413).
     """
     import uuid
-    from pathlib import Path
 
     from .problems import MalformedBody
 

@@ -6,7 +6,7 @@ import hashlib
 import math
 import time
 
-from flask import Blueprint, Response, jsonify, request, url_for
+from flask import Blueprint, jsonify, request, url_for
 
 from service import ledger, runs
 from service.engine import units as engine_units

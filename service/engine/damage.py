@@ -238,7 +238,6 @@ class _Evaluator:
             self.segments)
         self.load_factor = opts.load_factor
         self.cols = (table.stress_from, table.stress_to, table.count)
-        self.calls = 0
         self.overload_scale = math.inf
 
     def __call__(self, s: float, per_cycle=None, extras: bool = False):
@@ -247,7 +246,6 @@ class _Evaluator:
         Per-cycle damage goes into ``per_cycle`` if given; the last three are
         computed only with ``extras`` (else 0).
         """
-        self.calls += 1
         out = _dk.damage_pass(*self.cols, s * self.load_factor, *self.args,
                               _NO_ROWS if per_cycle is None else per_cycle, extras)
         d, over, weight = out[0], out[1], out[2]

@@ -6,7 +6,6 @@ import numpy as np
 import pytest
 
 from service.engine.damage import AssessmentOptions, assess_history
-from service.engine.sn_curve import basquin_range
 from tests.api.conftest import assert_problem
 
 CA = np.tile([-100.0, 100.0], 1001)  # 1000.5 cycles of 200 MPa (ASTM E1049-85 counting)

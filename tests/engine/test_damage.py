@@ -13,7 +13,6 @@ from service.engine.damage import (AssessmentOptions, assess, assess_history, as
 from service.engine.mean_stress import MEAN_STRESS_METHODS, equivalent_amplitude
 from service.engine.sn_catalogue import catalogue_curve
 from service.engine.sn_curve import basquin_range
-from service.engine.rainflow import CycleTable
 
 EN71 = catalogue_curve("EN1993-1-9:71")
 
