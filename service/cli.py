@@ -15,6 +15,7 @@ from __future__ import annotations
 import argparse
 import json
 import math
+import os
 import sys
 from pathlib import Path
 
@@ -298,13 +299,21 @@ def _cmd_serve(args) -> int:
 
     from service.api import create_app
 
-    if not is_loopback(args.host):
-        # The service has no access control of its own yet: every client can
-        # read and change everything. Open only to this machine.
-        print(f"error: refusing to serve on {args.host}: the service has no API keys yet, so "
-              f"anyone who can reach it could read and change every result. Bind to "
-              f"127.0.0.1 and put an authenticating, TLS-terminating proxy in front.",
-              file=sys.stderr)
+    from service.store import keys, sqlite
+
+    data_dir = args.data_dir or os.environ.get("CYCLELEDGER_DATA_DIR", "cycleledger-data")
+    sqlite.init(data_dir)
+    con = sqlite.connect(data_dir)
+    try:
+        keyed = keys.any_active(con)
+    finally:
+        con.close()
+    if not keyed and not is_loopback(args.host):
+        # Open mode (no keys): every client could read and change everything.
+        print(f"error: refusing to serve on {args.host} without API keys: anyone who can "
+              f"reach it could read and change every result. Make a key first "
+              f"(cycleledger keys create --project NAME --scope admin), or bind to "
+              f"127.0.0.1.", file=sys.stderr)
         return 2
 
     logging.basicConfig(level=logging.INFO, format="%(asctime)s %(name)s %(message)s")
@@ -315,6 +324,12 @@ def _cmd_serve(args) -> int:
         config["JOB_WORKERS"] = args.job_workers
     if args.async_samples is not None:
         config["ASYNC_SAMPLES"] = args.async_samples
+    if args.rate_per_s is not None:
+        config["RATE_PER_S"] = args.rate_per_s
+    if args.rate_burst is not None:
+        config["RATE_BURST"] = args.rate_burst
+    access = ("API keys required" if keyed else
+              "OPEN: no API keys, so it answers clients on this machine without one")
 
     class Server(BaseApplication):
         # One worker process with request threads: jobs and their state live
@@ -332,11 +347,97 @@ def _cmd_serve(args) -> int:
         def load(self):
             app = create_app(config)
             print(f"cycleledger {_version()} serving on http://{args.host}:{args.port}/v1/ "
-                  f"(data in {app.config['DATA_DIR']}; open to this machine only, no API "
-                  f"keys; Ctrl-C stops)", flush=True)
+                  f"(data in {app.config['DATA_DIR']}; {access}; Ctrl-C stops)", flush=True)
             return app
 
     Server().run()
+    return 0
+
+
+def _keys_parser(sub) -> None:
+    p = sub.add_parser("keys", help="make, list and revoke API keys (on the data directory)")
+    p.add_argument("--data-dir", dest="data_dir",
+                   help="data directory (default: $CYCLELEDGER_DATA_DIR or ./cycleledger-data)")
+    ks = p.add_subparsers(dest="keys_command", required=True)
+    c = ks.add_parser("create", help="make a key; its secret is printed once")
+    c.add_argument("--project", required=True, help="the namespace the key reads and writes")
+    c.add_argument("--scope", required=True, choices=["read", "write", "admin"],
+                   help="read: GET; write: + histories, assessments, blocks; admin: + assets, "
+                        "points, settings, voids, deletes, curves and materials")
+    c.add_argument("--name", help="what the key is for (a rig, a dashboard)")
+    c.add_argument("--rate-per-s", dest="rate_per_s", type=float,
+                   help="this key's request rate (default: the service's)")
+    c.add_argument("--json", action="store_true", help="machine-readable output")
+    c.set_defaults(func=_cmd_keys_create)
+    c = ks.add_parser("list", help="the keys (never their secrets)")
+    c.add_argument("--project")
+    c.add_argument("--json", action="store_true", help="machine-readable output")
+    c.set_defaults(func=_cmd_keys_list)
+    c = ks.add_parser("revoke", help="revoke a key for good (its requests get 401 at once)")
+    c.add_argument("key_id", help="the key's id (k_...)")
+    c.set_defaults(func=_cmd_keys_revoke)
+
+
+def _keys_store(args):
+    from service.store import sqlite
+
+    data_dir = args.data_dir or os.environ.get("CYCLELEDGER_DATA_DIR", "cycleledger-data")
+    sqlite.init(data_dir)
+    return sqlite.connect(data_dir)
+
+
+def _cmd_keys_create(args) -> int:
+    from service.store import keys
+
+    con = _keys_store(args)
+    try:
+        row, secret = keys.create(con, args.project, args.scope, args.name, args.rate_per_s)
+    except ValueError as exc:
+        print(f"error: {exc}", file=sys.stderr)
+        return 2
+    finally:
+        con.close()
+    if args.json:
+        print(json.dumps({**row, "secret": secret}))
+    else:
+        print(f"key {row['id']} for project {row['project']!r}, scopes "
+              f"{' '.join(row['scopes'])}\n\n  {secret}\n\nThis secret is shown once and "
+              f"not stored: keep it in your secret store. Send it as "
+              f"`Authorization: Bearer <secret>` (or set CYCLELEDGER_API_KEY).")
+    return 0
+
+
+def _cmd_keys_list(args) -> int:
+    from service.store import keys
+
+    con = _keys_store(args)
+    try:
+        rows = keys.list_keys(con, args.project)
+    finally:
+        con.close()
+    if args.json:
+        print(json.dumps(rows))
+        return 0
+    print(f"{'id':<20} {'project':<16} {'scopes':<18} {'state':<8} {'created':<21} name")
+    for r in rows:
+        state = "revoked" if r["revoked_at"] else "active"
+        print(f"{r['id']:<20} {r['project']:<16} {' '.join(r['scopes']):<18} {state:<8} "
+              f"{r['created_at']:<21} {r['name'] or ''}")
+    return 0
+
+
+def _cmd_keys_revoke(args) -> int:
+    from service.store import keys
+
+    con = _keys_store(args)
+    try:
+        ok = keys.revoke(con, args.key_id)
+    finally:
+        con.close()
+    if not ok:
+        print(f"error: no active key {args.key_id!r}", file=sys.stderr)
+        return 2
+    print(f"revoked {args.key_id}")
     return 0
 
 
@@ -433,7 +534,12 @@ def main(argv=None) -> int:
     p.add_argument("--async-samples", dest="async_samples", type=int,
                    help="samples x points above which an assessment becomes a job "
                         "(default 2000000)")
+    p.add_argument("--rate-per-s", dest="rate_per_s", type=float,
+                   help="requests a second per API key before 429 (default 50; 0: no limit)")
+    p.add_argument("--rate-burst", dest="rate_burst", type=float,
+                   help="requests a key may send at once above its rate (default 100)")
     p.set_defaults(func=_cmd_serve)
+    _keys_parser(sub)
     args = parser.parse_args(argv)
     from service.engine.errors import EngineError
 

@@ -17,6 +17,7 @@ from __future__ import annotations
 import http.client
 import io
 import json
+import os
 import time
 import urllib.error
 import urllib.parse
@@ -34,12 +35,22 @@ class ServiceError(Exception):
         super().__init__(f"{status} {problem.get('title', '')}: {problem.get('detail', '')}")
 
 
-class Client:
-    """Talk to one cycleledger service at ``base_url``."""
+#: Environment variable a client reads its API key from when none is given.
+API_KEY_ENV = "CYCLELEDGER_API_KEY"
 
-    def __init__(self, base_url: str = "http://127.0.0.1:8350", timeout_s: float = 300.0):
+
+class Client:
+    """Talk to one cycleledger service at ``base_url``.
+
+    ``api_key`` (default: ``$CYCLELEDGER_API_KEY``) is sent as a bearer
+    token; without one the service answers only in its open mode.
+    """
+
+    def __init__(self, base_url: str = "http://127.0.0.1:8350", timeout_s: float = 300.0,
+                 api_key: str | None = None):
         self.base_url = base_url.rstrip("/")
         self.timeout_s = timeout_s
+        self.api_key = api_key if api_key is not None else os.environ.get(API_KEY_ENV) or None
 
     # ------------------------------------------------------------------ plumbing
 
@@ -53,6 +64,8 @@ class Client:
                                                  if v is not None})
         req = urllib.request.Request(url, data=body, method=method)
         req.add_header("Accept", accept)
+        if self.api_key:
+            req.add_header("Authorization", f"Bearer {self.api_key}")
         if content_type:
             req.add_header("Content-Type", content_type)
         for k, v in (headers or {}).items():

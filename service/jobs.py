@@ -27,13 +27,14 @@ class JobRunner:
         self.pool = ThreadPoolExecutor(max_workers=workers, thread_name_prefix="cycleledger-job")
 
     def submit_assessment(self, job_id: str, request: dict, load_channels, duration_s,
-                          history_id, samples_file=None):
-        """Queue an assessment; ``load_channels()`` returns ``{name: MPa array}``."""
+                          history_id, samples_file=None, *, project: str):
+        """Queue an assessment in ``project``; ``load_channels()`` returns
+        ``{name: MPa array}``."""
         return self.pool.submit(self._run, job_id, request, load_channels, duration_s,
-                                history_id, samples_file)
+                                history_id, samples_file, project)
 
     def _run(self, job_id, request, load_channels, duration_s, history_id,
-             samples_file) -> None:
+             samples_file, project) -> None:
         con = sqlite.connect(self.data_dir)
         try:
             sqlite.update_job(con, job_id, state="running")
@@ -50,7 +51,7 @@ class JobRunner:
                 return
             row = runs.run(con, self.data_dir, request, channels, duration_s,
                            history_id, progress=progress, samples_file=samples_file,
-                           lookup=runs.store_lookup(con))
+                           lookup=runs.store_lookup(con, project), project=project)
             sqlite.update_job(con, job_id, state="done", assessment_id=row["id"])
         except EngineError as exc:
             sqlite.update_job(con, job_id, state="failed",

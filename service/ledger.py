@@ -118,7 +118,7 @@ def recount(con, data_dir, row: dict) -> dict:
     """A point's totals from scratch over its stored blocks, in sequence order."""
     model = _model(row["resolved"])
     totals = _start(row)
-    for block in sql.point_blocks(con, row["asset"], row["point"]):
+    for block in sql.point_blocks(con, row["asset_id"], row["point"]):
         totals = _advance(totals, _samples(data_dir, block, row["point"]), block, model)
     return totals
 
@@ -129,17 +129,17 @@ _locks: dict = {}
 _locks_guard = threading.Lock()
 
 
-def _lock(data_dir, asset: str, point: str) -> threading.Lock:
-    key = (str(data_dir), asset, point)
+def _lock(data_dir, asset_id: str, point: str) -> threading.Lock:
+    key = (str(data_dir), asset_id, point)
     with _locks_guard:
         return _locks.setdefault(key, threading.Lock())
 
 
-def point_locks(data_dir, asset: str, points) -> ExitStack:
+def point_locks(data_dir, asset_id: str, points) -> ExitStack:
     """Hold the locks of ``points`` (taken in name order, so never a deadlock)."""
     stack = ExitStack()
     for p in sorted(points):
-        stack.enter_context(_lock(data_dir, asset, p))
+        stack.enter_context(_lock(data_dir, asset_id, p))
     return stack
 
 
@@ -161,12 +161,12 @@ def check_block(con, asset: str, up, points_rows: dict) -> None:
                                "projects damage per recorded hour", field="sample_rate_hz")
 
 
-def sequence_check(con, asset: str, seq: int, row: dict, content_hash: str,
+def sequence_check(con, asset_id: str, seq: int, row: dict, content_hash: str,
                    allow_gap: bool, allow_late: bool):
     """``None`` to count the block, ``"late"`` to count it by recounting, or the
     earlier block to replay when this is a retry of it. Raises LedgerConflict."""
     point = row["point"]
-    held = sql.block_at(con, asset, point, seq)
+    held = sql.block_at(con, asset_id, point, seq)
     if held is not None:
         if held["content_hash"] == content_hash:
             return held
@@ -191,7 +191,7 @@ def sequence_check(con, asset: str, seq: int, row: dict, content_hash: str,
                          point=point, seq=seq, expected=last + 1)
 
 
-def post_block(con, data_dir, asset: str, seq: int, up, spooled, *, recorded_at=None,
+def post_block(con, data_dir, asset_id: str, seq: int, up, spooled, *, recorded_at=None,
                idempotency_key=None, content_hash: str, allow_gap=False,
                allow_late=False, respond) -> tuple[dict, bool]:
     """Count a block for its points and store it with the new totals.
@@ -200,16 +200,16 @@ def post_block(con, data_dir, asset: str, seq: int, up, spooled, *, recorded_at=
     retry gets it again. Returns ``(answer, replayed)``.
     """
     if idempotency_key is not None:
-        held = sql.block_by_key(con, asset, idempotency_key)
+        held = sql.block_by_key(con, asset_id, idempotency_key)
         if held is not None:
             if held["content_hash"] == content_hash and held["seq"] == seq:
                 return held["response"], True
             raise LedgerConflict(f"Idempotency-Key {idempotency_key!r} was used for block "
                                  f"{held['id']} with other content", block_id=held["id"])
     names = list(up.channels)
-    with point_locks(data_dir, asset, names):
-        rows = {n: sql.get_point(con, asset, n) for n in names}
-        plans = {n: sequence_check(con, asset, seq, rows[n], content_hash, allow_gap,
+    with point_locks(data_dir, asset_id, names):
+        rows = {n: sql.get_point(con, asset_id, n) for n in names}
+        plans = {n: sequence_check(con, asset_id, seq, rows[n], content_hash, allow_gap,
                                    allow_late) for n in names}
         replays = [p for p in plans.values() if isinstance(p, dict)]
         if replays:
@@ -220,7 +220,7 @@ def post_block(con, data_dir, asset: str, seq: int, up, spooled, *, recorded_at=
         block_id = sqlite.new_id("b")
         rel = (parquet.adopt(data_dir, BLOCKS, block_id, spooled) if up.stored_as_sent
                else parquet.write_columns(data_dir, BLOCKS, block_id, up.channels))
-        block = {"id": block_id, "asset": asset, "seq": seq, "created_at": sqlite.now(),
+        block = {"id": block_id, "asset_id": asset_id, "seq": seq, "created_at": sqlite.now(),
                  "recorded_at": recorded_at, "idempotency_key": idempotency_key,
                  "content_hash": content_hash, "sample_rate_hz": up.sample_rate_hz,
                  "sample_count": up.sample_count, "points": names, "file": rel}
@@ -255,9 +255,9 @@ def post_block(con, data_dir, asset: str, seq: int, up, spooled, *, recorded_at=
                         t = recount(con, data_dir, rows[n])
                         t["last_seq"] = rows[n]["last_seq"]
                         totals[n] = t
-                    sql.save_totals(con, asset, n, totals[n],
+                    sql.save_totals(con, asset_id, n, totals[n],
                                     "late_block" if plans[n] == "late" else "block", block_id)
-                statuses = {n: status(sql.get_point(con, asset, n)) for n in names}
+                statuses = {n: status(sql.get_point(con, asset_id, n)) for n in names}
                 answer = respond(block, statuses)
                 sql.set_block_response(con, block_id, answer)
         except BaseException:
@@ -272,33 +272,33 @@ def _current(row: dict) -> dict:
         "overload": bool(row["overload"])}
 
 
-def void(con, data_dir, asset: str, block_id: str) -> dict:
+def void(con, data_dir, asset_id: str, block_id: str) -> dict:
     """Void a block and recount its points; ``{point: status}``."""
-    block = sql.get_block(con, block_id)
-    if block is None or block["asset"] != asset:
+    block = sql.get_block(con, asset_id, block_id)
+    if block is None:
         raise KeyError(block_id)
-    with point_locks(data_dir, asset, block["points"]):
+    with point_locks(data_dir, asset_id, block["points"]):
         with sqlite.write(con):
             if not sql.void_block(con, block_id):
                 raise LedgerConflict(f"block {block_id} is already void", block_id=block_id)
             for n in block["points"]:
-                row = sql.get_point(con, asset, n)
+                row = sql.get_point(con, asset_id, n)
                 t = recount(con, data_dir, row)
                 t["last_seq"] = row["last_seq"]
-                sql.save_totals(con, asset, n, t, "void", block_id)
-            return {n: status(sql.get_point(con, asset, n)) for n in block["points"]}
+                sql.save_totals(con, asset_id, n, t, "void", block_id)
+            return {n: status(sql.get_point(con, asset_id, n)) for n in block["points"]}
 
 
-def new_settings(con, data_dir, asset: str, point: str, settings: dict, resolved: dict) -> dict:
+def new_settings(con, data_dir, asset_id: str, point: str, settings: dict, resolved: dict) -> dict:
     """Store a new settings version and recount the point under it."""
-    with point_locks(data_dir, asset, [point]):
+    with point_locks(data_dir, asset_id, [point]):
         with sqlite.write(con):
-            sql.add_settings_version(con, asset, point, settings, resolved)
-            row = sql.get_point(con, asset, point)
+            sql.add_settings_version(con, asset_id, point, settings, resolved)
+            row = sql.get_point(con, asset_id, point)
             t = recount(con, data_dir, row)
             t["last_seq"] = row["last_seq"]
-            sql.save_totals(con, asset, point, t, "settings", None)
-            return status(sql.get_point(con, asset, point))
+            sql.save_totals(con, asset_id, point, t, "settings", None)
+            return status(sql.get_point(con, asset_id, point))
 
 
 # ---------------------------------------------------------------- reporting

@@ -85,13 +85,13 @@ def counting_options(request: dict) -> tuple[float | None, float | None, str]:
     return gate, frac, residue
 
 
-def store_lookup(con):
-    """``lookup(kind, name)`` over the stored materials and user curves."""
+def store_lookup(con, project: str):
+    """``lookup(kind, name)`` over the materials and user curves of ``project``."""
     def lookup(kind: str, name: str) -> dict:
         table = "materials" if kind == "material" else "user_curves"
-        doc = sqlite.get_named(con, table, name)
+        doc = sqlite.get_named(con, project, table, name)
         if doc is None:
-            names = [d["name"] for d in sqlite.list_named(con, table)]
+            names = [d["name"] for d in sqlite.list_named(con, project, table)]
             shown = names if kind == "material" else [USER_CURVE_PREFIX + n for n in names]
             raise unknown(kind, name if kind == "material" else USER_CURVE_PREFIX + name, shown)
         return doc
@@ -134,8 +134,8 @@ def assess_point(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
 
 def run(con, data_dir, request: dict, channels: dict[str, np.ndarray],
         duration_s: float | None, history_id: str | None, progress=None,
-        samples_file: str | None = None, lookup=None) -> dict:
-    """Assess, store and return the assessment row.
+        samples_file: str | None = None, lookup=None, *, project: str) -> dict:
+    """Assess, store (in ``project``) and return the assessment row.
 
     ``samples_file`` is the stored history the channels came from; inline
     channels are stored with the assessment, in the database. Cycle tables are not
@@ -165,7 +165,7 @@ def run(con, data_dir, request: dict, channels: dict[str, np.ndarray],
         if pool:
             pool.shutdown(cancel_futures=True)
     aid = sqlite.new_id("a")
-    row = {"id": aid, "history_id": history_id, "created_at": sqlite.now(), "state": "done",
+    row = {"id": aid, "project": project, "history_id": history_id, "created_at": sqlite.now(), "state": "done",
            "request": json_safe({k: v for k, v in request.items() if k != "samples"}),
            "result": {"points": results, "duration_s": json_safe(duration_s),
                       "units": {"stress": "MPa", "damage": "-", "life_hours": "h",

@@ -32,7 +32,11 @@ def create_app(test_config: dict | None = None) -> Flask:
     ``JOB_WORKERS``: threads running jobs (default 1);
     ``MAX_CHANNELS``, ``MAX_SAMPLES_PER_CHANNEL``: per request (413 above);
     ``MAX_QUEUED_JOBS``: jobs queued or running before new ones get 429;
-    ``WARM_KERNELS``: compile or load the numba kernels at start (default on).
+    ``WARM_KERNELS``: compile or load the numba kernels at start (default on);
+    ``OPEN_ACCESS``: answer loopback clients without a key while no key
+    exists (default on; see ``access.py``);
+    ``RATE_PER_S``, ``RATE_BURST``: requests a second per key and the burst
+    allowed above it (429 with Retry-After beyond; 0 = no limit).
     """
     app = Flask(__name__)
     app.config.update(
@@ -44,6 +48,9 @@ def create_app(test_config: dict | None = None) -> Flask:
         MAX_SAMPLES_PER_CHANNEL=200_000_000,
         MAX_QUEUED_JOBS=16,
         WARM_KERNELS=True,
+        OPEN_ACCESS=True,
+        RATE_PER_S=50,
+        RATE_BURST=100,
         JSON_SORT_KEYS=False,
     )
     if test_config:
@@ -80,10 +87,11 @@ def create_app(test_config: dict | None = None) -> Flask:
             con.execute("ROLLBACK")  # never leave a transaction open for the next request
 
     problems.register(app)
-    from . import (assessments, catalogue, histories, ledger, library, meta, metrics,
+    from . import (access, assessments, catalogue, histories, ledger, library, meta, metrics,
                    reports)
 
     metrics.install(app)
+    access.install(app)
     for bp in (meta.bp, histories.bp, assessments.bp, catalogue.bp, library.bp, ledger.bp,
                metrics.bp, reports.bp):
         app.register_blueprint(bp)

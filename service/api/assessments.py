@@ -12,6 +12,7 @@ from service import runs
 from service.store import parquet, sqlite
 
 from . import created, data_dir, db, json_object, uploads
+from .access import project
 from .histories import load as load_history, page_args
 from .problems import ApiProblem, NotAcceptable, NotFound, TooManyJobs
 
@@ -43,7 +44,7 @@ def resource(row: dict) -> dict:
 
 
 def load(assessment_id: str) -> dict:
-    row = sqlite.get_assessment(db(), assessment_id)
+    row = sqlite.get_assessment(db(), project(), assessment_id)
     if row is None:
         raise NotFound(f"no assessment {assessment_id!r}", field="assessment_id")
     return row
@@ -79,13 +80,13 @@ def create():
     # Every check that needs no counting runs now: bad input is a 4xx here,
     # never a failed job later.
     runs.counting_options(body)
-    planned = runs.plan(body, dict.fromkeys(names), runs.store_lookup(db()))
+    planned = runs.plan(body, dict.fromkeys(names), runs.store_lookup(db(), project()))
     if samples * len(planned) > current_app.config["ASYNC_SAMPLES"] or _prefers_async():
         return _queue(body, channels, duration, hid, len(planned),
                       hist["file"] if hid else None)
     row = runs.run(db(), data_dir(), body, channels(), duration, hid,
                    samples_file=hist["file"] if hid else None,
-                   lookup=runs.store_lookup(db()))
+                   lookup=runs.store_lookup(db(), project()), project=project())
     return created(resource(row), 201)
 
 
@@ -104,10 +105,10 @@ def _queue(body, channels, duration, hid, n_points, samples_file):
         if waiting >= limit:
             raise TooManyJobs(f"{waiting} jobs are queued or running (limit {limit}); "
                               f"retry later", retry_after_s=5, limit=limit)
-        sqlite.insert_job(con, job_id, "assessment", n_points)
+        sqlite.insert_job(con, project(), job_id, "assessment", n_points)
     current_app.extensions["cycleledger.jobs"].submit_assessment(
-        job_id, body, channels, duration, hid, samples_file)
-    return created(job_resource(sqlite.get_job(con, job_id)), 202)
+        job_id, body, channels, duration, hid, samples_file, project=project())
+    return created(job_resource(sqlite.get_job(con, project(), job_id)), 202)
 
 
 def job_resource(job: dict) -> dict:
@@ -127,7 +128,7 @@ def job_resource(job: dict) -> dict:
 
 @bp.get("/v1/jobs/<job_id>")
 def get_job(job_id: str):
-    job = sqlite.get_job(db(), job_id)
+    job = sqlite.get_job(db(), project(), job_id)
     if job is None:
         raise NotFound(f"no job {job_id!r}", field="job_id")
     return jsonify(job_resource(job))
@@ -136,7 +137,7 @@ def get_job(job_id: str):
 @bp.get("/v1/assessments")
 def list_all():
     limit, offset = page_args()
-    rows = sqlite.list_assessments(db(), limit, offset)
+    rows = sqlite.list_assessments(db(), project(), limit, offset)
     items = [{**r, "links": {"self": url_for("assessments.get_one", assessment_id=r["id"])}}
              for r in rows]
     return jsonify(items=items, limit=limit, offset=offset)

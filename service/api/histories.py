@@ -9,6 +9,7 @@ from flask import Blueprint, jsonify, request, url_for
 from service.store import parquet, sqlite
 
 from . import created, data_dir, db, uploads
+from .access import project
 from .problems import NotFound
 
 bp = Blueprint("histories", __name__)
@@ -23,7 +24,7 @@ def resource(row: dict) -> dict:
 
 
 def load(history_id: str) -> dict:
-    row = sqlite.get_history(db(), history_id)
+    row = sqlite.get_history(db(), project(), history_id)
     if row is None:
         raise NotFound(f"no history {history_id!r}", field="history_id")
     return row
@@ -47,7 +48,7 @@ def upload():
     channels = [{"name": name, "unit": up.source_units[name], "stored_unit": "MPa",
                  "min_mpa": up.ranges[name][0], "max_mpa": up.ranges[name][1]}
                 for name in up.channels]
-    row = {"id": hid, "name": up.name, "created_at": sqlite.now(),
+    row = {"id": hid, "project": project(), "name": up.name, "created_at": sqlite.now(),
            "sample_count": up.sample_count, "sample_rate_hz": up.sample_rate_hz,
            "duration_s": up.duration_s, "channels": channels, "file": rel}
     con = db()
@@ -63,7 +64,7 @@ def upload():
 @bp.get("/v1/histories")
 def list_all():
     limit, offset = page_args()
-    rows = sqlite.list_histories(db(), limit, offset)
+    rows = sqlite.list_histories(db(), project(), limit, offset)
     return jsonify(items=[resource(r) for r in rows], limit=limit, offset=offset)
 
 
@@ -77,7 +78,7 @@ def delete(history_id: str):
     row = load(history_id)
     con = db()
     with sqlite.write(con):
-        sqlite.delete_history(con, history_id)
+        sqlite.delete_history(con, project(), history_id)
         keep = sqlite.file_in_use(con, row["file"])
     if not keep:
         # Assessments made from it keep its samples (their cycle tables are

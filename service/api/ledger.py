@@ -15,6 +15,7 @@ from service.store import ledger as sql
 from service.store import sqlite
 
 from . import created, data_dir, db, json_object, uploads
+from .access import project
 from .assessments import _csv, _format
 from .histories import page_args, spool_body
 from .library import NameTaken, _NAME
@@ -40,15 +41,15 @@ def _name(value, field: str) -> str:
 
 
 def _asset(asset: str) -> dict:
-    row = sql.get_asset(db(), asset)
+    """The asset of this name in the request's project, or 404."""
+    row = sql.get_asset(db(), project(), asset)
     if row is None:
         raise NotFound(f"no asset {asset!r}", field="asset")
     return row
 
 
 def _point(asset: str, point: str) -> dict:
-    _asset(asset)
-    row = sql.get_point(db(), asset, point)
+    row = sql.get_point(db(), _asset(asset)["id"], point)
     if row is None:
         raise NotFound(f"asset {asset!r} has no point {point!r}", field="point")
     return row
@@ -67,8 +68,9 @@ def _point_resource(row: dict) -> dict:
 
 
 def _asset_resource(row: dict) -> dict:
-    points = [ledger.status(p) for p in sql.list_points(db(), row["name"])]
-    return {**row, "points": points,
+    points = [ledger.status(p) for p in sql.list_points(db(), project(), row["id"])]
+    return {"name": row["name"], "created_at": row["created_at"],
+            "description": row["description"], "points": points,
             "links": {"self": url_for("ledger.get_asset", asset=row["name"]),
                       "blocks": url_for("ledger.list_blocks", asset=row["name"])}}
 
@@ -85,14 +87,14 @@ def create_asset():
         raise ApiProblem("description must be text", field="description")
     con = db()
     with sqlite.write(con):
-        if not sql.insert_asset(con, name, desc):
+        if not sql.insert_asset(con, project(), name, desc):
             raise NameTaken(f"an asset named {name!r} exists", field="name")
-    return created(_asset_resource(sql.get_asset(con, name)))
+    return created(_asset_resource(sql.get_asset(con, project(), name)))
 
 
 @bp.get("/v1/assets")
 def list_assets():
-    return jsonify(items=[_asset_resource(a) for a in sql.list_assets(db())])
+    return jsonify(items=[_asset_resource(a) for a in sql.list_assets(db(), project())])
 
 
 @bp.get("/v1/assets/<asset>")
@@ -103,7 +105,7 @@ def get_asset(asset: str):
 @bp.post("/v1/assets/<asset>/points")
 def create_point(asset: str):
     """Register a point with its unit and assessment settings (version 1)."""
-    _asset(asset)
+    asset_id = _asset(asset)["id"]
     body = json_object()
     name = _name(body.get("name"), "name")
     unit = body.get("unit")
@@ -119,12 +121,12 @@ def create_point(asset: str):
         raise InvalidParameter("youngs_modulus applies to strain units only",
                                field="youngs_modulus")
     settings, resolved = ledger.check_settings(body.get("settings", {}),
-                                               runs.store_lookup(db()))
+                                               runs.store_lookup(db(), project()))
     con = db()
     with sqlite.write(con):
-        if not sql.insert_point(con, asset, name, unit, e, settings, resolved):
+        if not sql.insert_point(con, asset_id, name, unit, e, settings, resolved):
             raise NameTaken(f"asset {asset!r} has a point named {name!r}", field="name")
-    return created(_point_resource(sql.get_point(con, asset, name)))
+    return created(_point_resource(sql.get_point(con, asset_id, name)))
 
 
 @bp.get("/v1/assets/<asset>/points/<point>")
@@ -135,19 +137,20 @@ def get_point(asset: str, point: str):
 @bp.put("/v1/assets/<asset>/points/<point>/settings")
 def put_settings(asset: str, point: str):
     """New settings version; the point's totals are recounted under it."""
-    _point(asset, point)
+    asset_id = _point(asset, point)["asset_id"]
     body = json_object()
-    settings, resolved = ledger.check_settings(body.get("settings"), runs.store_lookup(db()))
-    ledger.new_settings(db(), data_dir(), asset, point, settings, resolved)
-    return jsonify(_point_resource(sql.get_point(db(), asset, point)))
+    settings, resolved = ledger.check_settings(body.get("settings"),
+                                               runs.store_lookup(db(), project()))
+    ledger.new_settings(db(), data_dir(), asset_id, point, settings, resolved)
+    return jsonify(_point_resource(sql.get_point(db(), asset_id, point)))
 
 
 @bp.get("/v1/assets/<asset>/points/<point>/history")
 def point_history(asset: str, point: str):
     """Every change of the point's totals, oldest first (JSON or CSV)."""
     fmt = _format(("json", "csv"))
-    _point(asset, point)
-    rows = [runs.json_safe(r) for r in sql.point_history(db(), asset, point)]
+    asset_id = _point(asset, point)["asset_id"]
+    rows = [runs.json_safe(r) for r in sql.point_history(db(), asset_id, point)]
     cols = ("at", "reason", "block_id", "settings_version", "damage", "residue_damage",
             "hours", "cycles")
     if fmt == "csv":
@@ -165,18 +168,18 @@ def _flag(name: str) -> bool:
     return v in ("true", "1")
 
 
-def _block_resource(block: dict) -> dict:
-    return {k: block[k] for k in ("id", "asset", "seq", "created_at", "recorded_at",
-                                  "sample_rate_hz", "sample_count", "points")} | {
+def _block_resource(block: dict, asset: str) -> dict:
+    return {"id": block["id"], "asset": asset} | {
+        k: block[k] for k in ("seq", "created_at", "recorded_at", "sample_rate_hz",
+                              "sample_count", "points")} | {
         "voided": bool(block.get("voided_at")), "voided_at": block.get("voided_at"),
-        "links": {"self": url_for("ledger.get_block", asset=block["asset"],
-                                  block_id=block["id"])}}
+        "links": {"self": url_for("ledger.get_block", asset=asset, block_id=block["id"])}}
 
 
 @bp.post("/v1/assets/<asset>/blocks")
 def post_block(asset: str):
     """Count a block of samples for some of the asset's points (``seq`` per point)."""
-    _asset(asset)
+    asset_id = _asset(asset)["id"]
     try:
         seq = int(request.args["seq"])
     except (KeyError, ValueError):
@@ -192,7 +195,7 @@ def post_block(asset: str):
     uploads.check_media_type(request.content_type)
     con = db()
     registered = {p["point"]: (p["unit"], p["youngs_modulus"])
-                  for p in sql.list_points(con, asset)}
+                  for p in sql.list_points(con, project(), asset_id)}
     # The content hash (a retry carries the same bytes) is taken while the
     # body is spooled, so it costs no second pass over the file.
     digest = hashlib.sha256()  # hardware-accelerated here: faster than blake2b
@@ -207,11 +210,11 @@ def post_block(asset: str):
         t2 = time.perf_counter()
 
         def respond(block, statuses):
-            return {"block": _block_resource(block), "points": statuses}
+            return {"block": _block_resource(block, asset), "points": statuses}
 
         try:
             answer, _replayed = ledger.post_block(
-                con, data_dir(), asset, seq, up, spooled, recorded_at=recorded_at,
+                con, data_dir(), asset_id, seq, up, spooled, recorded_at=recorded_at,
                 idempotency_key=key, content_hash=digest.hexdigest(), allow_gap=allow_gap,
                 allow_late=allow_late, respond=respond)
         except ledger.LedgerConflict as exc:
@@ -231,35 +234,35 @@ def post_block(asset: str):
 
 @bp.get("/v1/assets/<asset>/blocks")
 def list_blocks(asset: str):
-    _asset(asset)
+    asset_id = _asset(asset)["id"]
     limit, offset = page_args()
-    return jsonify(items=[_block_resource(b) for b in sql.list_blocks(db(), asset, limit,
-                                                                     offset)],
+    return jsonify(items=[_block_resource(b, asset)
+                          for b in sql.list_blocks(db(), asset_id, limit, offset)],
                    limit=limit, offset=offset)
 
 
 def _block(asset: str, block_id: str) -> dict:
-    _asset(asset)
-    b = sql.get_block(db(), block_id)
-    if b is None or b["asset"] != asset:
+    b = sql.get_block(db(), _asset(asset)["id"], block_id)
+    if b is None:
         raise NotFound(f"asset {asset!r} has no block {block_id!r}", field="block_id")
     return b
 
 
 @bp.get("/v1/assets/<asset>/blocks/<block_id>")
 def get_block(asset: str, block_id: str):
-    return jsonify(_block_resource(_block(asset, block_id)))
+    return jsonify(_block_resource(_block(asset, block_id), asset))
 
 
 @bp.post("/v1/assets/<asset>/blocks/<block_id>/void")
 def void_block(asset: str, block_id: str):
     """Take a block out of the totals; its points are recounted without it."""
-    _block(asset, block_id)
+    asset_id = _block(asset, block_id)["asset_id"]
     try:
-        statuses = ledger.void(db(), data_dir(), asset, block_id)
+        statuses = ledger.void(db(), data_dir(), asset_id, block_id)
     except ledger.LedgerConflict as exc:
         raise SequenceConflict(exc.detail, **exc.extra) from None
-    return jsonify(block=_block_resource(sql.get_block(db(), block_id)), points=statuses)
+    return jsonify(block=_block_resource(sql.get_block(db(), asset_id, block_id), asset),
+                   points=statuses)
 
 
 # ---------------------------------------------------------------- feeds
@@ -272,7 +275,12 @@ def feed():
     fmt = _format(("json", "csv"))
     asset = request.args.get("asset")
     since = request.args.get("since")
-    rows = [ledger.status(p) for p in sql.list_points(db(), asset)]
+    if asset is None:
+        points = sql.list_points(db(), project())
+    else:
+        row = sql.get_asset(db(), project(), asset)
+        points = sql.list_points(db(), project(), row["id"]) if row else []
+    rows = [ledger.status(p) for p in points]
     if since:
         rows = [r for r in rows if (r["updated_at"] or "") >= since]
     rows = [{c: r[c] for c in FEED_COLUMNS} for r in rows]

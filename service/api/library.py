@@ -18,6 +18,7 @@ from service.runs import json_safe
 from service.store import sqlite
 
 from . import created, db, json_object
+from .access import project
 from .problems import ApiProblem, NotFound
 
 bp = Blueprint("library", __name__)
@@ -59,15 +60,15 @@ def _resource(table: str, doc: dict) -> dict:
 def _create(table: str, doc: dict, name: str):
     con = db()
     with sqlite.write(con):
-        ok = sqlite.insert_named(con, table, name, doc)
+        ok = sqlite.insert_named(con, project(), table, name, doc)
     if not ok:
         raise NameTaken(f"a {_KINDS[table][0]} named {name!r} exists; delete it first",
                         field="name")
-    return created(_resource(table, sqlite.get_named(con, table, name)), 201)
+    return created(_resource(table, sqlite.get_named(con, project(), table, name)), 201)
 
 
 def _get(table: str, name: str) -> dict:
-    doc = sqlite.get_named(db(), table, name)
+    doc = sqlite.get_named(db(), project(), table, name)
     if doc is None:
         raise NotFound(f"no {_KINDS[table][0]} {name!r}", field="name")
     return doc
@@ -76,7 +77,7 @@ def _get(table: str, name: str) -> dict:
 def _delete(table: str, name: str):
     con = db()
     with sqlite.write(con):
-        gone = sqlite.delete_named(con, table, name)
+        gone = sqlite.delete_named(con, project(), table, name)
     if not gone:
         raise NotFound(f"no {_KINDS[table][0]} {name!r}", field="name")
     return "", 204
@@ -92,7 +93,7 @@ def create_curve():
 @bp.get("/v1/user-curves")
 def list_curves():
     return jsonify(items=[_resource("user_curves", d)
-                          for d in sqlite.list_named(db(), "user_curves")])
+                          for d in sqlite.list_named(db(), project(), "user_curves")])
 
 
 @bp.get("/v1/user-curves/<name>")
@@ -115,7 +116,7 @@ def create_material():
 @bp.get("/v1/materials")
 def list_materials():
     return jsonify(items=[_resource("materials", d)
-                          for d in sqlite.list_named(db(), "materials")])
+                          for d in sqlite.list_named(db(), project(), "materials")])
 
 
 @bp.get("/v1/materials/<name>")

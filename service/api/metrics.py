@@ -1,4 +1,5 @@
-"""Prometheus text exposition: per-point damage and the service's own counters."""
+"""Prometheus text exposition: per-point damage of the key's project, its jobs,
+and the service's own request counters (route templates only, no names)."""
 
 from __future__ import annotations
 
@@ -11,6 +12,7 @@ from flask import Blueprint, Flask, Response, g, request
 from service.store import ledger as sql
 
 from . import db
+from .access import project
 
 bp = Blueprint("metrics", __name__)
 _CONTENT_TYPE = "text/plain; version=0.0.4; charset=utf-8"
@@ -72,7 +74,7 @@ def metrics():
             lab = ",".join(f'{k}="{_label(v)}"' for k, v in labels.items())
             lines.append(f"{name}{{{lab}}} {_num(value)}" if lab else f"{name} {_num(value)}")
 
-    points = sql.list_points(db())
+    points = sql.list_points(db(), project())
     family("cycleledger_point_damage", "gauge",
            "Miner damage of the closed cycles of a ledger point (inf: static overload).",
            [({"asset": p["asset"], "point": p["point"]}, p["damage"]) for p in points])
@@ -92,7 +94,8 @@ def metrics():
     family("cycleledger_http_request_seconds_total", "counter",
            "Seconds spent answering HTTP requests.",
            [({"method": m, "route": r, "status": s}, seconds[(m, r, s)]) for m, r, s in keys])
-    jobs = dict(db().execute("SELECT state, count(*) FROM jobs GROUP BY state").fetchall())
+    jobs = dict(db().execute("SELECT state, count(*) FROM jobs WHERE project = ? GROUP BY state",
+                             (project(),)).fetchall())
     family("cycleledger_jobs", "gauge", "Jobs by state.",
            [({"state": st}, jobs.get(st, 0)) for st in ("queued", "running", "done", "failed")])
     return Response("\n".join(lines) + "\n", content_type=_CONTENT_TYPE)

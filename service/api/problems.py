@@ -63,6 +63,20 @@ class TooManyJobs(ApiProblem):
         self.retry_after_s = retry_after_s
 
 
+class TooManyRequests(TooManyJobs):
+    status, slug, title = 429, "too-many-requests", "Request rate exceeded"
+
+
+class Unauthorized(ApiProblem):
+    """No key, or not a valid one (answered with ``WWW-Authenticate``)."""
+
+    status, slug, title = 401, "unauthorized", "API key missing or not valid"
+
+
+class Forbidden(ApiProblem):
+    status, slug, title = 403, "forbidden", "Key lacks the scope"
+
+
 class NotAcceptable(ApiProblem):
     status, slug, title = 406, "not-acceptable", "No acceptable representation"
 
@@ -116,6 +130,8 @@ def register(app: Flask) -> None:
         resp = problem(exc.status, exc.slug, exc.title, exc.detail, **exc.extra)
         if getattr(exc, "retry_after_s", None):
             resp.headers["Retry-After"] = str(exc.retry_after_s)
+        if isinstance(exc, Unauthorized):
+            resp.headers["WWW-Authenticate"] = 'Bearer realm="cycleledger"'
         return resp
 
     @app.errorhandler(HTTPException)

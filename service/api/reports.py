@@ -70,5 +70,5 @@ def asset_report(asset: str):
 def ledger_point_plot(asset: str, point: str):
     """Cumulative damage over recorded hours with the projection, SVG or PNG."""
     fmt = _image_format()
-    _point(asset, point)
-    return Response(build.ledger_plot(db(), asset, point, fmt), mimetype=_IMAGE[fmt])
+    asset_id = _point(asset, point)["asset_id"]
+    return Response(build.ledger_plot(db(), asset_id, point, fmt), mimetype=_IMAGE[fmt])

@@ -63,18 +63,18 @@ def assessment_page(con, data_dir, row: dict, resource: dict) -> str:
     return pages.assessment_page(resource, svgs)
 
 
-def ledger_plot(con, asset: str, point: str, fmt: str = "svg") -> bytes:
-    row = ledger_sql.get_point(con, asset, point)
+def ledger_plot(con, asset_id: str, point: str, fmt: str = "svg") -> bytes:
+    row = ledger_sql.get_point(con, asset_id, point)
     status = ledger.status(row)
-    fig = plots.ledger_point(ledger_sql.point_history(con, asset, point),
+    fig = plots.ledger_point(ledger_sql.point_history(con, asset_id, point),
                              status["allowable_damage"], status["damage_rate_per_hour"])
     return plots.render(fig, fmt)
 
 
 def asset_page(con, asset_row: dict) -> str:
-    rows = ledger_sql.list_points(con, asset_row["name"])
+    rows = ledger_sql.list_points(con, asset_row["project"], asset_row["id"])
     statuses = [ledger.status(r) for r in rows]
-    svgs = {f"ledger-{r['point']}": ledger_plot(con, asset_row["name"], r["point"])
+    svgs = {f"ledger-{r['point']}": ledger_plot(con, asset_row["id"], r["point"])
             for r in rows}
     return pages.asset_page(asset_row, statuses, svgs)
 

@@ -1,9 +1,25 @@
 -- Metadata of the embedded store. Long arrays live in Parquet files beside
 -- the database; a row here names its file. Times are UTC ISO 8601 strings.
-PRAGMA user_version = 5;
+PRAGMA user_version = 6;
+
+-- Every stored thing belongs to a project (a namespace); an API key sees
+-- its own project's rows only. Without keys the service runs as project
+-- "default" (loopback only).
+
+CREATE TABLE IF NOT EXISTS api_keys (
+    id              TEXT PRIMARY KEY,    -- k_..., the public half of a key
+    project         TEXT NOT NULL,
+    name            TEXT,
+    scopes          TEXT NOT NULL,       -- space separated: read write admin
+    secret_hash     TEXT NOT NULL UNIQUE,-- sha256 hex of the whole secret
+    created_at      TEXT NOT NULL,
+    revoked_at      TEXT,
+    rate_per_s      REAL                 -- requests a second; null = the service default
+);
 
 CREATE TABLE IF NOT EXISTS histories (
     id              TEXT PRIMARY KEY,
+    project         TEXT NOT NULL,
     name            TEXT,
     created_at      TEXT NOT NULL,
     sample_count    INTEGER NOT NULL,
@@ -13,8 +29,11 @@ CREATE TABLE IF NOT EXISTS histories (
     file            TEXT NOT NULL    -- Parquet file, relative to the data directory
 );
 
+CREATE INDEX IF NOT EXISTS histories_project ON histories(project, created_at);
+
 CREATE TABLE IF NOT EXISTS assessments (
     id              TEXT PRIMARY KEY,
+    project         TEXT NOT NULL,
     history_id      TEXT REFERENCES histories(id) ON DELETE SET NULL,
     created_at      TEXT NOT NULL,
     state           TEXT NOT NULL,   -- done | failed
@@ -26,9 +45,11 @@ CREATE TABLE IF NOT EXISTS assessments (
 );
 
 CREATE INDEX IF NOT EXISTS assessments_history ON assessments(history_id);
+CREATE INDEX IF NOT EXISTS assessments_project ON assessments(project, created_at);
 
 CREATE TABLE IF NOT EXISTS jobs (
     id              TEXT PRIMARY KEY,
+    project         TEXT NOT NULL,
     kind            TEXT NOT NULL,   -- assessment
     state           TEXT NOT NULL,   -- queued | running | done | failed
     created_at      TEXT NOT NULL,
@@ -42,15 +63,19 @@ CREATE TABLE IF NOT EXISTS jobs (
 -- What users enter themselves: S-N curves (from points or Basquin constants)
 -- and materials (strengths from a tensile test or a data sheet), by name.
 CREATE TABLE IF NOT EXISTS user_curves (
-    name            TEXT PRIMARY KEY,
+    project         TEXT NOT NULL,
+    name            TEXT NOT NULL,
     created_at      TEXT NOT NULL,
-    definition      TEXT NOT NULL    -- JSON: {curve_points | basquin, below_limit?, source?}
+    definition      TEXT NOT NULL,   -- JSON: {curve_points | basquin, below_limit?, source?}
+    PRIMARY KEY (project, name)
 );
 
 CREATE TABLE IF NOT EXISTS materials (
-    name            TEXT PRIMARY KEY,
+    project         TEXT NOT NULL,
+    name            TEXT NOT NULL,
     created_at      TEXT NOT NULL,
-    properties      TEXT NOT NULL    -- JSON: strengths in MPa, walker_exponent, source
+    properties      TEXT NOT NULL,   -- JSON: strengths in MPa, walker_exponent, source
+    PRIMARY KEY (project, name)
 );
 
 -- Inline samples of an assessment (small by nature: they came in a JSON
@@ -63,14 +88,18 @@ CREATE TABLE IF NOT EXISTS assessment_samples (
 );
 
 -- The ledger: running damage per asset and point over successive blocks.
+-- An asset's name is unique in its project; the tables below hold its id.
 CREATE TABLE IF NOT EXISTS assets (
-    name            TEXT PRIMARY KEY,
+    id              TEXT PRIMARY KEY,
+    project         TEXT NOT NULL,
+    name            TEXT NOT NULL,
     created_at      TEXT NOT NULL,
-    description     TEXT
+    description     TEXT,
+    UNIQUE (project, name)
 );
 
 CREATE TABLE IF NOT EXISTS ledger_points (
-    asset           TEXT NOT NULL REFERENCES assets(name) ON DELETE CASCADE,
+    asset_id        TEXT NOT NULL REFERENCES assets(id) ON DELETE CASCADE,
     point           TEXT NOT NULL,
     created_at      TEXT NOT NULL,
     unit            TEXT NOT NULL,
@@ -86,22 +115,22 @@ CREATE TABLE IF NOT EXISTS ledger_points (
     overload        INTEGER NOT NULL DEFAULT 0,
     last_block_at   TEXT,            -- recording time of the latest block counted
     updated_at      TEXT NOT NULL,
-    PRIMARY KEY (asset, point)
+    PRIMARY KEY (asset_id, point)
 );
 
 CREATE TABLE IF NOT EXISTS point_settings (
-    asset           TEXT NOT NULL,
+    asset_id        TEXT NOT NULL,
     point           TEXT NOT NULL,
     version         INTEGER NOT NULL,
     created_at      TEXT NOT NULL,
     settings        TEXT NOT NULL,   -- JSON, as given
     resolved        TEXT NOT NULL,   -- JSON, materials and user curves resolved
-    PRIMARY KEY (asset, point, version)
+    PRIMARY KEY (asset_id, point, version)
 );
 
 CREATE TABLE IF NOT EXISTS blocks (
     id              TEXT PRIMARY KEY,
-    asset           TEXT NOT NULL REFERENCES assets(name) ON DELETE CASCADE,
+    asset_id        TEXT NOT NULL REFERENCES assets(id) ON DELETE CASCADE,
     seq             INTEGER NOT NULL,
     created_at      TEXT NOT NULL,
     recorded_at     TEXT,
@@ -114,20 +143,20 @@ CREATE TABLE IF NOT EXISTS blocks (
     voided_at       TEXT,
     response        TEXT             -- JSON: the first answer, replayed on a retry
 );
-CREATE UNIQUE INDEX IF NOT EXISTS blocks_key ON blocks(asset, idempotency_key)
+CREATE UNIQUE INDEX IF NOT EXISTS blocks_key ON blocks(asset_id, idempotency_key)
     WHERE idempotency_key IS NOT NULL;
 
 CREATE TABLE IF NOT EXISTS block_points (
-    asset           TEXT NOT NULL,
+    asset_id        TEXT NOT NULL,
     point           TEXT NOT NULL,
     seq             INTEGER NOT NULL,
     block_id        TEXT NOT NULL REFERENCES blocks(id) ON DELETE CASCADE,
-    PRIMARY KEY (asset, point, seq)
+    PRIMARY KEY (asset_id, point, seq)
 );
 
 -- Every change of a point's totals: a block, a voided block, new settings.
 CREATE TABLE IF NOT EXISTS point_totals (
-    asset           TEXT NOT NULL,
+    asset_id        TEXT NOT NULL,
     point           TEXT NOT NULL,
     at              TEXT NOT NULL,
     reason          TEXT NOT NULL,   -- block | void | settings | late_block
@@ -138,4 +167,4 @@ CREATE TABLE IF NOT EXISTS point_totals (
     hours           REAL NOT NULL,
     cycles          REAL NOT NULL
 );
-CREATE INDEX IF NOT EXISTS point_totals_point ON point_totals(asset, point, at);
+CREATE INDEX IF NOT EXISTS point_totals_point ON point_totals(asset_id, point, at);

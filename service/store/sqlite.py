@@ -45,7 +45,7 @@ def connect(data_dir: str | Path) -> sqlite3.Connection:
 
 
 #: Version of schema.sql (its PRAGMA user_version).
-SCHEMA_VERSION = 5
+SCHEMA_VERSION = 6
 
 
 class IncompatibleStore(RuntimeError):
@@ -86,9 +86,9 @@ def write(con: sqlite3.Connection):
 
 def insert_history(con, row: dict) -> None:
     con.execute(
-        "INSERT INTO histories (id, name, created_at, sample_count, sample_rate_hz, "
-        "duration_s, channels, file) VALUES (?, ?, ?, ?, ?, ?, ?, ?)",
-        (row["id"], row.get("name"), row["created_at"], row["sample_count"],
+        "INSERT INTO histories (id, project, name, created_at, sample_count, sample_rate_hz, "
+        "duration_s, channels, file) VALUES (?, ?, ?, ?, ?, ?, ?, ?, ?)",
+        (row["id"], row["project"], row.get("name"), row["created_at"], row["sample_count"],
          row.get("sample_rate_hz"), row.get("duration_s"), json.dumps(row["channels"]),
          row["file"]))
 
@@ -101,19 +101,21 @@ def _history(r: sqlite3.Row | None) -> dict | None:
     return out
 
 
-def get_history(con, history_id: str) -> dict | None:
-    return _history(con.execute("SELECT * FROM histories WHERE id = ?",
-                                (history_id,)).fetchone())
+def get_history(con, project: str, history_id: str) -> dict | None:
+    return _history(con.execute("SELECT * FROM histories WHERE id = ? AND project = ?",
+                                (history_id, project)).fetchone())
 
 
-def list_histories(con, limit: int = 100, offset: int = 0) -> list[dict]:
-    rows = con.execute("SELECT * FROM histories ORDER BY created_at DESC, id LIMIT ? OFFSET ?",
-                       (limit, offset)).fetchall()
+def list_histories(con, project: str, limit: int = 100, offset: int = 0) -> list[dict]:
+    rows = con.execute("SELECT * FROM histories WHERE project = ? "
+                       "ORDER BY created_at DESC, id LIMIT ? OFFSET ?",
+                       (project, limit, offset)).fetchall()
     return [_history(r) for r in rows]
 
 
-def delete_history(con, history_id: str) -> bool:
-    return con.execute("DELETE FROM histories WHERE id = ?", (history_id,)).rowcount > 0
+def delete_history(con, project: str, history_id: str) -> bool:
+    return con.execute("DELETE FROM histories WHERE id = ? AND project = ?",
+                       (history_id, project)).rowcount > 0
 
 
 def file_in_use(con, rel: str) -> bool:
@@ -127,9 +129,9 @@ def file_in_use(con, rel: str) -> bool:
 
 def insert_assessment(con, row: dict) -> None:
     con.execute(
-        "INSERT INTO assessments (id, history_id, created_at, state, request, result, "
-        "samples_file) VALUES (?, ?, ?, ?, ?, ?, ?)",
-        (row["id"], row.get("history_id"), row["created_at"], row["state"],
+        "INSERT INTO assessments (id, project, history_id, created_at, state, request, "
+        "result, samples_file) VALUES (?, ?, ?, ?, ?, ?, ?, ?)",
+        (row["id"], row["project"], row.get("history_id"), row["created_at"], row["state"],
          json.dumps(row["request"]), json.dumps(row.get("result")), row.get("samples_file")))
 
 
@@ -141,7 +143,8 @@ def insert_samples(con, assessment_id: str, channels: dict) -> None:
 
 
 def get_samples(con, assessment_id: str, point: str):
-    """One point's inline samples as a float64 array, or None."""
+    """One point's inline samples as a float64 array, or None (the caller
+    has checked the assessment belongs to its project)."""
     import numpy as np
 
     r = con.execute("SELECT samples FROM assessment_samples WHERE assessment_id = ? AND "
@@ -149,8 +152,9 @@ def get_samples(con, assessment_id: str, point: str):
     return None if r is None else np.frombuffer(r[0], dtype=np.float64)
 
 
-def get_assessment(con, assessment_id: str) -> dict | None:
-    r = con.execute("SELECT * FROM assessments WHERE id = ?", (assessment_id,)).fetchone()
+def get_assessment(con, project: str, assessment_id: str) -> dict | None:
+    r = con.execute("SELECT * FROM assessments WHERE id = ? AND project = ?",
+                    (assessment_id, project)).fetchone()
     if r is None:
         return None
     out = dict(r)
@@ -159,10 +163,10 @@ def get_assessment(con, assessment_id: str) -> dict | None:
     return out
 
 
-def list_assessments(con, limit: int = 100, offset: int = 0) -> list[dict]:
+def list_assessments(con, project: str, limit: int = 100, offset: int = 0) -> list[dict]:
     rows = con.execute("SELECT id, history_id, created_at, state FROM assessments "
-                       "ORDER BY created_at DESC, id LIMIT ? OFFSET ?",
-                       (limit, offset)).fetchall()
+                       "WHERE project = ? ORDER BY created_at DESC, id LIMIT ? OFFSET ?",
+                       (project, limit, offset)).fetchall()
     return [dict(r) for r in rows]
 
 
@@ -171,10 +175,11 @@ def list_assessments(con, limit: int = 100, offset: int = 0) -> list[dict]:
 JOB_STATES = ("queued", "running", "done", "failed")
 
 
-def insert_job(con, job_id: str, kind: str, points_total: int) -> None:
+def insert_job(con, project: str, job_id: str, kind: str, points_total: int) -> None:
     t = now()
-    con.execute("INSERT INTO jobs (id, kind, state, created_at, updated_at, points_total) "
-                "VALUES (?, ?, 'queued', ?, ?, ?)", (job_id, kind, t, t, points_total))
+    con.execute("INSERT INTO jobs (id, project, kind, state, created_at, updated_at, "
+                "points_total) VALUES (?, ?, ?, 'queued', ?, ?, ?)",
+                (job_id, project, kind, t, t, points_total))
 
 
 def update_job(con, job_id: str, **fields) -> None:
@@ -196,8 +201,9 @@ def count_jobs(con, states) -> int:
                        tuple(states)).fetchone()[0]
 
 
-def get_job(con, job_id: str) -> dict | None:
-    r = con.execute("SELECT * FROM jobs WHERE id = ?", (job_id,)).fetchone()
+def get_job(con, project: str, job_id: str) -> dict | None:
+    r = con.execute("SELECT * FROM jobs WHERE id = ? AND project = ?",
+                    (job_id, project)).fetchone()
     if r is None:
         return None
     out = dict(r)
@@ -219,32 +225,34 @@ def fail_interrupted_jobs(con) -> int:
 _NAMED = {"user_curves": "definition", "materials": "properties"}
 
 
-def insert_named(con, table: str, name: str, doc: dict) -> bool:
-    """Store ``doc`` under ``name``; False if the name is taken."""
+def insert_named(con, project: str, table: str, name: str, doc: dict) -> bool:
+    """Store ``doc`` under ``name`` in ``project``; False if the name is taken."""
     col = _NAMED[table]
     try:
-        con.execute(f"INSERT INTO {table} (name, created_at, {col}) VALUES (?, ?, ?)",
-                    (name, now(), json.dumps(doc)))
+        con.execute(f"INSERT INTO {table} (project, name, created_at, {col}) "
+                    f"VALUES (?, ?, ?, ?)", (project, name, now(), json.dumps(doc)))
     except sqlite3.IntegrityError:
         return False
     return True
 
 
-def get_named(con, table: str, name: str) -> dict | None:
+def get_named(con, project: str, table: str, name: str) -> dict | None:
     col = _NAMED[table]
-    r = con.execute(f"SELECT name, created_at, {col} FROM {table} WHERE name = ?",
-                    (name,)).fetchone()
+    r = con.execute(f"SELECT name, created_at, {col} FROM {table} WHERE project = ? AND "
+                    f"name = ?", (project, name)).fetchone()
     if r is None:
         return None
     return {"name": r["name"], "created_at": r["created_at"], **json.loads(r[col])}
 
 
-def list_named(con, table: str) -> list[dict]:
+def list_named(con, project: str, table: str) -> list[dict]:
     col = _NAMED[table]
-    rows = con.execute(f"SELECT name, created_at, {col} FROM {table} ORDER BY name").fetchall()
+    rows = con.execute(f"SELECT name, created_at, {col} FROM {table} WHERE project = ? "
+                       f"ORDER BY name", (project,)).fetchall()
     return [{"name": r["name"], "created_at": r["created_at"], **json.loads(r[col])}
             for r in rows]
 
 
-def delete_named(con, table: str, name: str) -> bool:
-    return con.execute(f"DELETE FROM {table} WHERE name = ?", (name,)).rowcount > 0
+def delete_named(con, project: str, table: str, name: str) -> bool:
+    return con.execute(f"DELETE FROM {table} WHERE project = ? AND name = ?",
+                       (project, name)).rowcount > 0

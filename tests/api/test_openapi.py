@@ -18,6 +18,7 @@ from service.engine import units
 from service.engine.mean_stress import COMPRESSIVE_MEAN_POLICIES, MEAN_STRESS_METHODS
 from service.engine.rainflow import RESIDUE_TREATMENTS
 from service.engine.sn_curve import BELOW_LIMIT_TREATMENTS
+from service.store import keys, sqlite
 from tests.api.conftest import SPEC_PATH
 
 DOC = yaml.safe_load(SPEC_PATH.read_text())
@@ -75,7 +76,23 @@ def _binary_body(ctx, value):
 
 _FUZZ_DIR = tempfile.mkdtemp(prefix="cycleledger-fuzz-")
 _FUZZ_APP = create_app({"DATA_DIR": _FUZZ_DIR, "ASYNC_SAMPLES": 10**9})
+# The fuzz runs as an admin key without a rate limit: the contract says
+# every non-public route needs a key, and schemathesis checks that too.
+_FUZZ_CON = sqlite.connect(_FUZZ_DIR)
+_FUZZ_KEY = keys.create(_FUZZ_CON, "fuzz", "admin", "contract fuzz", rate_per_s=0)[1]
+_FUZZ_CON.close()
 schema = schemathesis.openapi.from_wsgi("/openapi.yaml", _FUZZ_APP)
+
+
+@schema.auth(refresh_interval=None)
+class _FuzzKey:
+    # Given through schemathesis's auth hook (not as a plain header), so it
+    # knows the request is authenticated when it judges negative cases.
+    def get(self, case, ctx):
+        return _FUZZ_KEY
+
+    def set(self, case, data, ctx):
+        case.headers = {**(case.headers or {}), "Authorization": f"Bearer {data}"}
 
 
 @pytest.fixture(scope="module", autouse=True)
