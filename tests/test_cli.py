@@ -83,12 +83,49 @@ def test_non_numeric_cell_names_channel_and_row(tmp_path, capsys):
                                            ("::1", True), ("localhost", True),
                                            ("0.0.0.0", False), ("192.168.1.20", False),
                                            ("rig-server.local", False)])
-def test_serve_is_open_to_this_machine_only(host, allowed, capsys):
-    # Without access control the service must not listen beyond loopback
-    # (common practice for an unauthenticated service).
+def test_serve_without_keys_is_open_to_this_machine_only(host, allowed, tmp_path, capsys):
+    # Without API keys the service must not listen beyond loopback (common
+    # practice for an unauthenticated service).
     from service.cli import is_loopback
 
     assert is_loopback(host) == allowed
     if not allowed:
-        assert main(["serve", "--host", host, "--port", "1"]) == 2
+        assert main(["serve", "--host", host, "--port", "1", "--data-dir",
+                     str(tmp_path)]) == 2
         assert "refusing" in capsys.readouterr().err
+
+
+def test_serve_with_keys_may_listen_beyond_loopback(tmp_path, capsys, monkeypatch):
+    from gunicorn.app.base import BaseApplication
+
+    started = []
+    monkeypatch.setattr(BaseApplication, "run", lambda self: started.append(self.cfg.bind))
+    assert main(["keys", "--data-dir", str(tmp_path), "create", "--project", "rig",
+                 "--scope", "write"]) == 0
+    capsys.readouterr()
+    assert main(["serve", "--host", "0.0.0.0", "--port", "8351", "--data-dir",
+                 str(tmp_path)]) == 0
+    assert started == [["0.0.0.0:8351"]]
+
+
+def test_keys_create_list_revoke(tmp_path, capsys):
+    d = ["keys", "--data-dir", str(tmp_path)]
+    assert main(d + ["create", "--project", "rig-7", "--scope", "write", "--name", "rig 7 daq",
+                     "--json"]) == 0
+    made = json.loads(capsys.readouterr().out)
+    assert made["secret"].startswith(f"clk_{made['id']}_") and len(made["secret"]) > 40
+    assert made["scopes"] == ["read", "write"] and made["project"] == "rig-7"
+    assert main(d + ["create", "--project", "rig-7", "--scope", "read"]) == 0
+    shown = capsys.readouterr().out
+    assert "shown once" in shown
+    assert main(d + ["list", "--json"]) == 0
+    listed = json.loads(capsys.readouterr().out)
+    assert [k["scopes"] for k in listed] == [["read", "write"], ["read"]]
+    assert made["secret"] not in json.dumps(listed) and "secret_hash" not in listed[0]
+    assert main(d + ["revoke", made["id"]]) == 0
+    assert main(d + ["revoke", made["id"]]) == 2  # already revoked
+    assert main(d + ["list"]) == 0
+    table = capsys.readouterr().out
+    assert "revoked" in table and "active" in table and made["secret"] not in table
+    assert main(d + ["create", "--project", "../etc", "--scope", "read"]) == 2
+    assert "project name" in capsys.readouterr().err
