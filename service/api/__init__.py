@@ -59,9 +59,9 @@ def create_app(test_config: dict | None = None) -> Flask:
     app.json.sort_keys = False
     data_dir = Path(app.config["DATA_DIR"])
     sqlite.init(data_dir)
-    parquet.sweep(data_dir)
     con = sqlite.connect(data_dir)
     try:
+        parquet.sweep(data_dir, sqlite.referenced_files(con))
         sqlite.fail_interrupted_jobs(con)
     finally:
         con.close()
@@ -119,7 +119,10 @@ def json_object() -> dict:
 
     if request.mimetype != "application/json":
         raise UnsupportedMediaType("send JSON (application/json)", valid=["application/json"])
-    body = request.get_json(silent=True)
+    try:
+        body = request.get_json(silent=True)
+    except RecursionError:
+        raise MalformedBody("the JSON body is nested too deeply") from None
     if not isinstance(body, dict):
         raise MalformedBody("the body must be a JSON object")
     return body

@@ -13,8 +13,9 @@ key. The key's project is the namespace every view reads and writes in
 A key of a scope holds the ones before it (admin > write > read).
 
 Open mode: while no key is active the service answers without one, as
-project ``default`` with every scope, but only to clients on loopback (and
-``cycleledger serve`` refuses any other address then). The first key made
+project ``default`` with every scope, but only to clients on loopback whose
+request carries no proxy header (``Forwarded``, ``X-Forwarded-For``,
+``X-Real-IP``), and ``cycleledger serve`` refuses any other address then. The first key made
 ends open mode for the running service at its next request.
 """
 
@@ -100,6 +101,11 @@ class RateLimiter:
             return (1.0 - tokens) / rate
 
 
+#: Headers a proxy adds: a proxied request is not a local client, whatever
+#: its socket address says.
+_PROXY_HEADERS = ("Forwarded", "X-Forwarded-For", "X-Real-IP")
+
+
 def _is_loopback(addr: str | None) -> bool:
     try:
         return addr is not None and ipaddress.ip_address(addr).is_loopback
@@ -122,7 +128,9 @@ def install(app: Flask) -> None:
         con = db()
         header = request.headers.get("Authorization", "")
         if not header and not keys.any_active(con):
-            if current_app.config["OPEN_ACCESS"] and _is_loopback(request.remote_addr):
+            proxied = any(h in request.headers for h in _PROXY_HEADERS)
+            if (current_app.config["OPEN_ACCESS"] and _is_loopback(request.remote_addr)
+                    and not proxied):
                 g.project, g.scopes, g.key_id = OPEN_PROJECT, list(keys.SCOPES), None
                 return None
             raise Unauthorized("this service has no API keys yet and answers without one "

@@ -167,11 +167,24 @@ def _format(allowed: tuple[str, ...]) -> str:
     return {v: k for k, v in mimes.items()}[best]
 
 
+#: A text cell starting with one of these is a formula to a spreadsheet.
+_FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
+
+
+def csv_cell(value):
+    """A cell safe to open in a spreadsheet: text that would start a formula
+    (a channel named ``=HYPERLINK(...)``) gets a leading apostrophe; numbers
+    are left alone (OWASP, CSV injection)."""
+    if isinstance(value, str) and value.startswith(_FORMULA_START):
+        return "'" + value
+    return value
+
+
 def _csv(header, rows) -> Response:
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
-    w.writerow(header)
-    w.writerows(rows)
+    w.writerow([csv_cell(h) for h in header])
+    w.writerows([csv_cell(v) for v in row] for row in rows)
     return Response(buf.getvalue(), mimetype="text/csv")
 
 

@@ -95,6 +95,8 @@ def _json(body: bytes, params: dict):
         doc = json.loads(body)
     except (ValueError, UnicodeDecodeError) as exc:
         raise MalformedBody(f"the body is not valid JSON: {exc}") from None
+    except RecursionError:
+        raise MalformedBody("the JSON body is nested too deeply") from None
     if not isinstance(doc, dict) or not isinstance(doc.get("channels"), dict):
         raise InvalidUpload('a JSON upload is an object with "channels": {name: [samples]}',
                             field="channels")
@@ -114,11 +116,19 @@ def _csv(path) -> dict:
     import pyarrow as pa
     from pyarrow import csv as pacsv
 
+    with open(path, "rb") as f:
+        head = f.read(4096)
+    if head.startswith((b"\xff\xfe", b"\xfe\xff")) or b"\x00" in head:
+        raise MalformedBody("the CSV must be UTF-8 (or ASCII) text; this looks like UTF-16 or "
+                            "binary: save it as UTF-8 CSV")
     try:
         table = pacsv.read_csv(str(path))
-    except (pa.ArrowInvalid, UnicodeDecodeError) as exc:
+        return _table_columns(table)  # names are decoded here, lazily
+    except UnicodeDecodeError:
+        raise MalformedBody("the CSV must be UTF-8 (or ASCII) text: save it as UTF-8 CSV"
+                            ) from None
+    except pa.ArrowInvalid as exc:
         raise MalformedBody(f"the CSV could not be read: {exc}") from None
-    return _table_columns(table)
 
 
 def _arrow(path, mime: str) -> dict:
@@ -151,9 +161,21 @@ def _table_columns(table) -> dict:
                                          sample_index=first, channel=name)
             out[name] = col.to_numpy().astype(np.float64, copy=False)
         else:
-            # Text where numbers were expected: let the engine's check name
-            # the first bad sample.
-            out[name] = col.to_pylist()
+            out[name] = _text_column(name, col.to_pylist())
+    return out
+
+
+def _text_column(name: str, cells: list) -> np.ndarray:
+    """A column the reader left as text: numbers if every cell is one, else
+    the first cell that is not (a formula such as ``=1+2``, a word, a blank)."""
+    out = np.empty(len(cells), dtype=np.float64)
+    for i, cell in enumerate(cells):
+        try:
+            out[i] = float(cell)
+        except (TypeError, ValueError):
+            raise InvalidLoadHistory(f"channel {name!r} must be numbers; sample {i} is "
+                                     f"{str(cell)[:40]!r}", sample_index=i, channel=name,
+                                     field=name) from None
     return out
 
 

@@ -69,7 +69,7 @@ def list_keys(con, project: str | None = None) -> list[dict]:
     sql, args = "SELECT * FROM api_keys", ()
     if project is not None:
         sql, args = sql + " WHERE project = ?", (project,)
-    return [_row(r) for r in con.execute(sql + " ORDER BY project, created_at, id", args)]
+    return [_row(r) for r in con.execute(sql + " ORDER BY project, rowid", args)]
 
 
 def revoke(con, key_id: str) -> bool:

@@ -91,11 +91,17 @@ def remove(data_dir: str | Path, rel: str | None) -> None:
         (Path(data_dir) / rel).unlink(missing_ok=True)
 
 
-def sweep(data_dir: str | Path) -> int:
-    """Remove temporary files left by a crash; returns how many."""
+def sweep(data_dir: str | Path, referenced: set[str] | None = None) -> int:
+    """Remove what a crash left: temporary files, and (given ``referenced``,
+    the relative paths the database names) files renamed into place whose
+    database row was never committed. Only for a start-up, while no request
+    is writing. Returns how many files went."""
     n = 0
     for folder in (HISTORIES, BLOCKS):
-        for p in (Path(data_dir) / folder).glob(f"{_TMP}*"):
-            p.unlink(missing_ok=True)
-            n += 1
+        for p in (Path(data_dir) / folder).glob("*"):
+            rel = f"{folder}/{p.name}"
+            if p.name.startswith(_TMP) or (referenced is not None and p.is_file()
+                                           and rel not in referenced):
+                p.unlink(missing_ok=True)
+                n += 1
     return n

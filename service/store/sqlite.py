@@ -211,6 +211,15 @@ def get_job(con, project: str, job_id: str) -> dict | None:
     return out
 
 
+def referenced_files(con) -> set[str]:
+    """Every data file a row names (relative to the data directory)."""
+    out = set()
+    for sql in ("SELECT file FROM histories", "SELECT file FROM blocks",
+                "SELECT samples_file FROM assessments WHERE samples_file IS NOT NULL"):
+        out.update(r[0] for r in con.execute(sql))
+    return out
+
+
 def fail_interrupted_jobs(con) -> int:
     """Jobs a stopped process left queued or running can never finish: fail them."""
     err = json.dumps({"title": "Interrupted", "detail": "the service stopped before the "

@@ -282,6 +282,9 @@ def test_open_mode_is_for_loopback_clients_only(app):
     assert_problem(r, 401, "unauthorized")
     r = c.get("/v1/assets", environ_base={"REMOTE_ADDR": "::1"})
     assert r.status_code == 200
+    # A proxy on this machine must not make remote clients look local.
+    for h in ("Forwarded", "X-Forwarded-For", "X-Real-IP"):
+        assert_problem(c.get("/v1/assets", headers={h: "203.0.113.9"}), 401, "unauthorized")
     # The first key ends open mode at the next request; data made open is
     # project "default"'s.
     assert c.post("/v1/assets", json={"name": "early"}).status_code == 201

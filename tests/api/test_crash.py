@@ -129,3 +129,33 @@ def test_sigkill_during_posting_loses_nothing_acknowledged(tmp_path):
     finally:
         os.killpg(proc.pid, signal.SIGTERM)
         proc.wait(timeout=30)
+
+
+def test_restart_removes_files_no_row_names_and_keeps_the_rest(tmp_path):
+    # A crash between renaming a file into place and committing its row
+    # leaves a file nothing names; the next start removes it (and temporary
+    # files), and keeps every file a history, block or assessment names.
+    from tests.api.conftest import make_app
+
+    app = make_app(tmp_path, WARM_KERNELS=False)
+    r = app.test_client().post("/v1/histories?unit=MPa", data=b"g\n1\n2\n3\n",
+                               content_type="text/csv")
+    assert r.status_code == 201
+    app.extensions["cycleledger.jobs"].shutdown()
+    data = tmp_path / "data"
+    named = sorted(p.name for p in (data / "histories").iterdir())
+    assert len(named) == 1
+    orphans = [data / "blocks" / "b_0123456789abcdef.parquet",
+               data / "histories" / "h_0123456789abcdef.parquet",
+               data / "histories" / ".tmp-abc.upload"]
+    for p in orphans:
+        p.parent.mkdir(exist_ok=True)
+        p.write_bytes(b"PAR1")
+    app = make_app(tmp_path, WARM_KERNELS=False)
+    try:
+        assert not any(p.exists() for p in orphans)
+        assert sorted(p.name for p in (data / "histories").iterdir()) == named
+        hid = r.get_json()["id"]
+        assert app.test_client().get(f"/v1/histories/{hid}").status_code == 200
+    finally:
+        app.extensions["cycleledger.jobs"].shutdown()
