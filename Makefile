@@ -25,12 +25,14 @@ bench-quick: $(BIN)/.installed   ## the benchmarks' short runs
 	$(BIN)/python tests/benchmarks/bench_assessment.py --quick
 	$(BIN)/python tests/benchmarks/bench_api.py --quick
 	$(BIN)/python tests/benchmarks/bench_ledger.py --quick
+	$(BIN)/python tests/benchmarks/bench_load.py --quick
 
 bench: $(BIN)/.installed         ## the benchmarks' full runs (several minutes)
 	$(BIN)/python tests/benchmarks/bench_counting.py
 	$(BIN)/python tests/benchmarks/bench_assessment.py
 	$(BIN)/python tests/benchmarks/bench_api.py
 	$(BIN)/python tests/benchmarks/bench_ledger.py
+	$(BIN)/python tests/benchmarks/bench_load.py
 
 clean:
 	rm -rf $(VENV) .cache examples/data cycleledger-data
