@@ -181,7 +181,15 @@ def _cmd_demo(args) -> int:
         report = post_file(client, csv, config)
         print_report(report)
         a = report["assessment_id"]
-        print(f"\nService on {url} (data in {app.config['DATA_DIR']}). Look at:")
+        from service.store import keys, sqlite
+
+        con = sqlite.connect(app.config["DATA_DIR"])
+        try:
+            mode = ("API keys required" if keys.any_active(con)
+                    else "open mode: no API keys, this machine only")
+        finally:
+            con.close()
+        print(f"\nService on {url} (data in {app.config['DATA_DIR']}; {mode}). Look at:")
         for path in (f"/v1/assessments/{a}/report", "/v1/assessments/" + a,
                      f"/v1/assessments/{a}/summary?format=csv",
                      f"/v1/assessments/{a}/points/pin_lug/cycles?format=csv",
@@ -324,6 +332,11 @@ def _cmd_serve(args) -> int:
         config["JOB_WORKERS"] = args.job_workers
     if args.async_samples is not None:
         config["ASYNC_SAMPLES"] = args.async_samples
+    for flag, setting in (("max_channels", "MAX_CHANNELS"),
+                          ("max_samples_per_channel", "MAX_SAMPLES_PER_CHANNEL"),
+                          ("max_queued_jobs", "MAX_QUEUED_JOBS")):
+        if getattr(args, flag) is not None:
+            config[setting] = getattr(args, flag)
     if args.rate_per_s is not None:
         config["RATE_PER_S"] = args.rate_per_s
     if args.rate_burst is not None:
@@ -534,6 +547,12 @@ def main(argv=None) -> int:
     p.add_argument("--async-samples", dest="async_samples", type=int,
                    help="samples x points above which an assessment becomes a job "
                         "(default 2000000)")
+    p.add_argument("--max-channels", dest="max_channels", type=int,
+                   help="channels in one request; more get 413 (default 256)")
+    p.add_argument("--max-samples-per-channel", dest="max_samples_per_channel", type=int,
+                   help="samples in one channel of a request; more get 413 (default 2e8)")
+    p.add_argument("--max-queued-jobs", dest="max_queued_jobs", type=int,
+                   help="jobs queued or running before new ones get 429 (default 16)")
     p.add_argument("--rate-per-s", dest="rate_per_s", type=float,
                    help="requests a second per API key before 429 (default 50; 0: no limit)")
     p.add_argument("--rate-burst", dest="rate_burst", type=float,
