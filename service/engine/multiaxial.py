@@ -1,0 +1,502 @@
+r"""Multiaxial points: rosettes and stress tensors reduced to what is counted.
+
+A free surface carries two normal stresses and a shear stress at once; one
+gauge sees one direction. A rosette's three gauges give the in-plane strain
+state; Hooke's law gives the plane stress state; a finite-element model gives
+stress tensors directly. Rainflow counting needs one signal, so the state is
+reduced: a signed equivalent stress (von Mises, Tresca), the principal stress
+of largest magnitude, or the normal stress on each of a set of planes, every
+plane counted and assessed and the worst governing (critical plane).
+
+Components are columns of an array with one row per sample:
+plane stress ``(n, 3)`` as ``[sxx, syy, sxy]``, or 3-D ``(n, 6)`` as
+``[sxx, syy, szz, sxy, syz, szx]`` (tensor shear components, not
+engineering strains). Stresses in MPa; strains in any one unit.
+
+Conventions (stated because the literature differs): angles in degrees,
+counter-clockwise from the x axis (the axis of gauge *a* of a rosette);
+tension positive; "signed" equivalents take the sign of the principal stress
+of largest magnitude (``principal``) or of the hydrostatic stress
+(``hydrostatic``), so that a reversal of the load is a reversal of the
+counted signal. Scalar equivalents assume proportional loading; when the
+principal directions rotate they may be unconservative, and
+:func:`principal_rotation` measures by how much they rotate.
+
+References
+----------
+.. [1] J. W. Dally and W. F. Riley, *Experimental Stress Analysis*, 3rd ed.
+   New York, NY, USA: McGraw-Hill, 1991, ch. 9 (strain-gauge rosettes; from
+   memory).
+.. [2] D. F. Socie and G. B. Marquis, *Multiaxial Fatigue*. Warrendale, PA,
+   USA: SAE International, 2000 (critical-plane approach; from memory).
+.. [3] Micro-Measurements, "Errors due to transverse sensitivity in strain
+   gages," Tech Note TN-509 (gauge response model; from memory).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field, replace
+
+import numpy as np
+
+from .errors import InvalidLoadHistory, InvalidParameter, unknown
+
+#: Gauge directions of the rosette layouts, from gauge a. [deg]
+ROSETTE_LAYOUTS = {"rectangular": (0.0, 45.0, 90.0), "delta": (0.0, 60.0, 120.0)}
+
+#: Poisson's ratio of the beam on which gauge factors are calibrated (0.285
+#: is the usual calibration value; common practice).
+CALIBRATION_POISSON = 0.285
+
+#: Principal directions that turn more than this through a history mark the
+#: loading non-proportional (a project choice, stated in every result). [deg]
+ROTATION_WARNING_DEG = 15.0
+
+
+# ---------------------------------------------------------------------------- rosettes
+
+
+def _direction_rows(angles_deg, transverse_sensitivity: float) -> np.ndarray:
+    """Rows mapping (ex, ey, gxy) to what each gauge reads times (1 - nu0 Kt)."""
+    t = np.radians(np.asarray(angles_deg, dtype=np.float64))
+    c2, s2, cs = np.cos(t) ** 2, np.sin(t) ** 2, np.sin(t) * np.cos(t)
+    k = transverse_sensitivity
+    # A gauge at t reads (eps(t) + Kt eps(t + 90 deg)) / (1 - nu0 Kt) [3]; and
+    # eps(t) = ex cos^2 t + ey sin^2 t + gxy sin t cos t.
+    return np.stack([c2 + k * s2, s2 + k * c2, (1.0 - k) * cs], axis=1)
+
+
+def rosette_strains(gauge_a, gauge_b, gauge_c, layout: str = "rectangular", *,
+                    transverse_sensitivity: float = 0.0,
+                    calibration_poisson: float = CALIBRATION_POISSON):
+    r"""
+    In-plane strain components from the three readings of a rosette.
+
+    Parameters
+    ----------
+    gauge_a, gauge_b, gauge_c : array-like
+        Readings of the gauges at the layout's angles (``rectangular``: 0, 45,
+        90 deg; ``delta``: 0, 60, 120 deg). [strain, any unit]
+    layout : str
+        A key of ``ROSETTE_LAYOUTS``.
+    transverse_sensitivity : float
+        The gauges' transverse sensitivity coefficient :math:`K_t` (from the
+        gauge's data sheet; 0 = no correction). [-]
+    calibration_poisson : float
+        Poisson's ratio :math:`\nu_0` of the gauge-factor calibration. [-]
+
+    Returns
+    -------
+    tuple of ndarray
+        :math:`\varepsilon_x, \varepsilon_y, \gamma_{xy}` (x along gauge a;
+        engineering shear strain). [same unit as the readings]
+
+    Notes
+    -----
+    Each reading is :math:`\hat\varepsilon(\theta) (1 - \nu_0 K_t) =
+    \varepsilon(\theta) + K_t\,\varepsilon(\theta + 90^\circ)` with
+    :math:`\varepsilon(\theta) = \varepsilon_x\cos^2\theta + \varepsilon_y
+    \sin^2\theta + \gamma_{xy}\sin\theta\cos\theta`; the three equations are
+    solved at once for every sample. With :math:`K_t = 0` this is the strain
+    transformation of [1]; the rectangular rosette then gives
+    :math:`\varepsilon_x = \varepsilon_a`, :math:`\varepsilon_y =
+    \varepsilon_c`, :math:`\gamma_{xy} = 2\varepsilon_b - \varepsilon_a -
+    \varepsilon_c`.
+    """
+    if layout not in ROSETTE_LAYOUTS:
+        raise unknown("layout", layout, ROSETTE_LAYOUTS)
+    kt = _finite(transverse_sensitivity, "transverse_sensitivity")
+    nu0 = _finite(calibration_poisson, "calibration_poisson")
+    if not -0.5 < kt < 0.5:
+        raise InvalidParameter(f"transverse_sensitivity {kt} is not a gauge's (|Kt| < 0.5)",
+                               field="transverse_sensitivity", value=kt)
+    gauges = [_signal(g, n) for g, n in ((gauge_a, "gauge_a"), (gauge_b, "gauge_b"),
+                                         (gauge_c, "gauge_c"))]
+    if len({g.shape for g in gauges}) != 1:
+        raise InvalidLoadHistory("the three gauges differ in length: "
+                                 f"{[g.shape[0] for g in gauges]}", field="gauge_b")
+    readings = np.stack(gauges)
+    rows = _direction_rows(ROSETTE_LAYOUTS[layout], kt)
+    solved = np.linalg.solve(rows, readings * (1.0 - nu0 * kt))
+    return solved[0], solved[1], solved[2]
+
+
+def plane_stress_from_strains(strain_x, strain_y, shear_strain_xy, youngs_modulus: float,
+                              poisson_ratio: float):
+    r"""
+    Plane stress by Hooke's law from in-plane strains.
+
+    Returns ``(sxx, syy, sxy)``:
+    :math:`\sigma_x = E/(1-\nu^2)(\varepsilon_x + \nu\varepsilon_y)`,
+    :math:`\sigma_y = E/(1-\nu^2)(\varepsilon_y + \nu\varepsilon_x)`,
+    :math:`\tau_{xy} = E/(2(1+\nu))\,\gamma_{xy}`. [MPa, with E in MPa and
+    strain as a fraction; give ``youngs_modulus=1`` for strains already
+    multiplied by E]
+    """
+    e = _finite(youngs_modulus, "youngs_modulus")
+    nu = _finite(poisson_ratio, "poisson_ratio")
+    if e <= 0:
+        raise InvalidParameter("youngs_modulus must be positive", field="youngs_modulus")
+    if not 0.0 <= nu < 0.5:
+        raise InvalidParameter(f"poisson_ratio {nu} must be in [0, 0.5)",
+                               field="poisson_ratio", value=nu)
+    ex, ey, g = (np.asarray(v, dtype=np.float64) for v in (strain_x, strain_y, shear_strain_xy))
+    f = e / (1.0 - nu * nu)
+    return f * (ex + nu * ey), f * (ey + nu * ex), e / (2.0 * (1.0 + nu)) * g
+
+
+def principal_in_plane(sxx, syy, sxy):
+    r"""
+    In-plane principal values and the angle of the first from x.
+
+    Returns ``(p1, p2, angle_deg)`` with p1 >= p2 and
+    :math:`\theta_1 = \tfrac12\operatorname{atan2}(2\tau_{xy}, \sigma_x -
+    \sigma_y)` in (-90, 90] deg (Mohr's circle). Works for strains too, with
+    half the engineering shear strain as ``sxy``.
+    """
+    sxx, syy, sxy = (np.asarray(v, dtype=np.float64) for v in (sxx, syy, sxy))
+    centre = 0.5 * (sxx + syy)
+    radius = np.hypot(0.5 * (sxx - syy), sxy)
+    return centre + radius, centre - radius, np.degrees(0.5 * np.arctan2(2.0 * sxy, sxx - syy))
+
+
+# ---------------------------------------------------------------------------- tensors
+
+
+def as_components(components) -> np.ndarray:
+    """Check a component array: ``(n, 3)`` plane stress or ``(n, 6)`` 3-D, finite."""
+    try:
+        arr = np.asarray(components, dtype=np.float64)
+    except (TypeError, ValueError) as exc:
+        raise InvalidLoadHistory(f"stress components must be numbers: {exc}",
+                                 field="components") from None
+    if arr.ndim != 2 or arr.shape[1] not in (3, 6):
+        raise InvalidLoadHistory("stress components must be an (n, 3) array [sxx, syy, sxy] "
+                                 "or an (n, 6) array [sxx, syy, szz, sxy, syz, szx], got shape "
+                                 f"{arr.shape}", field="components")
+    if arr.shape[0] < 2:
+        raise InvalidLoadHistory("a history needs at least two samples", field="components")
+    bad = np.flatnonzero(~np.isfinite(arr).all(axis=1))
+    if bad.size:
+        raise InvalidLoadHistory(f"sample {int(bad[0])} has a non-finite component",
+                                 field="components", sample_index=int(bad[0]))
+    return arr
+
+
+def _full(arr: np.ndarray) -> np.ndarray:
+    """(n, 6) from plane (n, 3) or 3-D (n, 6) components."""
+    if arr.shape[1] == 6:
+        return arr
+    out = np.zeros((arr.shape[0], 6))
+    out[:, 0], out[:, 1], out[:, 3] = arr[:, 0], arr[:, 1], arr[:, 2]
+    return out
+
+
+def principal_stresses(components) -> np.ndarray:
+    """Principal stresses of each sample, largest first: ``(n, 3)``; plane
+    stress includes the free surface's zero. [MPa]"""
+    arr = as_components(components)
+    if arr.shape[1] == 3:
+        p1, p2, _ = principal_in_plane(arr[:, 0], arr[:, 1], arr[:, 2])
+        return -np.sort(-np.stack([p1, p2, np.zeros_like(p1)], axis=1), axis=1)
+    return np.linalg.eigvalsh(_matrices(arr))[:, ::-1]
+
+
+def _matrices(full: np.ndarray) -> np.ndarray:
+    sxx, syy, szz, sxy, syz, szx = full.T
+    return np.stack([np.stack([sxx, sxy, szx], -1), np.stack([sxy, syy, syz], -1),
+                     np.stack([szx, syz, szz], -1)], -2)
+
+
+def von_mises(components) -> np.ndarray:
+    r"""Von Mises equivalent stress (unsigned). [MPa]
+
+    :math:`\sqrt{\tfrac12[(\sigma_x-\sigma_y)^2 + (\sigma_y-\sigma_z)^2 +
+    (\sigma_z-\sigma_x)^2] + 3(\tau_{xy}^2+\tau_{yz}^2+\tau_{zx}^2)}`; for
+    plane stress :math:`\sqrt{\sigma_x^2 - \sigma_x\sigma_y + \sigma_y^2 +
+    3\tau_{xy}^2}`.
+    """
+    f = _full(as_components(components))
+    sxx, syy, szz, sxy, syz, szx = f.T
+    return np.sqrt(0.5 * ((sxx - syy) ** 2 + (syy - szz) ** 2 + (szz - sxx) ** 2)
+                   + 3.0 * (sxy ** 2 + syz ** 2 + szx ** 2))
+
+
+def _largest_magnitude(p: np.ndarray) -> np.ndarray:
+    """The principal stress of largest magnitude, with its sign (ties: the tensile one)."""
+    return np.where(np.abs(p[:, 0]) >= np.abs(p[:, 2]), p[:, 0], p[:, 2])
+
+
+def signed_von_mises(components, sign: str = "principal") -> np.ndarray:
+    """Von Mises with the sign of the largest-magnitude principal stress
+    (``principal``) or of the hydrostatic stress (``hydrostatic``). [MPa]"""
+    arr = as_components(components)
+    vm = von_mises(arr)
+    if sign == "principal":
+        ref = _largest_magnitude(principal_stresses(arr))
+    elif sign == "hydrostatic":
+        f = _full(arr)
+        ref = f[:, 0] + f[:, 1] + f[:, 2]
+    else:
+        raise unknown("sign", sign, ("principal", "hydrostatic"))
+    return np.where(ref < 0.0, -vm, vm)
+
+
+def abs_max_principal(components) -> np.ndarray:
+    """The principal stress of largest magnitude, with its sign. [MPa]"""
+    return _largest_magnitude(principal_stresses(components))
+
+
+def signed_tresca(components) -> np.ndarray:
+    """Tresca (largest principal difference, the free surface's zero included
+    for plane stress) with the sign of the largest-magnitude principal. [MPa]"""
+    p = principal_stresses(components)
+    t = p[:, 0] - p[:, 2]
+    return np.where(_largest_magnitude(p) < 0.0, -t, t)
+
+
+#: Scalar reductions by name; ``critical_plane`` is handled by
+#: :func:`assess_multiaxial` (it needs the curve).
+REDUCTIONS = {
+    "signed_von_mises": lambda c: signed_von_mises(c, "principal"),
+    "signed_von_mises_hydrostatic": lambda c: signed_von_mises(c, "hydrostatic"),
+    "abs_max_principal": abs_max_principal,
+    "signed_tresca": signed_tresca,
+}
+REDUCTION_NAMES = tuple(REDUCTIONS) + ("critical_plane",)
+
+
+def reduce(components, reduction: str) -> np.ndarray:
+    """One scalar history from the components by a named reduction. [MPa]"""
+    if reduction not in REDUCTIONS:
+        raise unknown("reduction", reduction, REDUCTION_NAMES)
+    return REDUCTIONS[reduction](components)
+
+
+# ---------------------------------------------------------------------------- planes
+
+
+def plane_normals(components, step_deg: float) -> tuple[np.ndarray, np.ndarray]:
+    """Unit normals of the planes scanned, and their angles.
+
+    Plane stress: planes normal to the surface, at angles 0, step, ... < 180
+    deg from x (``angles`` is ``(k,)``). 3-D: normals over a hemisphere, polar
+    angle 0..90 and azimuth 0.. < 180 deg at ``step`` (``angles`` is ``(k, 2)``
+    [polar, azimuth]; the pole once).
+    """
+    step = _finite(step_deg, "plane_step_deg")
+    if not 0.5 <= step <= 90.0:
+        raise InvalidParameter(f"plane_step_deg {step} must be between 0.5 and 90",
+                               field="plane_step_deg", value=step)
+    az = np.arange(0.0, 180.0 - 1e-9, step)
+    if np.shape(components)[1] == 3:
+        a = np.radians(az)
+        return np.stack([np.cos(a), np.sin(a), np.zeros_like(a)], 1), az
+    polar = np.arange(step, 90.0 + 1e-9, step)
+    pp, aa = np.meshgrid(np.radians(polar), np.radians(az), indexing="ij")
+    normals = np.stack([np.sin(pp) * np.cos(aa), np.sin(pp) * np.sin(aa), np.cos(pp)], -1)
+    normals = np.concatenate([[[0.0, 0.0, 1.0]], normals.reshape(-1, 3)])
+    angles = np.concatenate([[[0.0, 0.0]], np.degrees(np.stack([pp, aa], -1)).reshape(-1, 2)])
+    return normals, angles
+
+
+def normal_stress_on_planes(components, normals) -> np.ndarray:
+    r"""Normal stress :math:`\sigma_n = n^T S n` on each plane: ``(k, n)``. [MPa]
+
+    For plane stress and a normal at :math:`\theta` this is Mohr's
+    :math:`\tfrac{\sigma_x+\sigma_y}2 + \tfrac{\sigma_x-\sigma_y}2\cos2\theta
+    + \tau_{xy}\sin2\theta`.
+    """
+    f = _full(as_components(components))
+    n = np.asarray(normals, dtype=np.float64)
+    # sigma_n = sum_ij n_i n_j S_ij: weights of the six components per plane.
+    w = np.stack([n[:, 0] ** 2, n[:, 1] ** 2, n[:, 2] ** 2, 2 * n[:, 0] * n[:, 1],
+                  2 * n[:, 1] * n[:, 2], 2 * n[:, 2] * n[:, 0]], axis=1)
+    return w @ f.T
+
+
+def shear_stress_on_planes(components, normals) -> np.ndarray:
+    r"""Magnitude of the shear stress on each plane, :math:`|S n - \sigma_n n|`:
+    ``(k, n)``. For plane stress and an in-plane normal at :math:`\theta`, its
+    in-plane part is :math:`-\tfrac{\sigma_x-\sigma_y}2\sin2\theta +
+    \tau_{xy}\cos2\theta`. [MPa]"""
+    f = _full(as_components(components))
+    n = np.asarray(normals, dtype=np.float64)
+    traction = np.einsum("tij,kj->kti", _matrices(f), n)
+    sn = np.einsum("kti,ki->kt", traction, n)
+    return np.linalg.norm(traction - sn[..., None] * n[:, None, :], axis=-1)
+
+
+# ---------------------------------------------------------------------------- proportionality
+
+
+def principal_rotation(components, significance: float = 0.1) -> float:
+    r"""
+    How far the principal direction turns through the history. [deg]
+
+    The direction followed is that of the principal stress of largest
+    magnitude (invariant when the whole state scales, sign included). Only
+    samples where it is well defined count: von Mises at least
+    ``significance`` times its largest value, and the two largest principal
+    magnitudes at least 10 % apart. The result is the largest angle between
+    such a sample's direction and the direction at the sample of largest
+    von Mises (0 for proportional loading, up to 90).
+    """
+    arr = as_components(components)
+    vm = von_mises(arr)
+    if vm.max() == 0.0:
+        return 0.0
+    mats = _matrices(_full(arr))
+    if arr.shape[1] == 3:
+        mats = mats[:, :2, :2]  # the surface normal is a principal direction by itself
+    vals, vecs = np.linalg.eigh(mats)
+    mag = np.abs(vals)
+    order = np.argsort(-mag, axis=1)
+    first = np.take_along_axis(mag, order[:, :1], 1)[:, 0]
+    second = np.take_along_axis(mag, order[:, 1:2], 1)[:, 0]
+    ok = (vm >= significance * vm.max()) & (first - second >= 0.1 * first)
+    if not ok.any():
+        return 0.0
+    d = np.take_along_axis(vecs, order[:, None, :1], 2)[:, :, 0]  # (n, dim)
+    ref = d[np.flatnonzero(ok)[np.argmax(vm[ok])]]
+    cosang = np.clip(np.abs(d[ok] @ ref), 0.0, 1.0)
+    return float(np.degrees(np.arccos(cosang.min())))
+
+
+# ---------------------------------------------------------------------------- assessment
+
+
+@dataclass(frozen=True)
+class MultiaxialAssessment:
+    """The governing result of a multiaxial point and how it was found.
+
+    ``governing`` is the :class:`~service.engine.damage.PointAssessment` of
+    the reduction (and, for ``critical_plane``, the plane) with the largest
+    damage; ``damages`` [-] gives each reduction's damage; ``plane_angle``
+    [deg] the governing plane (None unless a plane governs);
+    ``plane_damage`` [-] the damage of every plane scanned;
+    ``rotation_deg`` [deg] the principal rotation; ``non_proportional``
+    whether it exceeds ``ROTATION_WARNING_DEG``.
+    """
+
+    reduction: str
+    governing: object
+    damages: dict
+    plane_angle: object = None
+    plane_angles: np.ndarray = field(default=None, repr=False)
+    plane_damage: np.ndarray = field(default=None, repr=False)
+    rotation_deg: float = 0.0
+    non_proportional: bool = False
+    cautions: tuple = ()
+
+    def summary(self) -> dict:
+        worst = self.damages[self.reduction]
+        return {
+            "reduction": self.reduction,
+            "damages": dict(self.damages),
+            "ratio_to_governing": {k: (v / worst if worst and math.isfinite(worst) else None)
+                                   for k, v in self.damages.items()},
+            "plane_angle_deg": self.plane_angle,
+            "principal_rotation_deg": self.rotation_deg,
+            "non_proportional": self.non_proportional,
+            "rotation_warning_deg": ROTATION_WARNING_DEG,
+        }
+
+
+def governing_history(components, reduction: str, plane_angle=None) -> np.ndarray:
+    """The scalar history a stored result was counted from (for recounts)."""
+    if reduction != "critical_plane":
+        return reduce(components, reduction)
+    arr = as_components(components)
+    if arr.shape[1] == 3:
+        a = math.radians(float(plane_angle))
+        n = np.array([[math.cos(a), math.sin(a), 0.0]])
+    else:
+        p, z = (math.radians(float(v)) for v in plane_angle)
+        n = np.array([[math.sin(p) * math.cos(z), math.sin(p) * math.sin(z), math.cos(p)]])
+    return normal_stress_on_planes(arr, n)[0]
+
+
+def assess_multiaxial(components, curve, options=None, *,
+                      reductions=("signed_von_mises", "critical_plane"),
+                      plane_step_deg: float = 10.0, gate: float = 0.0,
+                      residue: str = "half_cycles", duration_s: float | None = None,
+                      workers: int = 2) -> MultiaxialAssessment:
+    """
+    Assess a multiaxial point by each of ``reductions``; the worst governs.
+
+    Every scalar reduction and every plane of the critical-plane scan is
+    counted (ASTM E1049-85) and assessed with the same curve and options;
+    planes are first assessed without reserve factor or top cycles, then the
+    governing history once in full. ``gate`` [MPa] applies to each counted
+    history. Returns a :class:`MultiaxialAssessment`.
+    """
+    from .damage import AssessmentOptions, assess_history, assess_many
+
+    arr = as_components(components)
+    opts = options or AssessmentOptions()
+    names = list(dict.fromkeys(reductions))
+    if not names:
+        raise InvalidParameter("give at least one reduction", field="reductions")
+    for r in names:
+        if r not in REDUCTION_NAMES:
+            raise unknown("reduction", r, REDUCTION_NAMES)
+    light = replace(opts, reserve_factor=False, top_cycles=0)
+    histories = {r: reduce(arr, r) for r in names if r != "critical_plane"}
+    damages = {r: res.damage for r, res in assess_many(
+        histories, curve, light, gate=gate, residue=residue, duration_s=duration_s,
+        workers=workers).items()} if histories else {}
+    angles = plane_damage = None
+    best_plane = None
+    if "critical_plane" in names:
+        normals, angles = plane_normals(arr, plane_step_deg)
+        sn = normal_stress_on_planes(arr, normals)
+        per_plane = assess_many({i: sn[i] for i in range(sn.shape[0])}, curve, light,
+                                gate=gate, residue=residue, duration_s=duration_s,
+                                workers=workers)
+        plane_damage = np.array([per_plane[i].damage for i in range(sn.shape[0])])
+        k = int(np.argmax(plane_damage))
+        best_plane = angles[k].tolist() if angles.ndim == 2 else float(angles[k])
+        damages["critical_plane"] = float(plane_damage[k])
+        histories["critical_plane"] = sn[k]
+    # The worst reduction governs (ties: the order given).
+    worst = max(names, key=lambda r: (damages[r], -names.index(r)))
+    full = assess_history(histories[worst], curve, opts, gate=gate, residue=residue,
+                          duration_s=duration_s)
+    rotation = principal_rotation(arr)
+    cautions = []
+    if rotation > ROTATION_WARNING_DEG:
+        cautions.append(
+            f"Non-proportional loading: the principal direction turns {rotation:.0f} deg "
+            f"(more than {ROTATION_WARNING_DEG:.0f}); scalar equivalents may be unconservative "
+            f"here. Prefer the critical-plane result and confirm by test.")
+    return MultiaxialAssessment(
+        reduction=worst, governing=full, damages=damages,
+        plane_angle=best_plane if worst == "critical_plane" else None,
+        plane_angles=angles, plane_damage=plane_damage, rotation_deg=rotation,
+        non_proportional=rotation > ROTATION_WARNING_DEG, cautions=tuple(cautions))
+
+
+# ---------------------------------------------------------------------------- helpers
+
+
+def _finite(value, name: str) -> float:
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value):
+        raise InvalidParameter(f"{name} must be a finite number", field=name, value=value)
+    return float(value)
+
+
+def _signal(values, name: str) -> np.ndarray:
+    try:
+        arr = np.asarray(values, dtype=np.float64)
+    except (TypeError, ValueError) as exc:
+        raise InvalidLoadHistory(f"{name} must be numbers: {exc}", field=name) from None
+    if arr.ndim != 1 or arr.shape[0] < 2:
+        raise InvalidLoadHistory(f"{name} must be a 1-D history of at least two samples",
+                                 field=name)
+    bad = np.flatnonzero(~np.isfinite(arr))
+    if bad.size:
+        raise InvalidLoadHistory(f"{name} sample {int(bad[0])} is not finite", field=name,
+                                 sample_index=int(bad[0]))
+    return arr

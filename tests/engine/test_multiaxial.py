@@ -1,0 +1,290 @@
+"""Multiaxial points: rosettes, plane and 3-D stress states, reductions,
+critical planes, proportionality. Each expected value names its source."""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from service.engine.damage import AssessmentOptions, assess_history
+from service.engine.errors import InvalidLoadHistory, InvalidParameter, UnknownMethod
+from service.engine.multiaxial import (REDUCTION_NAMES, ROSETTE_LAYOUTS, ROTATION_WARNING_DEG,
+                                       abs_max_principal, assess_multiaxial, governing_history,
+                                       normal_stress_on_planes, plane_normals,
+                                       plane_stress_from_strains, principal_in_plane,
+                                       principal_rotation, principal_stresses, reduce,
+                                       rosette_strains, shear_stress_on_planes,
+                                       signed_tresca, signed_von_mises, von_mises)
+from service.engine.sn_catalogue import catalogue_curve
+
+EN71 = catalogue_curve("EN1993-1-9:71")
+E, NU = 206_000.0, 0.3
+
+
+def gauge_readings(sx, sy, txy, layout, kt=0.0, nu0=0.285, e=E, nu=NU):
+    """Readings of a rosette on a known plane stress state, built the other
+    way round: Hooke's law, strain transformation at the gauge angles, and
+    the gauge's transverse response (independent path)."""
+    ex = (sx - nu * sy) / e
+    ey = (sy - nu * sx) / e
+    g = 2.0 * (1.0 + nu) / e * txy
+    out = []
+    for a in ROSETTE_LAYOUTS[layout]:
+        t = math.radians(a)
+
+        def eps(th):
+            return ex * math.cos(th) ** 2 + ey * math.sin(th) ** 2 + g * math.sin(th) * math.cos(th)
+        out.append((eps(t) + kt * eps(t + math.pi / 2)) / (1.0 - nu0 * kt))
+    return out
+
+
+# ---------------------------------------------------------------- rosettes
+
+
+def test_rectangular_rosette_closed_forms():
+    # Dally & Riley, Experimental Stress Analysis, ch. 9 (from memory):
+    # ex = ea, ey = ec, gxy = 2 eb - ea - ec; e1,2 = (ea + ec)/2 +-
+    # (1/sqrt 2) sqrt((ea - eb)^2 + (eb - ec)^2); tan 2t = gxy / (ex - ey).
+    ea, eb, ec = 500e-6, 300e-6, -200e-6
+    ex, ey, g = rosette_strains([ea, ea], [eb, eb], [ec, ec], "rectangular")
+    assert ex[0] == pytest.approx(ea, rel=1e-12) and ey[0] == pytest.approx(ec, rel=1e-12)
+    assert g[0] == pytest.approx(2 * eb - ea - ec, rel=1e-12)
+    e1, e2, ang = principal_in_plane(ex, ey, g / 2)
+    r = math.sqrt((ea - eb) ** 2 + (eb - ec) ** 2) / math.sqrt(2)
+    assert e1[0] == pytest.approx((ea + ec) / 2 + r, rel=1e-12)
+    assert e2[0] == pytest.approx((ea + ec) / 2 - r, rel=1e-12)
+    assert ang[0] == pytest.approx(0.5 * math.degrees(math.atan2(2 * eb - ea - ec, ea - ec)))
+    # Numbers: 150 +- 380.79 microstrain.
+    assert e1[0] * 1e6 == pytest.approx(530.79, abs=0.01)
+
+
+def test_delta_rosette_closed_forms():
+    # Dally & Riley (from memory): e1,2 = (ea + eb + ec)/3 +- (sqrt 2 / 3)
+    # sqrt((ea - eb)^2 + (eb - ec)^2 + (ec - ea)^2); ex = ea,
+    # ey = (2(eb + ec) - ea)/3, gxy = 2 (eb - ec) / sqrt 3.
+    ea, eb, ec = 400e-6, -100e-6, 250e-6
+    ex, ey, g = rosette_strains([ea] * 2, [eb] * 2, [ec] * 2, "delta")
+    assert ex[0] == pytest.approx(ea, rel=1e-12)
+    assert ey[0] == pytest.approx((2 * (eb + ec) - ea) / 3, rel=1e-12)
+    assert g[0] == pytest.approx(2 * (eb - ec) / math.sqrt(3), rel=1e-12)
+    e1, e2, _ = principal_in_plane(ex, ey, g / 2)
+    r = math.sqrt(2) / 3 * math.sqrt((ea - eb) ** 2 + (eb - ec) ** 2 + (ec - ea) ** 2)
+    assert e1[0] == pytest.approx((ea + eb + ec) / 3 + r, rel=1e-12)
+    assert e2[0] == pytest.approx((ea + eb + ec) / 3 - r, rel=1e-12)
+
+
+def test_plane_stress_from_principal_strains():
+    # Hooke's law, plane stress (DOMAIN primer; any mechanics text):
+    # s1 = E/(1 - nu^2) (e1 + nu e2).
+    e1, e2 = 530.79e-6, -230.79e-6
+    s1, s2, t = plane_stress_from_strains(e1, e2, 0.0, E, NU)
+    assert s1 == pytest.approx(E / (1 - NU ** 2) * (e1 + NU * e2), rel=1e-12)
+    assert s2 == pytest.approx(E / (1 - NU ** 2) * (e2 + NU * e1), rel=1e-12)
+    assert t == 0.0
+
+
+@settings(max_examples=200, deadline=None)
+@given(sx=st.floats(-400, 400), sy=st.floats(-400, 400), txy=st.floats(-200, 200),
+       layout=st.sampled_from(sorted(ROSETTE_LAYOUTS)), kt=st.floats(-0.05, 0.05))
+def test_rosette_recovers_the_stress_state_it_was_made_from(sx, sy, txy, layout, kt):
+    # Independent path: stresses -> strains (Hooke) -> gauge readings (strain
+    # transformation + transverse response) -> rosette_strains -> stresses.
+    a, b, c = gauge_readings(sx, sy, txy, layout, kt=kt)
+    ex, ey, g = rosette_strains([a, a], [b, b], [c, c], layout, transverse_sensitivity=kt)
+    got = plane_stress_from_strains(ex, ey, g, E, NU)
+    for v, ref in zip(got, (sx, sy, txy)):
+        assert v[0] == pytest.approx(ref, rel=1e-9, abs=1e-9)
+
+
+def test_transverse_sensitivity_correction_matters_and_is_removed():
+    # A 3 % transverse sensitivity on a biaxial state reads a few percent off
+    # (Micro-Measurements TN-509, from memory: errors of several percent);
+    # the correction removes it.
+    a, b, c = gauge_readings(200.0, 150.0, 0.0, "rectangular", kt=0.03)
+    raw = plane_stress_from_strains(*rosette_strains([a] * 2, [b] * 2, [c] * 2), E, NU)
+    fixed = plane_stress_from_strains(*rosette_strains([a] * 2, [b] * 2, [c] * 2,
+                                                       transverse_sensitivity=0.03), E, NU)
+    assert abs(raw[0][0] / 200.0 - 1) > 0.02
+    assert fixed[0][0] == pytest.approx(200.0, rel=1e-12)
+
+
+def test_rosette_bad_input():
+    with pytest.raises(UnknownMethod):
+        rosette_strains([0, 1], [0, 1], [0, 1], "tee")
+    with pytest.raises(InvalidLoadHistory):
+        rosette_strains([0, 1], [0, 1, 2], [0, 1])
+    with pytest.raises(InvalidLoadHistory) as e:
+        rosette_strains([0, 1], [0, float("nan")], [0, 1])
+    assert e.value.details["sample_index"] == 1
+    with pytest.raises(InvalidParameter):
+        rosette_strains([0, 1], [0, 1], [0, 1], transverse_sensitivity=0.9)
+    with pytest.raises(InvalidParameter):
+        plane_stress_from_strains(1, 1, 1, E, 0.5)
+    with pytest.raises(InvalidLoadHistory):
+        rosette_strains(["a", "b"], [0, 1], [0, 1])
+
+
+# ---------------------------------------------------------------- equivalents
+
+
+def test_von_mises_and_tresca_against_their_definitions():
+    # Plane stress von Mises sqrt(sx^2 - sx sy + sy^2 + 3 txy^2) (DOMAIN primer):
+    # 100, -50, 30 -> sqrt(20200) = 142.13; principal: 25 +- sqrt(75^2 + 30^2).
+    c = np.array([[100.0, -50.0, 30.0], [0.0, 0.0, 0.0]])
+    assert von_mises(c)[0] == pytest.approx(math.sqrt(20200.0), rel=1e-14)
+    p = principal_stresses(c)[0]
+    r = math.hypot(75.0, 30.0)
+    assert p == pytest.approx([25 + r, 0.0, 25 - r], rel=1e-14)
+    # Tresca: the largest principal difference, the surface's zero included.
+    assert signed_tresca(c)[0] == pytest.approx(2 * r, rel=1e-14)
+    same_sign = np.array([[120.0, 40.0, 0.0], [0.0, 0.0, 0.0]])
+    assert signed_tresca(same_sign)[0] == pytest.approx(120.0)
+    assert signed_tresca(-same_sign)[0] == pytest.approx(-120.0)
+    # 3-D: von Mises from the six components equals sqrt(3 J2) from the
+    # principal stresses (definition of J2).
+    rng = np.random.default_rng(3)
+    s6 = rng.normal(0, 100, size=(50, 6))
+    p3 = principal_stresses(s6)
+    j2 = ((p3[:, 0] - p3[:, 1]) ** 2 + (p3[:, 1] - p3[:, 2]) ** 2
+          + (p3[:, 2] - p3[:, 0]) ** 2) / 6
+    assert von_mises(s6) == pytest.approx(np.sqrt(3 * j2), rel=1e-12)
+    # A plane state given as 3-D (szz = syz = szx = 0) is the same state.
+    s3 = rng.normal(0, 100, size=(50, 3))
+    s6p = np.zeros((50, 6))
+    s6p[:, [0, 1, 3]] = s3
+    assert von_mises(s6p) == pytest.approx(von_mises(s3), rel=1e-12)
+    assert principal_stresses(s6p) == pytest.approx(principal_stresses(s3), abs=1e-9)
+
+
+def test_signs_follow_the_load_in_proportional_loading():
+    # sigma(t) = lambda(t) S: every signed reduction is lambda(t) times its
+    # value for S (the sign convention of the module docstring).
+    S = np.array([[90.0, 30.0, 20.0]])
+    lam = np.array([1.0, -0.5, 0.8, -1.0, 0.2])
+    c = lam[:, None] * S
+    for name in ("signed_von_mises", "signed_von_mises_hydrostatic", "abs_max_principal",
+                 "signed_tresca"):
+        ref = reduce(np.repeat(S, 2, 0), name)[0]
+        assert reduce(c, name) == pytest.approx(lam * ref, rel=1e-12), name
+    # Hydrostatic sign differs from principal sign when the mean is compressive
+    # but the largest principal is tensile.
+    mixed = np.array([[100.0, -180.0, 0.0], [0.0, 0.0, 0.0]])
+    assert signed_von_mises(mixed, "principal")[0] < 0  # |-180| > 100
+    assert signed_von_mises(np.array([[150.0, -100.0, 0.0]] * 2), "hydrostatic")[0] > 0
+    assert abs_max_principal(mixed)[0] == pytest.approx(-180.0)
+
+
+def test_uniaxial_state_reduces_to_itself_and_assesses_as_uniaxial():
+    # Common practice: with only sxx every reduction is sxx, so every result
+    # equals the uniaxial assessment of sxx exactly.
+    rng = np.random.default_rng(7)
+    x = np.cumsum(rng.normal(0, 15, 4000))
+    c = np.stack([x, np.zeros_like(x), np.zeros_like(x)], 1)
+    for name in REDUCTION_NAMES[:-1]:
+        if name != "signed_von_mises_hydrostatic":
+            assert reduce(c, name) == pytest.approx(x, abs=1e-12), name
+    ref = assess_history(x, EN71).damage
+    m = assess_multiaxial(c, EN71, reductions=REDUCTION_NAMES, plane_step_deg=10)
+    assert m.damages["signed_von_mises"] == pytest.approx(ref, rel=1e-12)
+    assert m.damages["critical_plane"] == pytest.approx(ref, rel=1e-12)
+    assert m.plane_damage[0] == pytest.approx(ref, rel=1e-12)  # the 0 deg plane
+    assert m.governing.damage == pytest.approx(ref, rel=1e-12)
+    assert m.rotation_deg == 0.0 and not m.non_proportional
+
+
+# ---------------------------------------------------------------- planes
+
+
+def test_normal_and_shear_stress_on_planes_match_mohrs_circle():
+    # Mohr's circle (any mechanics text): sn = (sx + sy)/2 + (sx - sy)/2 cos 2t
+    # + txy sin 2t; |tn| = |-(sx - sy)/2 sin 2t + txy cos 2t|.
+    sx, sy, txy = 120.0, -40.0, 55.0
+    c = np.array([[sx, sy, txy], [0.0, 0.0, 0.0]])
+    normals, ang = plane_normals(c, 15.0)
+    assert ang.tolist() == list(np.arange(0.0, 180.0, 15.0))
+    sn = normal_stress_on_planes(c, normals)[:, 0]
+    tn = shear_stress_on_planes(c, normals)[:, 0]
+    t2 = np.radians(2 * ang)
+    assert sn == pytest.approx((sx + sy) / 2 + (sx - sy) / 2 * np.cos(t2) + txy * np.sin(t2),
+                               abs=1e-10)
+    assert tn == pytest.approx(np.abs(-(sx - sy) / 2 * np.sin(t2) + txy * np.cos(t2)),
+                               abs=1e-10)
+    # The largest normal stress over all planes is the first principal stress.
+    fine, _ = plane_normals(c, 0.5)
+    p1, _, _ = principal_in_plane(sx, sy, txy)
+    assert normal_stress_on_planes(c, fine)[:, 0].max() == pytest.approx(p1, rel=1e-4)
+
+
+def test_3d_planes_cover_the_hemisphere():
+    c = np.zeros((2, 6))
+    c[0] = [10.0, 20.0, 300.0, 0.0, 0.0, 0.0]
+    normals, ang = plane_normals(c, 30.0)
+    assert np.allclose(np.linalg.norm(normals, axis=1), 1.0)
+    assert len(normals) == 1 + 3 * 6 and ang.shape == (19, 2)
+    sn = normal_stress_on_planes(c, normals)[:, 0]
+    assert sn.max() == pytest.approx(300.0) and sn.argmax() == 0  # the pole: szz
+
+
+def test_critical_plane_governs_where_the_principal_direction_rotates():
+    # Out-of-phase tension and shear (sx = A sin wt, txy = A/2 cos wt): the
+    # principal direction turns through the cycle (non-proportional); the
+    # scan finds a plane and the rotation is reported with a caution.
+    t = np.linspace(0, 40 * np.pi, 8001)
+    c = np.stack([200 * np.sin(t), np.zeros_like(t), 100 * np.cos(t)], 1)
+    assert principal_rotation(c) > 40.0
+    m = assess_multiaxial(c, EN71, reductions=("signed_von_mises", "critical_plane"),
+                          plane_step_deg=5)
+    assert m.non_proportional and m.cautions and "Non-proportional" in m.cautions[0]
+    assert set(m.damages) == {"signed_von_mises", "critical_plane"}
+    assert m.plane_damage.shape == (36,)
+    worst = max(m.damages.values())
+    assert m.governing.damage == pytest.approx(worst, rel=1e-12)
+    s = m.summary()
+    assert s["ratio_to_governing"][m.reduction] == 1.0
+    assert s["rotation_warning_deg"] == ROTATION_WARNING_DEG
+    # The stored recount rebuilds the governing history.
+    h = governing_history(c, m.reduction, m.plane_angle)
+    assert assess_history(h, EN71).damage == pytest.approx(m.governing.damage, rel=1e-12)
+
+
+def test_proportional_loading_has_no_rotation():
+    lam = np.sin(np.linspace(0, 20, 500))
+    for S in ([100.0, 50.0, 30.0], [0.0, 0.0, 80.0], [60.0, 60.0, 0.0]):
+        c = lam[:, None] * np.array([S])
+        assert principal_rotation(c) == pytest.approx(0.0, abs=1e-6), S
+    s6 = lam[:, None] * np.array([[50.0, -20.0, 10.0, 30.0, 5.0, -15.0]])
+    assert principal_rotation(s6) == pytest.approx(0.0, abs=1e-5)
+
+
+def test_equibiaxial_state_loads_every_plane_alike():
+    # sx = sy = s, txy = 0: sn = s on every plane (Mohr's circle is a point).
+    x = np.cumsum(np.random.default_rng(1).normal(0, 10, 2000))
+    c = np.stack([x, x, np.zeros_like(x)], 1)
+    m = assess_multiaxial(c, EN71, reductions=("critical_plane",), plane_step_deg=30)
+    ref = assess_history(x, EN71).damage
+    assert m.plane_damage == pytest.approx(np.full(6, ref), rel=1e-9)
+
+
+def test_bad_multiaxial_requests():
+    c = np.zeros((10, 3))
+    with pytest.raises(UnknownMethod):
+        assess_multiaxial(c, EN71, reductions=("octahedral_guess",))
+    with pytest.raises(InvalidParameter):
+        assess_multiaxial(c, EN71, reductions=())
+    with pytest.raises(InvalidParameter):
+        plane_normals(c, 0.0)
+    with pytest.raises(InvalidLoadHistory):
+        von_mises(np.zeros((10, 4)))
+    bad = np.zeros((10, 3))
+    bad[4, 2] = np.inf
+    with pytest.raises(InvalidLoadHistory) as e:
+        von_mises(bad)
+    assert e.value.details["sample_index"] == 4
+    # A history with no stress at all: no damage, no rotation, no NaN.
+    m = assess_multiaxial(c, EN71, reductions=REDUCTION_NAMES)
+    assert all(v == 0.0 for v in m.damages.values()) and m.rotation_deg == 0.0
+    assert AssessmentOptions().allowable_damage == 1.0
