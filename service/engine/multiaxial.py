@@ -193,6 +193,43 @@ def _full(arr: np.ndarray) -> np.ndarray:
     return out
 
 
+def _parts(arr: np.ndarray) -> tuple:
+    """The six component arrays (zeros where plane stress has none), views."""
+    if arr.shape[1] == 6:
+        return tuple(arr[:, i] for i in range(6))
+    z = np.zeros(arr.shape[0])
+    return arr[:, 0], arr[:, 1], z, arr[:, 2], z, z
+
+
+def _principal3(sxx, syy, szz, sxy, syz, szx):
+    r"""Principal stresses of symmetric tensors given by components of any
+    shape, largest first, in closed form (trigonometric solution of the
+    characteristic cubic): :math:`\sigma_k = I_1/3 + 2\sqrt{J_2/3}
+    \cos(	heta - 2\pi k/3)` with :math:`\cos 3	heta = 	frac{3\sqrt3}{2}
+    J_3 / J_2^{3/2}`. Elementwise numpy, no per-sample eigen solver."""
+    mean = (sxx + syy + szz) / 3.0
+    dx, dy, dz = sxx - mean, syy - mean, szz - mean
+    j2 = (dx * dx + dy * dy + dz * dz) / 2.0 + sxy * sxy + syz * syz + szx * szx
+    j3 = (dx * (dy * dz - syz * syz) - sxy * (sxy * dz - syz * szx)
+          + szx * (sxy * syz - dy * szx))
+    with np.errstate(invalid="ignore", divide="ignore"):
+        c = np.where(j2 > 0.0, 1.5 * math.sqrt(3.0) * j3 / np.maximum(j2, 1e-300) ** 1.5, 0.0)
+    theta = np.arccos(np.clip(c, -1.0, 1.0)) / 3.0
+    r = 2.0 * np.sqrt(j2 / 3.0)
+    return (mean + r * np.cos(theta), mean + r * np.cos(theta - 2.0 * math.pi / 3.0),
+            mean + r * np.cos(theta + 2.0 * math.pi / 3.0))
+
+
+def _von_mises6(sxx, syy, szz, sxy, syz, szx):
+    return np.sqrt(0.5 * ((sxx - syy) ** 2 + (syy - szz) ** 2 + (szz - sxx) ** 2)
+                   + 3.0 * (sxy * sxy + syz * syz + szx * szx))
+
+
+def _largest_magnitude(p1, p3):
+    """The principal stress of largest magnitude, with its sign (ties: tensile)."""
+    return np.where(np.abs(p1) >= np.abs(p3), p1, p3)
+
+
 def principal_stresses(components) -> np.ndarray:
     """Principal stresses of each sample, largest first: ``(n, 3)``; plane
     stress includes the free surface's zero. [MPa]"""
@@ -200,7 +237,9 @@ def principal_stresses(components) -> np.ndarray:
     if arr.shape[1] == 3:
         p1, p2, _ = principal_in_plane(arr[:, 0], arr[:, 1], arr[:, 2])
         return -np.sort(-np.stack([p1, p2, np.zeros_like(p1)], axis=1), axis=1)
-    return np.linalg.eigvalsh(_matrices(arr))[:, ::-1]
+    p1, p2, p3 = _principal3(*_parts(arr))
+    # theta in [0, pi/3] orders them: cos(t) >= cos(t - 2pi/3) >= cos(t + 2pi/3).
+    return np.stack([p1, p2, p3], axis=1)
 
 
 def _matrices(full: np.ndarray) -> np.ndarray:
@@ -217,61 +256,64 @@ def von_mises(components) -> np.ndarray:
     plane stress :math:`\sqrt{\sigma_x^2 - \sigma_x\sigma_y + \sigma_y^2 +
     3\tau_{xy}^2}`.
     """
-    f = _full(as_components(components))
-    sxx, syy, szz, sxy, syz, szx = f.T
-    return np.sqrt(0.5 * ((sxx - syy) ** 2 + (syy - szz) ** 2 + (szz - sxx) ** 2)
-                   + 3.0 * (sxy ** 2 + syz ** 2 + szx ** 2))
+    return _von_mises6(*_parts(as_components(components)))
 
 
-def _largest_magnitude(p: np.ndarray) -> np.ndarray:
-    """The principal stress of largest magnitude, with its sign (ties: the tensile one)."""
-    return np.where(np.abs(p[:, 0]) >= np.abs(p[:, 2]), p[:, 0], p[:, 2])
+def _reduce_parts(parts, reduction: str, plane: bool):
+    """A named scalar reduction of component arrays of any shape."""
+    if plane:
+        sxx, syy, _, sxy, _, _ = parts
+        a, b, _ = principal_in_plane(sxx, syy, sxy)
+        p1, p3 = np.maximum(a, 0.0), np.minimum(b, 0.0)  # the surface's zero included
+        big = np.where(np.abs(a) >= np.abs(b), a, b)
+    else:
+        p1, _, p3 = _principal3(*parts)
+        big = _largest_magnitude(p1, p3)
+    if reduction == "abs_max_principal":
+        return big
+    if reduction == "signed_tresca":
+        t = p1 - p3
+        return np.where(big < 0.0, -t, t)
+    vm = _von_mises6(*parts)
+    if reduction == "signed_von_mises":
+        return np.where(big < 0.0, -vm, vm)
+    if reduction == "signed_von_mises_hydrostatic":
+        return np.where(parts[0] + parts[1] + parts[2] < 0.0, -vm, vm)
+    raise unknown("reduction", reduction, REDUCTION_NAMES)
 
 
 def signed_von_mises(components, sign: str = "principal") -> np.ndarray:
     """Von Mises with the sign of the largest-magnitude principal stress
     (``principal``) or of the hydrostatic stress (``hydrostatic``). [MPa]"""
-    arr = as_components(components)
-    vm = von_mises(arr)
-    if sign == "principal":
-        ref = _largest_magnitude(principal_stresses(arr))
-    elif sign == "hydrostatic":
-        f = _full(arr)
-        ref = f[:, 0] + f[:, 1] + f[:, 2]
-    else:
+    if sign not in ("principal", "hydrostatic"):
         raise unknown("sign", sign, ("principal", "hydrostatic"))
-    return np.where(ref < 0.0, -vm, vm)
+    return reduce(components, "signed_von_mises" if sign == "principal"
+                  else "signed_von_mises_hydrostatic")
 
 
 def abs_max_principal(components) -> np.ndarray:
     """The principal stress of largest magnitude, with its sign. [MPa]"""
-    return _largest_magnitude(principal_stresses(components))
+    return reduce(components, "abs_max_principal")
 
 
 def signed_tresca(components) -> np.ndarray:
     """Tresca (largest principal difference, the free surface's zero included
     for plane stress) with the sign of the largest-magnitude principal. [MPa]"""
-    p = principal_stresses(components)
-    t = p[:, 0] - p[:, 2]
-    return np.where(_largest_magnitude(p) < 0.0, -t, t)
+    return reduce(components, "signed_tresca")
 
 
-#: Scalar reductions by name; ``critical_plane`` is handled by
-#: :func:`assess_multiaxial` (it needs the curve).
-REDUCTIONS = {
-    "signed_von_mises": lambda c: signed_von_mises(c, "principal"),
-    "signed_von_mises_hydrostatic": lambda c: signed_von_mises(c, "hydrostatic"),
-    "abs_max_principal": abs_max_principal,
-    "signed_tresca": signed_tresca,
-}
-REDUCTION_NAMES = tuple(REDUCTIONS) + ("critical_plane",)
+#: Scalar reductions; ``critical_plane`` is handled by :func:`assess_multiaxial`
+#: (it needs the curve).
+REDUCTION_NAMES = ("signed_von_mises", "signed_von_mises_hydrostatic", "abs_max_principal",
+                   "signed_tresca", "critical_plane")
 
 
 def reduce(components, reduction: str) -> np.ndarray:
     """One scalar history from the components by a named reduction. [MPa]"""
-    if reduction not in REDUCTIONS:
+    if reduction not in REDUCTION_NAMES[:-1]:
         raise unknown("reduction", reduction, REDUCTION_NAMES)
-    return REDUCTIONS[reduction](components)
+    arr = as_components(components)
+    return _reduce_parts(_parts(arr), reduction, arr.shape[1] == 3)
 
 
 # ---------------------------------------------------------------------------- planes
@@ -500,3 +542,130 @@ def _signal(values, name: str) -> np.ndarray:
         raise InvalidLoadHistory(f"{name} sample {int(bad[0])} is not finite", field=name,
                                  sample_index=int(bad[0]))
     return arr
+
+
+# ---------------------------------------------------------------------------- FE superposition
+
+
+def _unit_array(unit_stresses) -> np.ndarray:
+    u = np.asarray(unit_stresses, dtype=np.float64)
+    if u.ndim != 3 or u.shape[2] not in (3, 6) or u.shape[0] < 1 or u.shape[1] < 1:
+        raise InvalidParameter("unit stresses must be an array (nodes, load cases, 3 or 6 "
+                               f"components), got shape {u.shape}", field="unit_stresses")
+    if not np.isfinite(u).all():
+        bad = int(np.flatnonzero(~np.isfinite(u).all(axis=(1, 2)))[0])
+        raise InvalidParameter(f"unit stresses of node index {bad} are not finite",
+                               field="unit_stresses", value=bad)
+    if u.shape[2] == 3:
+        full = np.zeros(u.shape[:2] + (6,))
+        full[..., 0], full[..., 1], full[..., 3] = u[..., 0], u[..., 1], u[..., 2]
+        return full
+    return u
+
+
+def _load_array(load_histories, cases: int) -> np.ndarray:
+    x = np.asarray(load_histories, dtype=np.float64)
+    if x.ndim != 2 or x.shape[0] != cases or x.shape[1] < 2:
+        raise InvalidLoadHistory(f"load histories must be an array (load cases = {cases}, "
+                                 f"samples >= 2), got shape {x.shape}", field="loads")
+    bad = np.flatnonzero(~np.isfinite(x).all(axis=0))
+    if bad.size:
+        raise InvalidLoadHistory(f"load sample {int(bad[0])} is not finite", field="loads",
+                                 sample_index=int(bad[0]))
+    return x
+
+
+def superpose(unit_stresses, load_histories) -> np.ndarray:
+    r"""
+    Stress-tensor histories of nodes by linear superposition of load cases.
+
+    Parameters
+    ----------
+    unit_stresses : array-like, (nodes, cases, 3 or 6)
+        Each node's stress components under a unit value of each load case
+        (from a linear finite-element model). [MPa per load unit]
+    load_histories : array-like, (cases, samples)
+        The measured (or designed) history of each load case. [load unit]
+
+    Returns
+    -------
+    ndarray, (nodes, samples, 6)
+        :math:`\sigma_{ij}(t) = \sum_c u_{ij,c}\,L_c(t)` for every node. [MPa]
+
+    Notes
+    -----
+    Valid while the structure responds linearly (small strains, no contact
+    or plasticity), as in any superposition of unit-load cases.
+    """
+    u = _unit_array(unit_stresses)
+    x = _load_array(load_histories, u.shape[1])
+    return np.matmul(u.transpose(0, 2, 1), x).transpose(0, 2, 1)
+
+
+@dataclass(frozen=True)
+class NodeDamage:
+    """Damage of every node of a superposition, and the worst nodes in full.
+
+    ``damage`` [-] and ``max_abs_equivalent`` [MPa] are per node in input
+    order; ``top`` lists ``(node id, PointAssessment)`` of the ``top`` nodes
+    by damage, worst first (assessed with reserve factor and top cycles).
+    """
+
+    node_ids: np.ndarray
+    damage: np.ndarray
+    max_abs_equivalent: np.ndarray
+    reduction: str
+    top: list
+
+
+def assess_superposition(unit_stresses, load_histories, curve, options=None, *,
+                         reduction: str = "signed_von_mises", node_ids=None, top: int = 10,
+                         chunk_bytes: int = 64 * 2**20, gate: float = 0.0,
+                         duration_s: float | None = None, workers: int = 2,
+                         progress=None) -> NodeDamage:
+    """
+    Damage at every node of a finite-element model under measured loads.
+
+    Node chunks are superposed (:func:`superpose`), reduced to a scalar
+    history by ``reduction`` (a scalar reduction; a critical-plane scan of
+    every node is left to a chosen few), counted and assessed, so memory is
+    bounded by ``chunk_bytes`` of component histories whatever the node
+    count. The ``top`` nodes by damage are then assessed in full.
+    ``progress(nodes_done, nodes_total)`` is called after each chunk.
+    """
+    from .damage import AssessmentOptions, assess_history, assess_many
+
+    if reduction not in REDUCTION_NAMES[:-1]:
+        raise unknown("reduction", reduction, REDUCTION_NAMES[:-1])
+    u = _unit_array(unit_stresses)
+    x = _load_array(load_histories, u.shape[1])
+    nodes, n = u.shape[0], x.shape[1]
+    ids = np.arange(nodes) if node_ids is None else np.asarray(node_ids)
+    if ids.shape != (nodes,):
+        raise InvalidParameter(f"node_ids must name the {nodes} nodes", field="node_ids")
+    if isinstance(top, bool) or not isinstance(top, int) or top < 0:
+        raise InvalidParameter("top must be a whole number >= 0", field="top")
+    opts = options or AssessmentOptions()
+    light = replace(opts, reserve_factor=False, top_cycles=0)
+    chunk = max(1, int(chunk_bytes // (6 * 8 * n)))
+    damage = np.empty(nodes)
+    peak = np.empty(nodes)
+    for lo in range(0, nodes, chunk):
+        hi = min(lo + chunk, nodes)
+        comps = np.matmul(u[lo:hi].transpose(0, 2, 1), x)  # (k, 6, n)
+        reduced = _reduce_parts(tuple(comps[:, i, :] for i in range(6)), reduction, False)
+        res = assess_many(np.ascontiguousarray(reduced.T), curve, light, gate=gate,
+                          duration_s=duration_s, workers=workers)
+        damage[lo:hi] = [r.damage for r in res.values()]
+        peak[lo:hi] = np.abs(reduced).max(axis=1)
+        if progress is not None:
+            progress(hi, nodes)
+    order = np.argsort(-damage, kind="stable")[:top]
+    worst = []
+    for i in order:
+        comps = np.matmul(u[i].T, x)
+        h = _reduce_parts(tuple(comps[j] for j in range(6)), reduction, False)
+        worst.append((ids[i].item() if hasattr(ids[i], "item") else ids[i],
+                      assess_history(h, curve, opts, gate=gate, duration_s=duration_s)))
+    return NodeDamage(node_ids=ids, damage=damage, max_abs_equivalent=peak,
+                      reduction=reduction, top=worst)

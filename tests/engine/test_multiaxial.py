@@ -288,3 +288,85 @@ def test_bad_multiaxial_requests():
     m = assess_multiaxial(c, EN71, reductions=REDUCTION_NAMES)
     assert all(v == 0.0 for v in m.damages.values()) and m.rotation_deg == 0.0
     assert AssessmentOptions().allowable_damage == 1.0
+
+
+def test_closed_form_principal_stresses_match_an_eigen_solver():
+    # The trigonometric solution of the characteristic cubic against numpy's
+    # symmetric eigen solver (general-purpose reference), on random tensors and
+    # on the degenerate ones where the cubic has double or triple roots.
+    rng = np.random.default_rng(11)
+    s6 = rng.normal(0, 150, size=(2000, 6))
+    degenerate = np.array([[100.0, 0, 0, 0, 0, 0], [50.0, 50, 50, 0, 0, 0],
+                           [80.0, 80, -20, 0, 0, 0], [0.0, 0, 0, 60, 0, 0],
+                           [0.0] * 6, [1e-3, 2e-3, 0, 1e-3, 0, 0], [1e6, -1e6, 3, 0, 0, 0]])
+    s6 = np.concatenate([s6, degenerate])
+    mats = np.stack([np.stack([s6[:, 0], s6[:, 3], s6[:, 5]], -1),
+                     np.stack([s6[:, 3], s6[:, 1], s6[:, 4]], -1),
+                     np.stack([s6[:, 5], s6[:, 4], s6[:, 2]], -1)], -2)
+    ref = np.linalg.eigvalsh(mats)[:, ::-1]
+    got = principal_stresses(s6)
+    scale = np.abs(s6).max(axis=1, keepdims=True) + 1e-300
+    assert np.all(np.abs(got - ref) <= 1e-7 * scale)
+    assert np.all(np.diff(got, axis=1) <= 1e-9 * scale)  # largest first
+
+
+# ---------------------------------------------------------------- FE superposition
+
+
+def test_a_single_unit_load_case_reproduces_the_unit_stresses():
+    # Superposition (linear FE, common practice): one load case with the
+    # history [0, 1, -1, 2] gives the node's unit stresses times that history.
+    from service.engine.multiaxial import superpose
+
+    u = np.random.default_rng(2).normal(0, 50, size=(7, 1, 6))
+    h = np.array([[0.0, 1.0, -1.0, 2.0]])
+    s = superpose(u, h)
+    assert s.shape == (7, 4, 6)
+    assert s[:, 1, :] == pytest.approx(u[:, 0, :], rel=1e-15)
+    assert s == pytest.approx(u[:, 0, None, :] * h[0][None, :, None], rel=1e-15)
+
+
+@settings(max_examples=50, deadline=None)
+@given(a=st.floats(-5, 5), b=st.floats(-5, 5), seed=st.integers(0, 1000))
+def test_superposition_is_linear(a, b, seed):
+    from service.engine.multiaxial import superpose
+
+    rng = np.random.default_rng(seed)
+    u = rng.normal(0, 30, size=(5, 3, 6))
+    l1, l2 = rng.normal(0, 1, size=(3, 40)), rng.normal(0, 1, size=(3, 40))
+    lhs = superpose(u, a * l1 + b * l2)
+    rhs = a * superpose(u, l1) + b * superpose(u, l2)
+    assert np.allclose(lhs, rhs, rtol=1e-10, atol=1e-10)
+    # Plane-stress unit stresses (3 components) are the 6-component state with
+    # zeros out of the plane.
+    u3 = u[:, :, :3]
+    u6 = np.zeros_like(u)
+    u6[:, :, [0, 1, 3]] = u3
+    assert np.array_equal(superpose(u3, l1), superpose(u6, l1))
+
+
+def test_node_damage_equals_each_node_assessed_alone_whatever_the_chunking():
+    from service.engine.multiaxial import assess_superposition, superpose
+
+    rng = np.random.default_rng(5)
+    u = rng.normal(0, 40, size=(40, 3, 6))
+    t = np.arange(3000)
+    loads = np.stack([np.sin(t / 7.0) * 2, np.cos(t / 11.0), rng.normal(0, 0.5, t.size)])
+    ids = np.arange(100, 140)
+    r = assess_superposition(u, loads, EN71, node_ids=ids, top=3, chunk_bytes=6 * 8 * 3000 * 7)
+    comps = superpose(u, loads)
+    for k in (0, 13, 39):
+        h = reduce(comps[k], "signed_von_mises")
+        assert r.damage[k] == pytest.approx(assess_history(h, EN71).damage, rel=1e-12)
+        assert r.max_abs_equivalent[k] == pytest.approx(np.abs(h).max(), rel=1e-12)
+    one_chunk = assess_superposition(u, loads, EN71, node_ids=ids, top=3)
+    assert np.array_equal(one_chunk.damage, r.damage)
+    assert [i for i, _ in r.top] == [int(ids[i]) for i in np.argsort(-r.damage)[:3]]
+    assert r.top[0][1].damage == pytest.approx(r.damage.max(), rel=1e-12)
+    assert r.top[0][1].reserve_factor is not None
+    with pytest.raises(UnknownMethod):
+        assess_superposition(u, loads, EN71, reduction="critical_plane")
+    with pytest.raises(InvalidLoadHistory):
+        assess_superposition(u, loads[:2], EN71)
+    with pytest.raises(InvalidParameter):
+        assess_superposition(np.zeros((3, 3)), loads, EN71)
