@@ -210,9 +210,20 @@ def _cmd_demo(args) -> int:
     except KeyboardInterrupt:
         print("\nstopped")
     finally:
-        server.close()
+        stop_waitress(server, thread)
         app.extensions["cycleledger.jobs"].shutdown()
     return 0
+
+
+def stop_waitress(server, thread, timeout_s: float = 10.0) -> None:
+    """Stop a waitress server running on ``thread`` from inside its own loop.
+
+    Closing its sockets from another thread races the loop's ``select`` (an
+    EBADF in the server thread); a thunk pulled through waitress's trigger
+    closes every channel inside the loop, which then ends on an empty map.
+    """
+    server.trigger.pull_trigger(lambda: [ch.close() for ch in list(server._map.values())])
+    thread.join(timeout=timeout_s)
 
 
 def post_file(client, path: Path, config: dict, progress=None) -> dict:

@@ -94,3 +94,11 @@ def wait_for_job(client, location: str, timeout_s: float = 30.0) -> dict:
         if time.monotonic() > deadline:
             raise AssertionError(f"job still {job['state']} after {timeout_s} s")
         time.sleep(0.02)
+
+
+
+def stop_waitress(server, thread) -> None:
+    from service.cli import stop_waitress as stop
+
+    stop(server, thread)
+    assert not thread.is_alive(), "waitress did not stop"

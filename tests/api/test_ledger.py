@@ -17,7 +17,7 @@ from service.api import create_app
 from service.engine import astm_e1049
 from service.engine.damage import AssessmentOptions, assess
 from service.engine.sn_catalogue import catalogue_curve
-from tests.api.conftest import assert_problem
+from tests.api.conftest import assert_problem, stop_waitress
 
 PARQUET = "application/vnd.apache.parquet"
 EN71 = catalogue_curve("EN1993-1-9:71")
@@ -381,6 +381,5 @@ def test_concurrent_pipelines_lose_nothing_and_count_nothing_twice(tmp_path):
         blocks = c.get_json("/v1/assets/rig/blocks", limit=100)["items"]
         assert len(blocks) == 18
     finally:
-        server.close()
+        stop_waitress(server, thread)
         app.extensions["cycleledger.jobs"].shutdown()
-        thread.join(timeout=10)

@@ -14,7 +14,7 @@ import pytest
 
 from service.api import create_app
 from service.reports.pages import fmt
-from tests.api.conftest import assert_problem
+from tests.api.conftest import assert_problem, stop_waitress
 from tests.api.test_ledger import post, setup_asset
 
 SETTINGS = {"curve": "EN1993-1-9:71", "mean_stress_method": "goodman",
@@ -93,9 +93,8 @@ def served(tmp_path):
     thread = threading.Thread(target=server.run, daemon=True)
     thread.start()
     yield app, f"http://127.0.0.1:{server.effective_port}"
-    server.close()
+    stop_waitress(server, thread)
     app.extensions["cycleledger.jobs"].shutdown()
-    thread.join(timeout=10)
 
 
 def chromium(*args, timeout=90):

@@ -13,6 +13,7 @@ import pytest
 from waitress import create_server
 
 from service.api import create_app
+from tests.api.conftest import stop_waitress
 from service.cli import main
 from service.client import Client, ServiceError
 from service.engine.damage import assess_history
@@ -26,9 +27,8 @@ def served(tmp_path):
     thread = threading.Thread(target=server.run, daemon=True)
     thread.start()
     yield f"http://127.0.0.1:{server.effective_port}"
-    server.close()
+    stop_waitress(server, thread)
     app.extensions["cycleledger.jobs"].shutdown()
-    thread.join(timeout=10)
 
 
 def test_client_round_trip_with_a_job(served):
