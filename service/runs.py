@@ -15,7 +15,8 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from service.engine import histograms
+from service.engine import histograms, multiaxial
+from service.engine import units as engine_units
 from service.engine.damage import CAUTIONS, assess
 from service.engine.errors import InvalidParameter, unknown
 from service.engine.rainflow import RESIDUE_TREATMENTS, CycleTable, astm_e1049, resolve_gate
@@ -28,21 +29,126 @@ POINT_WORKERS = 2
 
 #: Keys of an assessment request besides the samples themselves.
 REQUEST_KEYS = {"history_id", "samples", "unit", "units", "youngs_modulus", "sample_rate_hz",
-                "settings", "points", "gate", "gate_fraction", "residue"}
+                "settings", "points", "gate", "gate_fraction", "residue", "multiaxial"}
+
+#: Keys of a multiaxial point's declaration.
+MULTIAXIAL_KEYS = {"rosette", "gauges", "poisson_ratio", "transverse_sensitivity",
+                   "calibration_poisson", "components", "reductions", "plane_step_deg",
+                   "settings"}
+PLANE_COMPONENTS = ("sxx", "syy", "sxy")
+SOLID_COMPONENTS = ("sxx", "syy", "szz", "sxy", "syz", "szx")
 
 
 @dataclass
 class PlannedPoint:
+    """A point to assess: one channel's samples, or (``multiaxial`` set) the
+    channels of a rosette or of stress components, reduced when assessed."""
+
     name: str
-    samples: np.ndarray
+    samples: object  # ndarray, or {channel: ndarray} for a multiaxial point
     settings: dict
+    multiaxial: dict | None = None
+
+    @property
+    def sample_count(self) -> int:
+        if self.multiaxial is None:
+            return self.samples.shape[0]
+        return next(iter(self.samples.values())).shape[0]
 
 
-def plan(request: dict, channels: dict[str, np.ndarray], lookup=None) -> list[PlannedPoint]:
+def _multiaxial_spec(name: str, spec, channels: dict, units: dict | None) -> dict:
+    """A checked multiaxial declaration, with its channel names in order."""
+    if not isinstance(spec, dict):
+        raise InvalidParameter(f"multiaxial point {name!r} must be an object",
+                               field="multiaxial")
+    extra = set(spec) - MULTIAXIAL_KEYS
+    if extra:
+        raise InvalidParameter(f"multiaxial point {name!r}: unknown field(s) "
+                               f"{', '.join(sorted(extra))}; valid: "
+                               f"{', '.join(sorted(MULTIAXIAL_KEYS))}", field="multiaxial")
+    out = {"reductions": spec.get("reductions", ["signed_von_mises", "critical_plane"]),
+           "plane_step_deg": spec.get("plane_step_deg", 10.0)}
+    if not isinstance(out["reductions"], list) or not out["reductions"]:
+        raise InvalidParameter("reductions must be a non-empty list of "
+                               f"{', '.join(multiaxial.REDUCTION_NAMES)}", field="reductions")
+    for r in out["reductions"]:
+        if r not in multiaxial.REDUCTION_NAMES:
+            raise unknown("reductions", r, multiaxial.REDUCTION_NAMES)
+    if ("rosette" in spec) == ("components" in spec):
+        raise InvalidParameter(f"multiaxial point {name!r} needs exactly one of rosette "
+                               f"(with gauges) or components", field="multiaxial")
+    if "rosette" in spec:
+        if spec["rosette"] not in multiaxial.ROSETTE_LAYOUTS:
+            raise unknown("rosette", spec["rosette"], multiaxial.ROSETTE_LAYOUTS)
+        gauges = spec.get("gauges")
+        if not (isinstance(gauges, list) and len(gauges) == 3):
+            raise InvalidParameter("gauges must list the three channels a, b, c in layout "
+                                   "order", field="gauges")
+        nu = spec.get("poisson_ratio")
+        if isinstance(nu, bool) or not isinstance(nu, (int, float)) or not 0 <= nu < 0.5:
+            raise InvalidParameter("a rosette needs poisson_ratio in [0, 0.5)",
+                                   field="poisson_ratio", value=nu)
+        out.update(kind="rosette", layout=spec["rosette"], channels=list(gauges),
+                   poisson_ratio=float(nu),
+                   transverse_sensitivity=spec.get("transverse_sensitivity", 0.0),
+                   calibration_poisson=spec.get("calibration_poisson",
+                                                multiaxial.CALIBRATION_POISSON))
+        for key in ("transverse_sensitivity", "calibration_poisson"):
+            v = out[key]
+            if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v):
+                raise InvalidParameter(f"{key} must be a number", field=key, value=v)
+    else:
+        comp = spec["components"]
+        if not isinstance(comp, dict) or set(comp) not in (set(PLANE_COMPONENTS),
+                                                           set(SOLID_COMPONENTS)):
+            raise InvalidParameter("components maps sxx, syy, sxy (plane stress) or sxx, "
+                                   "syy, szz, sxy, syz, szx (3-D) to channels",
+                                   field="components")
+        order = PLANE_COMPONENTS if len(comp) == 3 else SOLID_COMPONENTS
+        out.update(kind="plane_stress" if len(comp) == 3 else "tensor",
+                   channels=[comp[k] for k in order], components=list(order))
+    for ch in out["channels"]:
+        if ch not in channels:
+            raise unknown("multiaxial channel", ch, channels)
+        if units and ch in units:
+            strain = engine_units.is_strain(units[ch])
+            if out["kind"] == "rosette" and not strain:
+                raise InvalidParameter(f"rosette gauge {ch!r} is in {units[ch]}: give the "
+                                       f"gauges in a strain unit with youngs_modulus",
+                                       field="gauges", value=ch)
+            if out["kind"] != "rosette" and strain:
+                raise InvalidParameter(f"stress component {ch!r} is a strain ({units[ch]})",
+                                       field="components", value=ch)
+    if out["kind"] == "plane_stress" or out["kind"] == "rosette":
+        multiaxial.plane_normals(np.zeros((1, 3)), out["plane_step_deg"])  # checks the step
+    return out
+
+
+def components_of(point: PlannedPoint) -> np.ndarray:
+    """A multiaxial point's stress components, ``(n, 3)`` or ``(n, 6)``. [MPa]
+
+    Rosette gauges arrive as E times strain (a strain channel with its
+    modulus, converted as a uniaxial gauge), so Hooke's law runs with E = 1.
+    """
+    spec = point.multiaxial
+    cols = [point.samples[c] for c in spec["channels"]]
+    if spec["kind"] == "rosette":
+        ex, ey, g = multiaxial.rosette_strains(
+            *cols, spec["layout"], transverse_sensitivity=spec["transverse_sensitivity"],
+            calibration_poisson=spec["calibration_poisson"])
+        return np.stack(multiaxial.plane_stress_from_strains(ex, ey, g, 1.0,
+                                                             spec["poisson_ratio"]), axis=1)
+    return multiaxial.as_components(np.stack(cols, axis=1))
+
+
+def plan(request: dict, channels: dict[str, np.ndarray], lookup=None,
+         units: dict | None = None) -> list[PlannedPoint]:
     """Which channels to assess with which settings; every error before any work.
 
     ``lookup(kind, name)`` resolves stored materials and user curves (see
     ``engine.settings.resolve``); each point keeps its resolved settings.
+    ``units`` ({channel: unit as sent}), when known, lets multiaxial
+    declarations check that rosette gauges are strains and components stresses.
     """
     unknown_keys = set(request) - REQUEST_KEYS
     if unknown_keys:
@@ -52,10 +158,20 @@ def plan(request: dict, channels: dict[str, np.ndarray], lookup=None) -> list[Pl
     points = request.get("points")
     if not isinstance(defaults, dict):
         raise InvalidParameter("settings must be an object", field="settings")
+    declared = request.get("multiaxial") or {}
+    if not isinstance(declared, dict):
+        raise InvalidParameter("multiaxial must be an object {point: declaration}",
+                               field="multiaxial")
+    specs = {n: _multiaxial_spec(n, s, channels, units) for n, s in declared.items()}
+    used = {c for s in specs.values() for c in s["channels"]}
     if points is None:
-        points = {name: {} for name in channels}
-    if not isinstance(points, dict) or not points:
+        points = {name: {} for name in channels if name not in used}
+    if not isinstance(points, dict) or (not points and not specs):
         raise InvalidParameter("points must be an object {channel: settings}", field="points")
+    clash = set(points) & set(specs)
+    if clash:
+        raise InvalidParameter(f"{sorted(clash)[0]!r} is both a point and a multiaxial point",
+                               field="multiaxial")
     out = []
     for name, own in points.items():
         if name not in channels:
@@ -68,6 +184,17 @@ def plan(request: dict, channels: dict[str, np.ndarray], lookup=None) -> list[Pl
             merged = resolve(merged, lookup)
         point_from_dict(merged)  # validate now: nothing is counted if any point is wrong
         out.append(PlannedPoint(name, channels[name], merged))
+    for name, spec in specs.items():
+        own = declared[name].get("settings") or {}
+        if not isinstance(own, dict):
+            raise InvalidParameter(f"settings of multiaxial point {name!r} must be an object",
+                                   field="multiaxial")
+        merged = {**defaults, **own}
+        if lookup is not None:
+            merged = resolve(merged, lookup)
+        point_from_dict(merged)
+        out.append(PlannedPoint(name, {c: channels[c] for c in spec["channels"]}, merged,
+                                spec))
     return out
 
 
@@ -112,11 +239,32 @@ def json_safe(value):
 
 
 def assess_point(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
-    """``(result dict, CycleTable, per-cycle damage)`` of one point."""
+    """``(result dict, per-cycle damage)`` of one point.
+
+    A multiaxial point is reduced by each of its reductions (every plane of a
+    critical-plane scan counted and assessed); the worst governs and the
+    result says which, by how much the others differ, and whether the
+    principal directions rotate. Its gate fraction applies to the range of
+    its signed von Mises history.
+    """
     curve, opts, estimate = point_from_dict(point.settings)
-    g = resolve_gate(point.samples, gate or 0.0, gate_fraction)
-    table = astm_e1049(point.samples, gate=g, residue=residue)
-    r = assess(table, curve, opts, duration_s=duration_s)
+    extra_cautions: tuple = ()
+    block = None
+    if point.multiaxial is None:
+        g = resolve_gate(point.samples, gate or 0.0, gate_fraction)
+        table = astm_e1049(point.samples, gate=g, residue=residue)
+        r = assess(table, curve, opts, duration_s=duration_s)
+    else:
+        spec = point.multiaxial
+        comps = components_of(point)
+        g = resolve_gate(multiaxial.reduce(comps, "signed_von_mises"), gate or 0.0,
+                         gate_fraction)
+        m = multiaxial.assess_multiaxial(comps, curve, opts, reductions=spec["reductions"],
+                                         plane_step_deg=spec["plane_step_deg"], gate=g,
+                                         residue=residue, duration_s=duration_s,
+                                         workers=POINT_WORKERS)
+        r, extra_cautions = m.governing, m.cautions
+        block = {**spec, **m.summary()}
     out = r.summary()
     out.update(
         point=point.name,
@@ -127,9 +275,11 @@ def assess_point(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
         estimate=estimate.as_dict() if estimate is not None else None,
         settings={**r.options, "residue": residue},
         settings_used=point.settings,
-        cautions=[c for c in r.cautions if c not in CAUTIONS],
+        cautions=[c for c in r.cautions if c not in CAUTIONS] + list(extra_cautions),
     )
-    return json_safe(out), table, r.damage_per_cycle
+    if block is not None:
+        out["multiaxial"] = block
+    return json_safe(out), r.damage_per_cycle
 
 
 def run(con, data_dir, request: dict, channels: dict[str, np.ndarray],
@@ -153,11 +303,11 @@ def run(con, data_dir, request: dict, channels: dict[str, np.ndarray],
 
     # Long points side by side on worker threads (the kernels release the
     # GIL); short ones in turn, as assess_many does (GIL hand-offs cost more).
-    long_points = sum(p.samples.shape[0] for p in points) >= THREADED_SAMPLES * len(points)
+    long_points = sum(p.sample_count for p in points) >= THREADED_SAMPLES * len(points)
     pool = ThreadPoolExecutor(POINT_WORKERS) if long_points and len(points) > 1 else None
     try:
         outcomes = pool.map(one, points) if pool else map(one, points)
-        for i, (p, (res, _table, _dmg)) in enumerate(zip(points, outcomes)):
+        for i, (p, (res, _dmg)) in enumerate(zip(points, outcomes)):
             results[p.name] = res
             if progress is not None:
                 progress(i + 1, len(points))
@@ -177,8 +327,11 @@ def run(con, data_dir, request: dict, channels: dict[str, np.ndarray],
         if samples_file is None:
             # Inline samples go into the same transaction: one commit (one
             # fsync) makes the result and what it was made from durable.
-            sqlite.insert_samples(con, aid, {p.name: np.ascontiguousarray(p.samples)
-                                             for p in points})
+            kept = {}
+            for p in points:
+                kept.update({c: np.ascontiguousarray(x) for c, x in p.samples.items()}
+                            if p.multiaxial else {p.name: np.ascontiguousarray(p.samples)})
+            sqlite.insert_samples(con, aid, kept)
     return row
 
 
@@ -190,14 +343,27 @@ def point_cycles(data_dir, assessment: dict, point: str,
     so the rows are the ones the stored result was computed from.
     """
     res = assessment["result"]["points"][point]
-    if assessment["samples_file"]:
-        samples = parquet.read_channels(data_dir, assessment["samples_file"], [point])[point]
-    else:
-        samples = sqlite.get_samples(con, assessment["id"], point)
+    samples = point_samples(data_dir, assessment, point, con)
     table = astm_e1049(samples, gate=res["gate_mpa"], residue=res["settings"]["residue"])
     curve, opts, _ = point_from_dict(res["settings_used"])
     r = assess(table, curve, replace(opts, reserve_factor=False, top_cycles=0))
     return table, r.damage_per_cycle
+
+
+def point_samples(data_dir, assessment: dict, point: str, con=None) -> np.ndarray:
+    """The history a stored point was counted from: its channel, or for a
+    multiaxial point the governing reduction (or plane) rebuilt from its
+    stored channels. [MPa]"""
+    spec = assessment["result"]["points"][point].get("multiaxial")
+    names = spec["channels"] if spec else [point]
+    if assessment["samples_file"]:
+        read = parquet.read_channels(data_dir, assessment["samples_file"], names)
+    else:
+        read = {n: sqlite.get_samples(con, assessment["id"], n) for n in names}
+    if not spec:
+        return read[point]
+    comps = components_of(PlannedPoint(point, read, {}, spec))
+    return multiaxial.governing_history(comps, spec["reduction"], spec["plane_angle_deg"])
 
 
 def range_mean(table: CycleTable, range_bins, mean_bins) -> dict:

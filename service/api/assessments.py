@@ -62,6 +62,7 @@ def create():
             raise ApiProblem("history_id must be a string", field="history_id")
         hist = load_history(hid)
         names = [c["name"] for c in hist["channels"]]
+        units = {c["name"]: c["unit"] for c in hist["channels"]}
         samples, duration = hist["sample_count"], hist["duration_s"]
         folder = data_dir()
 
@@ -74,13 +75,14 @@ def create():
                   if k in body}
         up = uploads.validated(dict(body["samples"]), params)
         names, samples, duration, hid = list(up.channels), up.sample_count, up.duration_s, None
+        units = dict(up.source_units)
 
         def channels():
             return up.channels
     # Every check that needs no counting runs now: bad input is a 4xx here,
     # never a failed job later.
     runs.counting_options(body)
-    planned = runs.plan(body, dict.fromkeys(names), runs.store_lookup(db(), project()))
+    planned = runs.plan(body, dict.fromkeys(names), runs.store_lookup(db(), project()), units)
     if samples * len(planned) > current_app.config["ASYNC_SAMPLES"] or _prefers_async():
         return _queue(body, channels, duration, hid, len(planned),
                       hist["file"] if hid else None)

@@ -10,7 +10,6 @@ from __future__ import annotations
 from service import ledger, runs
 from service.engine.settings import point_from_dict
 from service.store import ledger as ledger_sql
-from service.store import parquet, sqlite
 
 from . import pages, plots
 
@@ -20,9 +19,7 @@ ASSESSMENT_PLOTS = {"damage": False, "history": False, "exceedance": False, "sn"
 
 
 def _samples(con, data_dir, row: dict, point: str):
-    if row["samples_file"]:
-        return parquet.read_channels(data_dir, row["samples_file"], [point])[point]
-    return sqlite.get_samples(con, row["id"], point)
+    return runs.point_samples(data_dir, row, point, con)
 
 
 def assessment_plot(con, data_dir, row: dict, resource: dict, name: str,

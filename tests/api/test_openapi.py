@@ -17,7 +17,9 @@ from service.api import create_app
 from service.engine import units
 from service.engine.mean_stress import COMPRESSIVE_MEAN_POLICIES, MEAN_STRESS_METHODS
 from service.engine.rainflow import RESIDUE_TREATMENTS
+from service.engine.multiaxial import REDUCTION_NAMES, ROSETTE_LAYOUTS
 from service.engine.sn_curve import BELOW_LIMIT_TREATMENTS
+from service.runs import MULTIAXIAL_KEYS
 from service.store import keys, sqlite
 from tests.api.conftest import SPEC_PATH
 
@@ -52,6 +54,9 @@ def test_enums_match_the_registries():
     assert s["Residue"]["enum"] == list(RESIDUE_TREATMENTS)
     assert s["BelowLimit"]["enum"] == list(BELOW_LIMIT_TREATMENTS)
     assert s["Unit"]["enum"] == list(units.UNITS)
+    assert s["Reduction"]["enum"] == list(REDUCTION_NAMES)
+    assert s["MultiaxialPoint"]["properties"]["rosette"]["enum"] == list(ROSETTE_LAYOUTS)
+    assert set(s["MultiaxialPoint"]["properties"]) == MULTIAXIAL_KEYS
 
 
 def test_spec_is_valid_openapi_31():
