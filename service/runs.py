@@ -124,8 +124,8 @@ def _multiaxial_spec(name: str, spec, channels: dict, units: dict | None) -> dic
     return out
 
 
-def components_of(point: PlannedPoint) -> np.ndarray:
-    """A multiaxial point's stress components, ``(n, 3)`` or ``(n, 6)``. [MPa]
+def components_of(point: PlannedPoint) -> tuple:
+    """A multiaxial point's stress component columns (3 or 6). [MPa]
 
     Rosette gauges arrive as E times strain (a strain channel with its
     modulus, converted as a uniaxial gauge), so Hooke's law runs with E = 1.
@@ -133,12 +133,11 @@ def components_of(point: PlannedPoint) -> np.ndarray:
     spec = point.multiaxial
     cols = [point.samples[c] for c in spec["channels"]]
     if spec["kind"] == "rosette":
-        ex, ey, g = multiaxial.rosette_strains(
-            *cols, spec["layout"], transverse_sensitivity=spec["transverse_sensitivity"],
+        return multiaxial.rosette_plane_stress(
+            *cols, spec["layout"], poisson_ratio=spec["poisson_ratio"],
+            transverse_sensitivity=spec["transverse_sensitivity"],
             calibration_poisson=spec["calibration_poisson"])
-        return np.stack(multiaxial.plane_stress_from_strains(ex, ey, g, 1.0,
-                                                             spec["poisson_ratio"]), axis=1)
-    return multiaxial.as_components(np.stack(cols, axis=1))
+    return tuple(cols)
 
 
 def plan(request: dict, channels: dict[str, np.ndarray], lookup=None,

@@ -72,8 +72,11 @@ def create_app(test_config: dict | None = None) -> Flask:
         from service.engine.rainflow import warm_up
         from service.engine.damage import warm_up as warm_damage
 
+        from service.engine.multiaxial import warm_up as warm_multiaxial
+
         warm_up()
         warm_damage()
+        warm_multiaxial()
 
     # One connection per request thread, kept for the thread's life: opening
     # one per request cost three PRAGMAs, and closing the last connection of

@@ -36,10 +36,13 @@ References
 from __future__ import annotations
 
 import math
+import threading
+from concurrent.futures import ThreadPoolExecutor
 from dataclasses import dataclass, field, replace
 
 import numpy as np
 
+from . import _multiaxial_kernels as _k
 from .errors import InvalidLoadHistory, InvalidParameter, unknown
 
 #: Gauge directions of the rosette layouts, from gauge a. [deg]
@@ -116,10 +119,43 @@ def rosette_strains(gauge_a, gauge_b, gauge_c, layout: str = "rectangular", *,
     if len({g.shape for g in gauges}) != 1:
         raise InvalidLoadHistory("the three gauges differ in length: "
                                  f"{[g.shape[0] for g in gauges]}", field="gauge_b")
-    readings = np.stack(gauges)
-    rows = _direction_rows(ROSETTE_LAYOUTS[layout], kt)
-    solved = np.linalg.solve(rows, readings * (1.0 - nu0 * kt))
-    return solved[0], solved[1], solved[2]
+    # The same 3 x 3 system for every sample: invert it once and combine.
+    inv = np.linalg.inv(_direction_rows(ROSETTE_LAYOUTS[layout], kt)) * (1.0 - nu0 * kt)
+    a, b, c = gauges
+    return tuple(inv[i, 0] * a + inv[i, 1] * b + inv[i, 2] * c for i in range(3))
+
+
+def rosette_plane_stress(gauge_a, gauge_b, gauge_c, layout: str = "rectangular", *,
+                         poisson_ratio: float, transverse_sensitivity: float = 0.0,
+                         calibration_poisson: float = CALIBRATION_POISSON):
+    """
+    Plane stress from rosette readings given as E times strain, in one pass.
+
+    The composition of :func:`rosette_strains` and
+    :func:`plane_stress_from_strains` with ``youngs_modulus=1`` (readings
+    that a uniaxial conversion already multiplied by E), compiled: returns
+    contiguous ``(sxx, syy, sxy)``. [MPa]
+    """
+    if layout not in ROSETTE_LAYOUTS:
+        raise unknown("layout", layout, ROSETTE_LAYOUTS)
+    kt = _finite(transverse_sensitivity, "transverse_sensitivity")
+    nu0 = _finite(calibration_poisson, "calibration_poisson")
+    nu = _finite(poisson_ratio, "poisson_ratio")
+    if not -0.5 < kt < 0.5:
+        raise InvalidParameter(f"transverse_sensitivity {kt} is not a gauge's (|Kt| < 0.5)",
+                               field="transverse_sensitivity", value=kt)
+    if not 0.0 <= nu < 0.5:
+        raise InvalidParameter(f"poisson_ratio {nu} must be in [0, 0.5)",
+                               field="poisson_ratio", value=nu)
+    gauges = [np.ascontiguousarray(_signal(g, n)) for g, n in (
+        (gauge_a, "gauge_a"), (gauge_b, "gauge_b"), (gauge_c, "gauge_c"))]
+    if len({g.shape for g in gauges}) != 1:
+        raise InvalidLoadHistory("the three gauges differ in length: "
+                                 f"{[g.shape[0] for g in gauges]}", field="gauge_b")
+    inv = np.linalg.inv(_direction_rows(ROSETTE_LAYOUTS[layout], kt)) * (1.0 - nu0 * kt)
+    out = tuple(np.empty_like(gauges[0]) for _ in range(3))
+    _k.rosette_plane_stress(*gauges, np.ascontiguousarray(inv), nu, *out)
+    return out
 
 
 def plane_stress_from_strains(strain_x, strain_y, shear_strain_xy, youngs_modulus: float,
@@ -184,6 +220,23 @@ def as_components(components) -> np.ndarray:
     return arr
 
 
+def _columns(components) -> tuple:
+    """Contiguous component columns (3 or 6) from an ``(n, 3 | 6)`` array or
+    a tuple of 3 or 6 one-dimensional arrays (the column form, no copy when
+    they are float64 and contiguous already)."""
+    if isinstance(components, tuple):
+        if len(components) not in (3, 6):
+            raise InvalidLoadHistory("give 3 (plane stress) or 6 component columns",
+                                     field="components")
+        cols = tuple(np.ascontiguousarray(_signal(c, "components")) for c in components)
+        if len({c.shape for c in cols}) != 1:
+            raise InvalidLoadHistory("component columns differ in length",
+                                     field="components")
+        return cols
+    arr = as_components(components)
+    return tuple(np.ascontiguousarray(arr[:, i]) for i in range(arr.shape[1]))
+
+
 def _full(arr: np.ndarray) -> np.ndarray:
     """(n, 6) from plane (n, 3) or 3-D (n, 6) components."""
     if arr.shape[1] == 6:
@@ -193,12 +246,12 @@ def _full(arr: np.ndarray) -> np.ndarray:
     return out
 
 
-def _parts(arr: np.ndarray) -> tuple:
-    """The six component arrays (zeros where plane stress has none), views."""
-    if arr.shape[1] == 6:
-        return tuple(arr[:, i] for i in range(6))
-    z = np.zeros(arr.shape[0])
-    return arr[:, 0], arr[:, 1], z, arr[:, 2], z, z
+def _parts(cols: tuple) -> tuple:
+    """The six component columns (zeros where plane stress has none)."""
+    if len(cols) == 6:
+        return cols
+    z = np.zeros(cols[0].shape[0])
+    return cols[0], cols[1], z, cols[2], z, z
 
 
 def _principal3(sxx, syy, szz, sxy, syz, szx):
@@ -233,11 +286,11 @@ def _largest_magnitude(p1, p3):
 def principal_stresses(components) -> np.ndarray:
     """Principal stresses of each sample, largest first: ``(n, 3)``; plane
     stress includes the free surface's zero. [MPa]"""
-    arr = as_components(components)
-    if arr.shape[1] == 3:
-        p1, p2, _ = principal_in_plane(arr[:, 0], arr[:, 1], arr[:, 2])
+    cols = _columns(components)
+    if len(cols) == 3:
+        p1, p2, _ = principal_in_plane(*cols)
         return -np.sort(-np.stack([p1, p2, np.zeros_like(p1)], axis=1), axis=1)
-    p1, p2, p3 = _principal3(*_parts(arr))
+    p1, p2, p3 = _principal3(*cols)
     # theta in [0, pi/3] orders them: cos(t) >= cos(t - 2pi/3) >= cos(t + 2pi/3).
     return np.stack([p1, p2, p3], axis=1)
 
@@ -256,7 +309,7 @@ def von_mises(components) -> np.ndarray:
     plane stress :math:`\sqrt{\sigma_x^2 - \sigma_x\sigma_y + \sigma_y^2 +
     3\tau_{xy}^2}`.
     """
-    return _von_mises6(*_parts(as_components(components)))
+    return _von_mises6(*_parts(_columns(components)))
 
 
 def _reduce_parts(parts, reduction: str, plane: bool):
@@ -312,8 +365,8 @@ def reduce(components, reduction: str) -> np.ndarray:
     """One scalar history from the components by a named reduction. [MPa]"""
     if reduction not in REDUCTION_NAMES[:-1]:
         raise unknown("reduction", reduction, REDUCTION_NAMES)
-    arr = as_components(components)
-    return _reduce_parts(_parts(arr), reduction, arr.shape[1] == 3)
+    cols = _columns(components)
+    return _reduce_parts(_parts(cols), reduction, len(cols) == 3)
 
 
 # ---------------------------------------------------------------------------- planes
@@ -332,7 +385,8 @@ def plane_normals(components, step_deg: float) -> tuple[np.ndarray, np.ndarray]:
         raise InvalidParameter(f"plane_step_deg {step} must be between 0.5 and 90",
                                field="plane_step_deg", value=step)
     az = np.arange(0.0, 180.0 - 1e-9, step)
-    if np.shape(components)[1] == 3:
+    n_comp = len(components) if isinstance(components, tuple) else np.shape(components)[1]
+    if n_comp == 3:
         a = np.radians(az)
         return np.stack([np.cos(a), np.sin(a), np.zeros_like(a)], 1), az
     polar = np.arange(step, 90.0 + 1e-9, step)
@@ -350,12 +404,16 @@ def normal_stress_on_planes(components, normals) -> np.ndarray:
     :math:`\tfrac{\sigma_x+\sigma_y}2 + \tfrac{\sigma_x-\sigma_y}2\cos2\theta
     + \tau_{xy}\sin2\theta`.
     """
-    f = _full(as_components(components))
+    cols = _columns(components)
+    return _plane_weights(normals, len(cols)) @ np.stack(cols)
+
+
+def _plane_weights(normals, n_components: int) -> np.ndarray:
+    """sigma_n = sum_ij n_i n_j S_ij: the weights of the components, per plane."""
     n = np.asarray(normals, dtype=np.float64)
-    # sigma_n = sum_ij n_i n_j S_ij: weights of the six components per plane.
     w = np.stack([n[:, 0] ** 2, n[:, 1] ** 2, n[:, 2] ** 2, 2 * n[:, 0] * n[:, 1],
                   2 * n[:, 1] * n[:, 2], 2 * n[:, 2] * n[:, 0]], axis=1)
-    return w @ f.T
+    return np.ascontiguousarray(w[:, [0, 1, 3]] if n_components == 3 else w)
 
 
 def shear_stress_on_planes(components, normals) -> np.ndarray:
@@ -385,14 +443,13 @@ def principal_rotation(components, significance: float = 0.1) -> float:
     such a sample's direction and the direction at the sample of largest
     von Mises (0 for proportional loading, up to 90).
     """
-    arr = as_components(components)
-    vm = von_mises(arr)
+    cols = _columns(components)
+    if len(cols) == 3:
+        return float(_k.plane_rotation(*cols, float(significance)))
+    vm = _von_mises6(*cols)
     if vm.max() == 0.0:
         return 0.0
-    mats = _matrices(_full(arr))
-    if arr.shape[1] == 3:
-        mats = mats[:, :2, :2]  # the surface normal is a principal direction by itself
-    vals, vecs = np.linalg.eigh(mats)
+    vals, vecs = np.linalg.eigh(_matrices(np.stack(cols, axis=1)))
     mag = np.abs(vals)
     order = np.argsort(-mag, axis=1)
     first = np.take_along_axis(mag, order[:, :1], 1)[:, 0]
@@ -446,18 +503,33 @@ class MultiaxialAssessment:
         }
 
 
+def _plane_normal(cols: tuple, plane_angle) -> np.ndarray:
+    """The unit normal of a plane given by its angle(s) as stored. [-]"""
+    if len(cols) == 3:
+        a = math.radians(float(plane_angle))
+        return np.array([[math.cos(a), math.sin(a), 0.0]])
+    p, z = (math.radians(float(v)) for v in plane_angle)
+    return np.array([[math.sin(p) * math.cos(z), math.sin(p) * math.sin(z), math.cos(p)]])
+
+
 def governing_history(components, reduction: str, plane_angle=None) -> np.ndarray:
-    """The scalar history a stored result was counted from (for recounts)."""
+    """The scalar history a stored result was counted from (for recounts),
+    computed the way :func:`assess_multiaxial` computed it. [MPa]"""
     if reduction != "critical_plane":
         return reduce(components, reduction)
-    arr = as_components(components)
-    if arr.shape[1] == 3:
-        a = math.radians(float(plane_angle))
-        n = np.array([[math.cos(a), math.sin(a), 0.0]])
+    cols = _columns(components)
+    w = _plane_weights(_plane_normal(cols, plane_angle), len(cols))[0]
+    out = np.empty(cols[0].shape[0])
+    _normal_stress(cols, w, out)
+    return out
+
+
+def _normal_stress(cols: tuple, w: np.ndarray, out: np.ndarray) -> None:
+    """Write the normal stress on the plane of weights ``w`` into ``out``."""
+    if len(cols) == 3:
+        _k.normal_stress3(*cols, w, out)
     else:
-        p, z = (math.radians(float(v)) for v in plane_angle)
-        n = np.array([[math.sin(p) * math.cos(z), math.sin(p) * math.sin(z), math.cos(p)]])
-    return normal_stress_on_planes(arr, n)[0]
+        _k.normal_stress6(*cols, w, out)
 
 
 def assess_multiaxial(components, curve, options=None, *,
@@ -468,15 +540,17 @@ def assess_multiaxial(components, curve, options=None, *,
     """
     Assess a multiaxial point by each of ``reductions``; the worst governs.
 
+    ``components``: an ``(n, 3 | 6)`` array or a tuple of 3 or 6 columns.
     Every scalar reduction and every plane of the critical-plane scan is
     counted (ASTM E1049-85) and assessed with the same curve and options;
-    planes are first assessed without reserve factor or top cycles, then the
-    governing history once in full. ``gate`` [MPa] applies to each counted
-    history. Returns a :class:`MultiaxialAssessment`.
+    planes are first assessed without reserve factor or top cycles (each
+    plane's stress written into a reused buffer, ``workers`` planes at a
+    time), then the governing history once in full. ``gate`` [MPa] applies
+    to each counted history. Returns a :class:`MultiaxialAssessment`.
     """
-    from .damage import AssessmentOptions, assess_history, assess_many
+    from .damage import AssessmentOptions, assess_history
 
-    arr = as_components(components)
+    cols = _columns(components)
     opts = options or AssessmentOptions()
     names = list(dict.fromkeys(reductions))
     if not names:
@@ -485,28 +559,43 @@ def assess_multiaxial(components, curve, options=None, *,
         if r not in REDUCTION_NAMES:
             raise unknown("reduction", r, REDUCTION_NAMES)
     light = replace(opts, reserve_factor=False, top_cycles=0)
-    histories = {r: reduce(arr, r) for r in names if r != "critical_plane"}
-    damages = {r: res.damage for r, res in assess_many(
-        histories, curve, light, gate=gate, residue=residue, duration_s=duration_s,
-        workers=workers).items()} if histories else {}
+
+    def damage_of(history):
+        return assess_history(history, curve, light, gate=gate, residue=residue,
+                              duration_s=duration_s).damage
+
+    parts = _parts(cols)
+    scalar = [r for r in names if r != "critical_plane"]
+    damages = {r: damage_of(_reduce_parts(parts, r, len(cols) == 3)) for r in scalar}
     angles = plane_damage = None
     best_plane = None
     if "critical_plane" in names:
-        normals, angles = plane_normals(arr, plane_step_deg)
-        sn = normal_stress_on_planes(arr, normals)
-        per_plane = assess_many({i: sn[i] for i in range(sn.shape[0])}, curve, light,
-                                gate=gate, residue=residue, duration_s=duration_s,
-                                workers=workers)
-        plane_damage = np.array([per_plane[i].damage for i in range(sn.shape[0])])
+        normals, angles = plane_normals(cols, plane_step_deg)
+        weights = _plane_weights(normals, len(cols))
+        local = threading.local()
+
+        def plane(k):
+            buf = getattr(local, "buf", None)
+            if buf is None:
+                buf = local.buf = np.empty(cols[0].shape[0])
+            _normal_stress(cols, weights[k], buf)
+            return damage_of(buf)
+
+        if workers > 1 and len(weights) > 1:
+            with ThreadPoolExecutor(max_workers=workers) as pool:
+                plane_damage = np.array(list(pool.map(plane, range(len(weights)))))
+        else:
+            plane_damage = np.array([plane(k) for k in range(len(weights))])
         k = int(np.argmax(plane_damage))
         best_plane = angles[k].tolist() if angles.ndim == 2 else float(angles[k])
         damages["critical_plane"] = float(plane_damage[k])
-        histories["critical_plane"] = sn[k]
     # The worst reduction governs (ties: the order given).
     worst = max(names, key=lambda r: (damages[r], -names.index(r)))
-    full = assess_history(histories[worst], curve, opts, gate=gate, residue=residue,
+    history = (governing_history(cols, worst, best_plane) if worst == "critical_plane"
+               else _reduce_parts(parts, worst, len(cols) == 3))
+    full = assess_history(history, curve, opts, gate=gate, residue=residue,
                           duration_s=duration_s)
-    rotation = principal_rotation(arr)
+    rotation = principal_rotation(cols)
     cautions = []
     if rotation > ROTATION_WARNING_DEG:
         cautions.append(
@@ -669,3 +758,8 @@ def assess_superposition(unit_stresses, load_histories, curve, options=None, *,
                       assess_history(h, curve, opts, gate=gate, duration_s=duration_s)))
     return NodeDamage(node_ids=ids, damage=damage, max_abs_equivalent=peak,
                       reduction=reduction, top=worst)
+
+
+def warm_up() -> None:
+    """Compile (or load from cache) the multiaxial kernels."""
+    _k.warm_up()

@@ -193,7 +193,7 @@ def test_uniaxial_state_reduces_to_itself_and_assesses_as_uniaxial():
     assert m.damages["critical_plane"] == pytest.approx(ref, rel=1e-12)
     assert m.plane_damage[0] == pytest.approx(ref, rel=1e-12)  # the 0 deg plane
     assert m.governing.damage == pytest.approx(ref, rel=1e-12)
-    assert m.rotation_deg == 0.0 and not m.non_proportional
+    assert m.rotation_deg == pytest.approx(0.0, abs=1e-5) and not m.non_proportional
 
 
 # ---------------------------------------------------------------- planes
@@ -286,7 +286,7 @@ def test_bad_multiaxial_requests():
     assert e.value.details["sample_index"] == 4
     # A history with no stress at all: no damage, no rotation, no NaN.
     m = assess_multiaxial(c, EN71, reductions=REDUCTION_NAMES)
-    assert all(v == 0.0 for v in m.damages.values()) and m.rotation_deg == 0.0
+    assert all(v == 0.0 for v in m.damages.values()) and m.rotation_deg == 0.0  # no stress
     assert AssessmentOptions().allowable_damage == 1.0
 
 
@@ -370,3 +370,29 @@ def test_node_damage_equals_each_node_assessed_alone_whatever_the_chunking():
         assess_superposition(u, loads[:2], EN71)
     with pytest.raises(InvalidParameter):
         assess_superposition(np.zeros((3, 3)), loads, EN71)
+
+
+def test_compiled_paths_equal_the_numpy_definitions():
+    # The one-pass kernels (rosette to plane stress, plane normal stress,
+    # principal rotation) against the numpy formulas they replace.
+    from service.engine.multiaxial import rosette_plane_stress
+
+    rng = np.random.default_rng(21)
+    a, b, c = (rng.normal(0, 300, 5000) for _ in range(3))
+    for layout in ROSETTE_LAYOUTS:
+        fused = rosette_plane_stress(a, b, c, layout, poisson_ratio=0.29,
+                                     transverse_sensitivity=0.02)
+        ref = plane_stress_from_strains(*rosette_strains(a, b, c, layout,
+                                                         transverse_sensitivity=0.02), 1.0, 0.29)
+        for f, r in zip(fused, ref):
+            assert np.allclose(f, r, rtol=1e-12, atol=1e-9)
+    comps = np.stack([a, b, c], 1)
+    normals, _ = plane_normals(comps, 10)
+    assert np.allclose(normal_stress_on_planes(tuple(comps.T), normals),
+                       normal_stress_on_planes(comps, normals), rtol=1e-12, atol=1e-9)
+    t = np.linspace(0, 10, 3000)
+    for state in (np.stack([100 * np.sin(t), 30 * np.sin(t), 50 * np.cos(t)], 1),
+                  np.stack([80 * np.sin(t), -20 * np.sin(t), 10 * np.sin(t)], 1)):
+        as_3d = np.concatenate([state, np.zeros((3000, 3))], 1)[:, [0, 1, 3, 2, 4, 5]]
+        eig = principal_rotation(as_3d)  # eigen-solver path
+        assert principal_rotation(state) == pytest.approx(eig, abs=1e-4)

@@ -1,0 +1,113 @@
+"""Compiled loops behind :mod:`service.engine.multiaxial` (plane stress).
+
+One pass each, no temporaries: on long histories numpy's chain of whole-array
+operations spent most of its time writing fresh pages for intermediates. The
+formulas are those of ``multiaxial.py`` (tests hold the two equal).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from ._numba import kernel
+
+
+@kernel
+def rosette_plane_stress(a, b, c, inv, poisson, sxx, syy, sxy):
+    """Gauge readings (E x strain) -> plane stress, sample by sample.
+
+    ``inv`` is the 3 x 3 map from readings to (ex, ey, gxy), transverse
+    correction included; Hooke's law with E = 1.
+    """
+    f = 1.0 / (1.0 - poisson * poisson)
+    g = 1.0 / (2.0 * (1.0 + poisson))
+    for i in range(a.shape[0]):
+        ex = inv[0, 0] * a[i] + inv[0, 1] * b[i] + inv[0, 2] * c[i]
+        ey = inv[1, 0] * a[i] + inv[1, 1] * b[i] + inv[1, 2] * c[i]
+        gam = inv[2, 0] * a[i] + inv[2, 1] * b[i] + inv[2, 2] * c[i]
+        sxx[i] = f * (ex + poisson * ey)
+        syy[i] = f * (ey + poisson * ex)
+        sxy[i] = g * gam
+
+
+@kernel
+def normal_stress3(sxx, syy, sxy, w, out):
+    """Normal stress on one plane of a plane stress state: out = w . (sxx, syy, sxy)."""
+    w0, w1, w2 = w[0], w[1], w[2]
+    for i in range(sxx.shape[0]):
+        out[i] = w0 * sxx[i] + w1 * syy[i] + w2 * sxy[i]
+
+
+@kernel
+def normal_stress6(sxx, syy, szz, sxy, syz, szx, w, out):
+    """Normal stress on one plane of a 3-D state: out = w . (the six components)."""
+    w0, w1, w2, w3, w4, w5 = w[0], w[1], w[2], w[3], w[4], w[5]
+    for i in range(sxx.shape[0]):
+        out[i] = (w0 * sxx[i] + w1 * syy[i] + w2 * szz[i] + w3 * sxy[i] + w4 * syz[i]
+                  + w5 * szx[i])
+
+
+@kernel
+def plane_rotation(sxx, syy, sxy, significance):
+    """Largest turn of the larger-magnitude principal direction from its
+    direction at the largest von Mises stress, over well-defined samples. [deg]
+
+    A direction (a line) at angle t is the unit vector (cos 2t, sin 2t) =
+    ((sxx - syy)/2, sxy) / R on Mohr's circle, negated when the second
+    principal is the larger in magnitude (t + 90 deg); the angle between two
+    lines is half the angle between their vectors, so one arccos at the end.
+    """
+    n = sxx.shape[0]
+    vmax = 0.0
+    for i in range(n):
+        vm = math.sqrt(sxx[i] * sxx[i] - sxx[i] * syy[i] + syy[i] * syy[i]
+                       + 3.0 * sxy[i] * sxy[i])
+        if vm > vmax:
+            vmax = vm
+    if vmax == 0.0:
+        return 0.0
+    floor = significance * vmax
+    best = -1.0
+    rx = 0.0
+    ry = 0.0
+    lowest = 1.0
+    for sweep in range(2):
+        for i in range(n):
+            vm = math.sqrt(sxx[i] * sxx[i] - sxx[i] * syy[i] + syy[i] * syy[i]
+                           + 3.0 * sxy[i] * sxy[i])
+            if vm < floor:
+                continue
+            centre = 0.5 * (sxx[i] + syy[i])
+            hx = 0.5 * (sxx[i] - syy[i])
+            radius = math.sqrt(hx * hx + sxy[i] * sxy[i])
+            a1 = abs(centre + radius)
+            a2 = abs(centre - radius)
+            hi = max(a1, a2)
+            if hi - min(a1, a2) < 0.1 * hi:
+                continue  # also radius = 0: no direction
+            sgn = -1.0 / radius if a2 > a1 else 1.0 / radius
+            dx = hx * sgn
+            dy = sxy[i] * sgn
+            if sweep == 0:
+                if vm > best:
+                    best = vm
+                    rx = dx
+                    ry = dy
+            else:
+                d = dx * rx + dy * ry
+                if d < lowest:
+                    lowest = d
+        if best < 0.0:
+            return 0.0
+    return 0.5 * math.degrees(math.acos(max(-1.0, min(1.0, lowest))))
+
+
+def warm_up() -> None:
+    x = np.array([1.0, -2.0, 3.0])
+    out = np.empty(3)
+    rosette_plane_stress(x, x, x, np.eye(3), 0.3, out, out.copy(), out.copy())
+    normal_stress3(x, x, x, np.ones(3), out)
+    normal_stress6(x, x, x, x, x, x, np.ones(6), out)
+    plane_rotation(x, x * 0.5, x * 0.2, 0.1)
