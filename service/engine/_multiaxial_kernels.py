@@ -104,10 +104,87 @@ def plane_rotation(sxx, syy, sxy, significance):
     return 0.5 * math.degrees(math.acos(max(-1.0, min(1.0, lowest))))
 
 
+#: Codes of the scalar reductions the compiled superposition knows.
+REDUCTION_CODES = {"signed_von_mises": 0, "signed_von_mises_hydrostatic": 1,
+                   "abs_max_principal": 2, "signed_tresca": 3}
+
+
+@kernel
+def _reduce_one(sxx, syy, szz, sxy, syz, szx, code):
+    """One sample's scalar by reduction ``code`` (closed-form principals)."""
+    mean = (sxx + syy + szz) / 3.0
+    dx = sxx - mean
+    dy = syy - mean
+    dz = szz - mean
+    j2 = (dx * dx + dy * dy + dz * dz) / 2.0 + sxy * sxy + syz * syz + szx * szx
+    vm = math.sqrt(3.0 * j2)
+    i1 = sxx + syy + szz
+    if code == 1:
+        return -vm if i1 < 0.0 else vm
+    if code == 0:
+        # Only the sign of the larger-magnitude principal is needed:
+        # |p1| >= |p3| iff p1 + p3 >= 0 iff p2 <= I1. The roots of h' bracket
+        # p2 (p3 <= l- <= p2 <= l+ <= p1), and h is decreasing between them,
+        # where h(I1) = I1 I2 - I3 = (p1 + p2)(p2 + p3)(p1 + p3). No trig.
+        i2 = sxx * syy + syy * szz + szz * sxx - sxy * sxy - syz * syz - szx * szx
+        i3 = (sxx * (syy * szz - syz * syz) - sxy * (sxy * szz - syz * szx)
+              + szx * (sxy * syz - syy * szx))
+        disc = i1 * i1 - 3.0 * i2
+        if disc <= 0.0:
+            tensile = i1 >= 0.0  # all three equal
+        else:
+            root = math.sqrt(disc)
+            if i1 >= (i1 + root) / 3.0:
+                tensile = True
+            elif i1 < (i1 - root) / 3.0:
+                tensile = False
+            else:
+                tensile = i1 * i2 - i3 <= 0.0
+        return vm if tensile else -vm
+    if j2 <= 0.0:
+        p1 = mean
+        p3 = mean
+    else:
+        j3 = (dx * (dy * dz - syz * syz) - sxy * (sxy * dz - syz * szx)
+              + szx * (sxy * syz - dy * szx))
+        c = 1.5 * math.sqrt(3.0) * j3 / j2 ** 1.5
+        c = max(-1.0, min(1.0, c))
+        theta = math.acos(c) / 3.0
+        r = 2.0 * math.sqrt(j2 / 3.0)
+        p1 = mean + r * math.cos(theta)
+        p3 = mean + r * math.cos(theta + 2.0 * math.pi / 3.0)
+    big = p1 if abs(p1) >= abs(p3) else p3
+    if code == 0:
+        return -vm if big < 0.0 else vm
+    if code == 2:
+        return big
+    t = p1 - p3
+    return -t if big < 0.0 else t
+
+
+@kernel
+def superposed_reduction(unit, loads, code, out):
+    """out[j, i]: node j's reduced stress at sample i, from its unit stresses
+    ``unit[j, case, component]`` times ``loads[case, i]`` (6 components)."""
+    cases = loads.shape[0]
+    s = np.empty(6)
+    for j in range(unit.shape[0]):
+        for i in range(loads.shape[1]):
+            for m in range(6):
+                s[m] = 0.0
+            for c in range(cases):
+                x = loads[c, i]
+                for m in range(6):
+                    s[m] += unit[j, c, m] * x
+            out[j, i] = _reduce_one(s[0], s[1], s[2], s[3], s[4], s[5], code)
+
+
 def warm_up() -> None:
     x = np.array([1.0, -2.0, 3.0])
     out = np.empty(3)
     rosette_plane_stress(x, x, x, np.eye(3), 0.3, out, out.copy(), out.copy())
     normal_stress3(x, x, x, np.ones(3), out)
     normal_stress6(x, x, x, x, x, x, np.ones(6), out)
+    for code in REDUCTION_CODES.values():
+        superposed_reduction(np.ones((1, 2, 6)), np.ones((2, 3)), code, np.empty((1, 3)))
     plane_rotation(x, x * 0.5, x * 0.2, 0.1)

@@ -715,11 +715,11 @@ def assess_superposition(unit_stresses, load_histories, curve, options=None, *,
     """
     Damage at every node of a finite-element model under measured loads.
 
-    Node chunks are superposed (:func:`superpose`), reduced to a scalar
-    history by ``reduction`` (a scalar reduction; a critical-plane scan of
-    every node is left to a chosen few), counted and assessed, so memory is
-    bounded by ``chunk_bytes`` of component histories whatever the node
-    count. The ``top`` nodes by damage are then assessed in full.
+    Node chunks are superposed and reduced to a scalar history by
+    ``reduction`` in one compiled pass (the formulas of :func:`superpose` and
+    :func:`reduce`; a critical-plane scan of every node is left to a chosen
+    few), then counted and assessed, so memory is bounded by ``chunk_bytes``
+    of reduced histories whatever the node count. The ``top`` nodes by damage are then assessed in full.
     ``progress(nodes_done, nodes_total)`` is called after each chunk.
     """
     from .damage import AssessmentOptions, assess_history, assess_many
@@ -736,13 +736,13 @@ def assess_superposition(unit_stresses, load_histories, curve, options=None, *,
         raise InvalidParameter("top must be a whole number >= 0", field="top")
     opts = options or AssessmentOptions()
     light = replace(opts, reserve_factor=False, top_cycles=0)
-    chunk = max(1, int(chunk_bytes // (6 * 8 * n)))
+    chunk = max(1, int(chunk_bytes // (2 * 8 * n)))  # reduced stresses and their transpose
     damage = np.empty(nodes)
     peak = np.empty(nodes)
     for lo in range(0, nodes, chunk):
         hi = min(lo + chunk, nodes)
-        comps = np.matmul(u[lo:hi].transpose(0, 2, 1), x)  # (k, 6, n)
-        reduced = _reduce_parts(tuple(comps[:, i, :] for i in range(6)), reduction, False)
+        reduced = np.empty((hi - lo, n))
+        _k.superposed_reduction(u[lo:hi], x, _k.REDUCTION_CODES[reduction], reduced)
         res = assess_many(np.ascontiguousarray(reduced.T), curve, light, gate=gate,
                           duration_s=duration_s, workers=workers)
         damage[lo:hi] = [r.damage for r in res.values()]
@@ -752,8 +752,9 @@ def assess_superposition(unit_stresses, load_histories, curve, options=None, *,
     order = np.argsort(-damage, kind="stable")[:top]
     worst = []
     for i in order:
-        comps = np.matmul(u[i].T, x)
-        h = _reduce_parts(tuple(comps[j] for j in range(6)), reduction, False)
+        h = np.empty((1, n))
+        _k.superposed_reduction(u[i:i + 1], x, _k.REDUCTION_CODES[reduction], h)
+        h = h[0]
         worst.append((ids[i].item() if hasattr(ids[i], "item") else ids[i],
                       assess_history(h, curve, opts, gate=gate, duration_s=duration_s)))
     return NodeDamage(node_ids=ids, damage=damage, max_abs_equivalent=peak,
