@@ -78,10 +78,12 @@ def _multiaxial_spec(name: str, spec, channels: dict, units: dict | None) -> dic
         raise InvalidParameter(f"multiaxial point {name!r} needs exactly one of rosette "
                                f"(with gauges) or components", field="multiaxial")
     if "rosette" in spec:
-        if spec["rosette"] not in multiaxial.ROSETTE_LAYOUTS:
+        if not isinstance(spec["rosette"], str) or (
+                spec["rosette"] not in multiaxial.ROSETTE_LAYOUTS):
             raise unknown("rosette", spec["rosette"], multiaxial.ROSETTE_LAYOUTS)
         gauges = spec.get("gauges")
-        if not (isinstance(gauges, list) and len(gauges) == 3):
+        if not (isinstance(gauges, list) and len(gauges) == 3
+                and all(isinstance(g, str) for g in gauges)):
             raise InvalidParameter("gauges must list the three channels a, b, c in layout "
                                    "order", field="gauges")
         nu = spec.get("poisson_ratio")
@@ -100,7 +102,8 @@ def _multiaxial_spec(name: str, spec, channels: dict, units: dict | None) -> dic
     else:
         comp = spec["components"]
         if not isinstance(comp, dict) or set(comp) not in (set(PLANE_COMPONENTS),
-                                                           set(SOLID_COMPONENTS)):
+                                                           set(SOLID_COMPONENTS)) or not all(
+                isinstance(v, str) for v in comp.values()):
             raise InvalidParameter("components maps sxx, syy, sxy (plane stress) or sxx, "
                                    "syy, szz, sxy, syz, szx (3-D) to channels",
                                    field="components")
@@ -161,6 +164,10 @@ def plan(request: dict, channels: dict[str, np.ndarray], lookup=None,
     if not isinstance(declared, dict):
         raise InvalidParameter("multiaxial must be an object {point: declaration}",
                                field="multiaxial")
+    for n in declared:
+        if n in channels:
+            raise InvalidParameter(f"multiaxial point {n!r} has the name of a channel: name it "
+                                   f"apart from its channels", field="multiaxial", value=n)
     specs = {n: _multiaxial_spec(n, s, channels, units) for n, s in declared.items()}
     used = {c for s in specs.values() for c in s["channels"]}
     if points is None:

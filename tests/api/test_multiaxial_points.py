@@ -116,6 +116,12 @@ def test_plane_stress_components_from_a_stored_history(client):
       "plane_step_deg": 0}, "plane_step_deg", 422),
     ({"rosette": "delta", "gauges": ["ra", "rb", "rc"], "poisson_ratio": 0.3,
       "bogus": 1}, "multiaxial", 422),
+    # Values of the wrong type where names are expected (were a 500).
+    ({"rosette": ["delta"], "gauges": ["ra", "rb", "rc"], "poisson_ratio": 0.3}, "rosette", 422),
+    ({"rosette": "delta", "gauges": [["ra"], "rb", "rc"], "poisson_ratio": 0.3}, "gauges", 422),
+    ({"components": {"sxx": ["ra"], "syy": "rb", "sxy": "rc"}}, "components", 422),
+    ({"components": {"sxx": "ra", "syy": "rb", "sxy": "rc"}, "reductions": "signed_tresca"},
+     "reductions", 422),
 ])
 def test_bad_multiaxial_declarations(client, decl, field, status):
     _, gauges = rosette_history(50)
@@ -138,3 +144,13 @@ def test_rosette_gauges_must_be_strains_and_components_stresses(client):
         "settings": {"curve": "EN1993-1-9:71"},
         "multiaxial": {"pt": {"components": {"sxx": "ra", "syy": "rb", "sxy": "rc"}}}})
     assert_problem(r, 422, "invalid-parameter", field="components")
+
+
+def test_a_multiaxial_point_is_named_apart_from_its_channels(client):
+    _, gauges = rosette_history(50)
+    r = client.post("/v1/assessments", json={
+        "samples": gauges, "unit": "microstrain", "youngs_modulus": E,
+        "settings": {"curve": "EN1993-1-9:71"},
+        "multiaxial": {"ra": {"rosette": "rectangular", "gauges": ["ra", "rb", "rc"],
+                              "poisson_ratio": 0.3}}})
+    assert_problem(r, 422, "invalid-parameter", field="multiaxial")
