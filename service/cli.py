@@ -287,6 +287,60 @@ def _cmd_post(args) -> int:
     return 1 if failed else 0
 
 
+def _cmd_batch(args) -> int:
+    """Assess every point of a Parquet dataset as Dask tasks; write the results."""
+    from service.batch.cluster import connect, scheduler_address
+    from service.batch.dataset import DatasetError, open_dataset
+    from service.batch.run import run_batch, write_results
+
+    settings = json.loads(Path(args.settings).read_text()) if args.settings else {}
+    if args.curve:
+        settings["curve"] = args.curve
+    if args.mean_stress_method:
+        settings["mean_stress_method"] = args.mean_stress_method
+    overrides = json.loads(Path(args.points).read_text()) if args.points else None
+    try:
+        ds = open_dataset(args.dataset, args.sample_rate_hz)
+    except DatasetError as exc:
+        print(f"error: {exc}", file=sys.stderr)
+        return 2
+    where = scheduler_address(args.scheduler) or "a local cluster in this process"
+    print(f"{len(ds.points)} points, {len(ds.files)} file(s), {ds.layout} layout, "
+          f"{ds.sample_bytes() / 2**20:.0f} MB of samples; running on {where}",
+          file=sys.stderr)
+
+    def bar(done, total):
+        width = 30
+        k = int(round(width * done / total))
+        print(f"\r[{'#' * k}{'.' * (width - k)}] {done}/{total} points", end="",
+              file=sys.stderr, flush=True)
+
+    with connect(args.scheduler, args.threads) as client:
+        result = run_batch(ds, settings, client, partition_points=args.partition_points,
+                           unit=args.unit, youngs_modulus=args.youngs_modulus,
+                           gate=args.gate or 0.0, overrides=overrides,
+                           progress=None if args.json else bar)
+    if not args.json:
+        print(file=sys.stderr)
+    summary = write_results(result, ds, settings, args.out)
+    if args.json:
+        print(json.dumps(summary))
+    else:
+        print(f"{summary['points_ok']} points assessed, {summary['points_failed']} failed, "
+              f"in {summary['seconds']:.1f} s; results in {args.out}/points.parquet and "
+              f"summary.json")
+        for f in summary["failed_partitions"]:
+            print(f"  partition of {len(f['points'])} points failed ({f['reason']}): "
+                  f"{', '.join(f['points'][:8])}{' ...' if len(f['points']) > 8 else ''}")
+        print(f"{'point':<24} {'damage':>12} {'life h':>12} {'reserve':>8} flags")
+        for w in summary["worst"]:
+            def fmt(v, spec):
+                return "-" if v is None else format(v, spec)
+            print(f"{w['point']:<24} {fmt(w['damage'], '12.4g')} {fmt(w['life_hours'], '12.4g')} "
+                  f"{fmt(w['reserve_factor'], '8.3f')} {w['flags']}")
+    return 1 if summary["points_failed"] else 0
+
+
 def _cmd_curves(args) -> int:
     from service.engine.sn_catalogue import catalogue_curve, designations
 
@@ -348,6 +402,8 @@ def _cmd_serve(args) -> int:
                           ("max_queued_jobs", "MAX_QUEUED_JOBS")):
         if getattr(args, flag) is not None:
             config[setting] = getattr(args, flag)
+    if args.scheduler:
+        config["DASK_SCHEDULER"] = args.scheduler
     if args.rate_per_s is not None:
         config["RATE_PER_S"] = args.rate_per_s
     if args.rate_burst is not None:
@@ -543,6 +599,26 @@ def main(argv=None) -> int:
     p.add_argument("--url", default="http://127.0.0.1:8350", help="the service")
     p.add_argument("--out", help="file to write (default: <id>.html)")
     p.set_defaults(func=_cmd_report)
+    p = sub.add_parser("batch", help="assess every point of a Parquet dataset on Dask")
+    p.add_argument("dataset", help="a Parquet file or a folder of them (successive stretches)")
+    p.add_argument("--out", required=True, help="folder for points.parquet and summary.json")
+    p.add_argument("--settings", help="JSON file: settings for every point")
+    p.add_argument("--points", help="JSON file: settings per point over --settings")
+    p.add_argument("--curve", help="catalogue designation for every point")
+    p.add_argument("--mean-stress-method", dest="mean_stress_method")
+    p.add_argument("--unit", default="MPa", help="unit of the samples (default MPa)")
+    p.add_argument("--youngs-modulus", dest="youngs_modulus", type=float,
+                   help="E in MPa, for strain units")
+    p.add_argument("--sample-rate-hz", dest="sample_rate_hz", type=float,
+                   help="when there is no time_s column")
+    p.add_argument("--gate", type=float, help="hysteresis gate in MPa")
+    p.add_argument("--partition-points", dest="partition_points", type=int, default=64,
+                   help="points a task holds (memory per task: one file of them)")
+    p.add_argument("--scheduler", help="Dask scheduler address (default: "
+                   "$CYCLELEDGER_DASK_SCHEDULER, else a local cluster in this process)")
+    p.add_argument("--threads", type=int, help="threads of the local cluster (default: cores)")
+    p.add_argument("--json", action="store_true", help="print the summary as JSON")
+    p.set_defaults(func=_cmd_batch)
     p = sub.add_parser("curves", help="list the catalogue of published S-N curves")
     p.set_defaults(func=_cmd_curves)
     p = sub.add_parser("serve", help="run the HTTP service (gunicorn, one process, threads)")
@@ -558,6 +634,8 @@ def main(argv=None) -> int:
     p.add_argument("--async-samples", dest="async_samples", type=int,
                    help="samples x points above which an assessment becomes a job "
                         "(default 2000000)")
+    p.add_argument("--scheduler", help="Dask scheduler address: jobs' points run on that "
+                   "cluster (default: $CYCLELEDGER_DASK_SCHEDULER, else in this process)")
     p.add_argument("--max-channels", dest="max_channels", type=int,
                    help="channels in one request; more get 413 (default 256)")
     p.add_argument("--max-samples-per-channel", dest="max_samples_per_channel", type=int,

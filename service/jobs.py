@@ -10,6 +10,7 @@ stopped are marked failed at the next start (``fail_interrupted_jobs``).
 from __future__ import annotations
 
 import logging
+import threading
 from concurrent.futures import ThreadPoolExecutor
 
 from service import runs
@@ -22,9 +23,25 @@ log = logging.getLogger("cycleledger.jobs")
 class JobRunner:
     """A small pool of worker threads (the kernels release the GIL)."""
 
-    def __init__(self, data_dir, workers: int = 1):
+    def __init__(self, data_dir, workers: int = 1, scheduler: str | None = None):
         self.data_dir = data_dir
         self.pool = ThreadPoolExecutor(max_workers=workers, thread_name_prefix="cycleledger-job")
+        self.scheduler = scheduler  # a Dask scheduler address: jobs' points run there
+        self._client = None
+        self._client_lock = threading.Lock()
+
+    def _runner(self):
+        """The Dask runner when a scheduler is configured (connected once)."""
+        if not self.scheduler:
+            return None
+        from distributed import Client
+
+        from service.batch.run import point_runner
+
+        with self._client_lock:
+            if self._client is None:
+                self._client = Client(self.scheduler, timeout="30s")
+            return point_runner(self._client)
 
     def submit_assessment(self, job_id: str, request: dict, load_channels, duration_s,
                           history_id, samples_file=None, *, project: str):
@@ -51,7 +68,8 @@ class JobRunner:
                 return
             row = runs.run(con, self.data_dir, request, channels, duration_s,
                            history_id, progress=progress, samples_file=samples_file,
-                           lookup=runs.store_lookup(con, project), project=project)
+                           lookup=runs.store_lookup(con, project), project=project,
+                           runner=self._runner())
             sqlite.update_job(con, job_id, state="done", assessment_id=row["id"])
         except EngineError as exc:
             sqlite.update_job(con, job_id, state="failed",
@@ -67,3 +85,6 @@ class JobRunner:
 
     def shutdown(self, wait: bool = True) -> None:
         self.pool.shutdown(wait=wait, cancel_futures=not wait)
+        if self._client is not None:
+            self._client.close()
+            self._client = None

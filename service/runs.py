@@ -290,7 +290,8 @@ def assess_point(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
 
 def run(con, data_dir, request: dict, channels: dict[str, np.ndarray],
         duration_s: float | None, history_id: str | None, progress=None,
-        samples_file: str | None = None, lookup=None, *, project: str) -> dict:
+        samples_file: str | None = None, lookup=None, *, project: str,
+        runner=None) -> dict:
     """Assess, store (in ``project``) and return the assessment row.
 
     ``samples_file`` is the stored history the channels came from; inline
@@ -298,10 +299,16 @@ def run(con, data_dir, request: dict, channels: dict[str, np.ndarray],
     stored: counting is exact and repeatable, so :func:`point_cycles`
     recounts a point from these samples when asked (a fraction of the cost
     of writing and keeping every cycle). ``progress(done, total)`` is called
-    after each point, if given.
+    after each point, if given. ``runner(points, gate, gate_fraction, residue,
+    duration_s, progress)``, if given, assesses the points elsewhere (a Dask
+    cluster) and returns ``{name: result}``.
     """
     gate, frac, residue = counting_options(request)
     points = plan(request, channels, lookup)
+    if runner is not None:
+        done = runner(points, gate, frac, residue, duration_s, progress)
+        return _store(con, request, {p.name: done[p.name] for p in points}, points, duration_s,
+                      history_id, samples_file, project)
     results = {}
 
     def one(p):
@@ -320,8 +327,15 @@ def run(con, data_dir, request: dict, channels: dict[str, np.ndarray],
     finally:
         if pool:
             pool.shutdown(cancel_futures=True)
+    return _store(con, request, results, points, duration_s, history_id, samples_file, project)
+
+
+def _store(con, request, results, points, duration_s, history_id, samples_file,
+           project) -> dict:
+    """Write an assessment's row (and its inline samples) in one transaction."""
     aid = sqlite.new_id("a")
-    row = {"id": aid, "project": project, "history_id": history_id, "created_at": sqlite.now(), "state": "done",
+    row = {"id": aid, "project": project, "history_id": history_id,
+           "created_at": sqlite.now(), "state": "done",
            "request": json_safe({k: v for k, v in request.items() if k != "samples"}),
            "result": {"points": results, "duration_s": json_safe(duration_s),
                       "units": {"stress": "MPa", "damage": "-", "life_hours": "h",

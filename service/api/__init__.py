@@ -36,7 +36,9 @@ def create_app(test_config: dict | None = None) -> Flask:
     ``OPEN_ACCESS``: answer loopback clients without a key while no key
     exists (default on; see ``access.py``);
     ``RATE_PER_S``, ``RATE_BURST``: requests a second per key and the burst
-    allowed above it (429 with Retry-After beyond; 0 = no limit).
+    allowed above it (429 with Retry-After beyond; 0 = no limit);
+    ``DASK_SCHEDULER``: a Dask scheduler address (env
+    ``CYCLELEDGER_DASK_SCHEDULER``); jobs' points then run on that cluster.
     """
     app = Flask(__name__)
     app.config.update(
@@ -49,6 +51,7 @@ def create_app(test_config: dict | None = None) -> Flask:
         MAX_QUEUED_JOBS=16,
         WARM_KERNELS=True,
         OPEN_ACCESS=True,
+        DASK_SCHEDULER=os.environ.get("CYCLELEDGER_DASK_SCHEDULER") or None,
         RATE_PER_S=50,
         RATE_BURST=100,
         JSON_SORT_KEYS=False,
@@ -67,7 +70,8 @@ def create_app(test_config: dict | None = None) -> Flask:
         con.close()
     from service.jobs import JobRunner
 
-    app.extensions["cycleledger.jobs"] = JobRunner(data_dir, int(app.config["JOB_WORKERS"]))
+    app.extensions["cycleledger.jobs"] = JobRunner(data_dir, int(app.config["JOB_WORKERS"]),
+                                                   app.config["DASK_SCHEDULER"])
     if app.config["WARM_KERNELS"]:
         from service.engine.rainflow import warm_up
         from service.engine.damage import warm_up as warm_damage

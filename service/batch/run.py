@@ -1,0 +1,150 @@
+"""Run a batch: partitions of points as Dask tasks, progress, failures, results.
+
+A partition that fails as a whole (an unreadable file, a lost worker) is
+reported with the points it held and why; every other partition's results
+are kept. Results are one row per point (Parquet) and a summary (JSON).
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import time
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import pyarrow as pa
+import pyarrow.parquet as pq
+
+from service.engine.damage import CAUTIONS
+from service.engine.settings import point_from_dict
+
+from .dataset import Dataset, partitions
+from .tasks import RESULT_COLUMNS, _failed, assess_group
+
+#: Points a partition holds unless told otherwise.
+DEFAULT_PARTITION_POINTS = 64
+
+
+@dataclass
+class BatchResult:
+    rows: list[dict]
+    failures: list[dict]
+    seconds: float
+    partitions: int
+    partition_points: int
+    peak_rss_kb: dict = field(default_factory=dict)  # worker process id -> peak RSS seen
+
+    def summary(self, dataset: Dataset, settings: dict, top: int = 10) -> dict:
+        ok = [r for r in self.rows if r["status"] == "ok"]
+        worst = sorted(ok, key=lambda r: -(r["damage"] if r["damage"] is not None
+                                            else math.inf))[:top]
+        return _json_safe({
+            "dataset": {"files": len(dataset.files), "layout": dataset.layout,
+                        "points": len(dataset.points), "rows": dataset.rows,
+                        "sample_rate_hz": dataset.sample_rate_hz},
+            "settings": settings,
+            "points_ok": len(ok), "points_failed": len(self.rows) - len(ok),
+            "partitions": self.partitions, "partition_points": self.partition_points,
+            "failed_partitions": self.failures,
+            "seconds": round(self.seconds, 3),
+            "worst": [{k: r[k] for k in ("point", "damage", "life_hours", "reserve_factor",
+                                         "flags")} for r in worst],
+            "units": {"stress": "MPa", "damage": "-", "life_hours": "h"},
+            "cautions": list(CAUTIONS),
+        })
+
+
+def _json_safe(v):
+    if isinstance(v, dict):
+        return {k: _json_safe(x) for k, x in v.items()}
+    if isinstance(v, list):
+        return [_json_safe(x) for x in v]
+    if isinstance(v, float) and not math.isfinite(v):
+        return None
+    return v
+
+
+def run_batch(dataset: Dataset, settings: dict, client, *,
+              partition_points: int = DEFAULT_PARTITION_POINTS, unit: str = "MPa",
+              youngs_modulus: float | None = None, gate: float = 0.0,
+              overrides: dict | None = None, progress=None) -> BatchResult:
+    """Assess every point of ``dataset`` on ``client``'s cluster.
+
+    Settings are checked here first (a bad setting fails at once, not in
+    every task). ``progress(points_done, points_total)`` follows the tasks.
+    """
+    from distributed import as_completed
+
+    point_from_dict(settings)
+    if partition_points < 1:
+        raise ValueError("partition_points must be at least 1")
+    groups = partitions(dataset.points, partition_points)
+    t0 = time.perf_counter()
+    futures = {}
+    for g in groups:
+        fut = client.submit(assess_group, list(dataset.files), dataset.layout, g, settings,
+                            unit=unit, youngs_modulus=youngs_modulus,
+                            sample_rate_hz=dataset.sample_rate_hz, gate=gate,
+                            overrides={p: overrides[p] for p in g if p in (overrides or {})},
+                            pure=False)
+        futures[fut] = g
+    rows: dict[str, dict] = {}
+    failures, peaks = [], {}
+    done = 0
+    for fut in as_completed(list(futures)):
+        g = futures[fut]
+        try:
+            out = fut.result()
+        except Exception as exc:  # the whole partition: name its points and why
+            failures.append({"points": g, "reason": f"{type(exc).__name__}: {exc}"})
+            rows.update({p: _failed(p, f"partition failed: {type(exc).__name__}: {exc}")
+                         for p in g})
+        else:
+            rows.update({r["point"]: r for r in out["rows"]})
+            peaks[out["pid"]] = max(peaks.get(out["pid"], 0), out["peak_rss_kb"])
+        finally:
+            fut.release()
+        done += len(g)
+        if progress is not None:
+            progress(done, len(dataset.points))
+    return BatchResult([rows[p] for p in dataset.points], failures,
+                       time.perf_counter() - t0, len(groups), partition_points, peaks)
+
+
+def write_results(result: BatchResult, dataset: Dataset, settings: dict, out_dir) -> dict:
+    """``points.parquet`` (one row per point) and ``summary.json`` in ``out_dir``."""
+    out = Path(out_dir)
+    out.mkdir(parents=True, exist_ok=True)
+    cols = {c: [r[c] for r in result.rows] for c in RESULT_COLUMNS}
+    types = {"point": pa.string(), "status": pa.string(), "flags": pa.string(),
+             "error": pa.string(), "overload_cycles": pa.int64(), "samples": pa.int64()}
+    table = pa.table({c: pa.array(v, type=types.get(c, pa.float64())) for c, v in cols.items()})
+    tmp = out / ".points.parquet.tmp"
+    pq.write_table(table, tmp)
+    tmp.replace(out / "points.parquet")
+    summary = result.summary(dataset, settings)
+    (out / "summary.json").write_text(json.dumps(summary, indent=2))
+    return summary
+
+
+def point_runner(client):
+    """A ``runner`` for :func:`service.runs.run`: each point of an assessment
+    as one task on ``client``'s cluster, progress as tasks finish."""
+    def run_points(points, gate, gate_fraction, residue, duration_s, progress):
+        from distributed import as_completed
+
+        from service.runs import assess_point
+
+        futures = {client.submit(assess_point, p, gate, gate_fraction, residue, duration_s,
+                                 pure=False): p.name for p in points}
+        out = {}
+        try:
+            for i, fut in enumerate(as_completed(list(futures)), 1):
+                out[futures[fut]] = fut.result()[0]
+                if progress is not None:
+                    progress(i, len(points))
+        finally:
+            client.cancel(list(futures))
+        return out
+    return run_points

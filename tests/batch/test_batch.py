@@ -1,0 +1,199 @@
+"""Scale-out on Dask: datasets, partitions, failures, the CLI and the API's jobs.
+
+A LocalCluster of two worker processes on loopback must give exactly what the
+single-process path gives, and both what the engine gives on each point's
+whole history (common practice: a distributed run must not change a number).
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import tempfile
+
+import numpy as np
+import pyarrow as pa
+import pyarrow.parquet as pq
+import pytest
+
+from service.batch import tasks
+from service.batch.cluster import connect
+from service.batch.dataset import DatasetError, open_dataset
+from service.batch.run import run_batch, write_results
+from service.engine.damage import AssessmentOptions, assess_history
+from service.engine.sn_catalogue import catalogue_curve
+
+EN71 = catalogue_curve("EN1993-1-9:71")
+SETTINGS = {"curve": "EN1993-1-9:71", "mean_stress_method": "goodman",
+            "ultimate_strength": 600.0}
+OPTS = AssessmentOptions(mean_stress_method="goodman", ultimate_strength=600.0)
+
+
+def histories(n_points=12, n=3000, seed=5):
+    rng = np.random.default_rng(seed)
+    return {f"p{i:02d}": np.cumsum(rng.normal(0, 12, n)) for i in range(n_points)}
+
+
+def write_wide(folder, full, pieces=3, rate=100.0):
+    n = len(next(iter(full.values())))
+    cuts = np.linspace(0, n, pieces + 1).astype(int)
+    for k in range(pieces):
+        sl = slice(cuts[k], cuts[k + 1])
+        cols = {p: x[sl] for p, x in full.items()}
+        cols["time_s"] = np.arange(cuts[k], cuts[k + 1]) / rate
+        pq.write_table(pa.table(cols), os.path.join(folder, f"run_{k:03d}.parquet"))
+
+
+def write_long(folder, full, pieces=2):
+    n = len(next(iter(full.values())))
+    cuts = np.linspace(0, n, pieces + 1).astype(int)
+    for k in range(pieces):
+        names, values = [], []
+        for p, x in full.items():
+            names += [p] * (cuts[k + 1] - cuts[k])
+            values.append(x[cuts[k]:cuts[k + 1]])
+        pq.write_table(pa.table({"point": names, "value": np.concatenate(values)}),
+                       os.path.join(folder, f"part_{k}.parquet"))
+
+
+@pytest.fixture(scope="module")
+def two_workers():
+    # Two worker processes on loopback (TOOLING: start 1-3 s); stopped here.
+    from distributed import Client, LocalCluster
+
+    os.environ.setdefault("DASK_TEMPORARY_DIRECTORY", tempfile.mkdtemp(prefix="cl-dask-"))
+    cluster = LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
+                           host="127.0.0.1", dashboard_address="127.0.0.1:0")
+    client = Client(cluster)
+    yield client
+    client.close()
+    cluster.close()
+
+
+def test_two_worker_processes_give_the_single_process_results(tmp_path, two_workers):
+    full = histories()
+    write_wide(tmp_path, full)
+    ds = open_dataset(tmp_path)
+    assert ds.layout == "wide" and ds.points == tuple(full) and ds.sample_rate_hz == 100.0
+    seen = []
+    dist = run_batch(ds, SETTINGS, two_workers, partition_points=5,
+                     progress=lambda d, t: seen.append((d, t)))
+    with connect(threads=2) as local:
+        single = run_batch(ds, SETTINGS, local, partition_points=5)
+    assert dist.rows == single.rows  # bitwise: the same function on the same bytes
+    assert len(dist.peak_rss_kb) == 2  # both worker processes took partitions
+    assert seen[-1] == (12, 12) and len(seen) == 3
+    for r in dist.rows:
+        # Counting across the file joins is exact: the engine on the whole
+        # history (sums in another order: 1e-12).
+        ref = assess_history(full[r["point"]], EN71, OPTS, duration_s=30.0)
+        assert r["status"] == "ok" and r["samples"] == 3000
+        assert r["damage"] == pytest.approx(ref.damage, rel=1e-12)
+        assert r["life_hours"] == pytest.approx(ref.life_hours, rel=1e-12)
+        assert r["reserve_factor"] == pytest.approx(ref.reserve_factor, rel=1e-9)
+
+
+def test_long_layout_gives_the_same_numbers(tmp_path):
+    full = histories(5, 2000)
+    write_long(tmp_path, full)
+    ds = open_dataset(tmp_path, sample_rate_hz=50.0)
+    assert ds.layout == "long" and set(ds.points) == set(full)
+    with connect(threads=2) as c:
+        res = run_batch(ds, SETTINGS, c, partition_points=2)
+    for r in res.rows:
+        ref = assess_history(full[r["point"]], EN71, OPTS)
+        assert r["damage"] == pytest.approx(ref.damage, rel=1e-12)
+
+
+def test_a_failed_partition_is_reported_and_the_rest_kept(tmp_path, monkeypatch):
+    full = histories(9, 1000)
+    full["p04"][500] = np.nan  # a bad sample: this point fails, its partition goes on
+    write_wide(tmp_path, full, pieces=2)
+    ds = open_dataset(tmp_path)
+    real = tasks.read_group
+
+    def flaky(file, layout, points):  # one partition's reads fail (a broken disk, say)
+        if "p06" in points:
+            raise OSError("read error on the test's purpose")
+        return real(file, layout, points)
+
+    monkeypatch.setattr(tasks, "read_group", flaky)
+    with connect(threads=2) as c:  # in-process workers: the patch applies
+        res = run_batch(ds, SETTINGS, c, partition_points=3)
+    status = {r["point"]: r for r in res.rows}
+    assert res.failures == [{"points": ["p06", "p07", "p08"],
+                             "reason": "OSError: read error on the test's purpose"}]
+    assert all(status[p]["status"] == "failed" for p in ("p06", "p07", "p08"))
+    assert status["p04"]["status"] == "failed"
+    assert "run_001.parquet row 0: sample 500 is nan" in status["p04"]["error"]
+    ok = [p for p in full if p not in ("p04", "p06", "p07", "p08")]
+    assert all(status[p]["status"] == "ok" for p in ok)
+    summary = write_results(res, ds, SETTINGS, tmp_path / "out")
+    assert summary["points_ok"] == 5 and summary["points_failed"] == 4
+    table = pq.read_table(tmp_path / "out" / "points.parquet")
+    assert table.num_rows == 9 and table.column("status").to_pylist().count("failed") == 4
+    assert json.loads((tmp_path / "out" / "summary.json").read_text())["failed_partitions"]
+
+
+def test_datasets_that_cannot_be_read(tmp_path):
+    with pytest.raises(DatasetError):
+        open_dataset(tmp_path / "nothing")
+    with pytest.raises(DatasetError):
+        open_dataset(tmp_path)  # an empty folder
+    pq.write_table(pa.table({"g": ["a", "b"]}), tmp_path / "t.parquet")
+    with pytest.raises(DatasetError, match="not numbers"):
+        open_dataset(tmp_path)
+    (tmp_path / "t.parquet").write_bytes(b"not parquet")
+    with pytest.raises(DatasetError, match="not a readable"):
+        open_dataset(tmp_path)
+
+
+def test_cli_batch_writes_results_and_names_failures(tmp_path, capsys):
+    from service.cli import main
+
+    full = histories(6, 1500)
+    data = tmp_path / "data"
+    data.mkdir()
+    write_wide(data, full, pieces=2)
+    out = tmp_path / "out"
+    code = main(["batch", str(data), "--out", str(out), "--curve", "EN1993-1-9:71",
+                 "--partition-points", "4", "--threads", "2", "--json"])
+    assert code == 0
+    summary = json.loads(capsys.readouterr().out)
+    assert summary["points_ok"] == 6 and summary["dataset"]["files"] == 2
+    rows = pq.read_table(out / "points.parquet").to_pylist()
+    ref = assess_history(full["p03"], EN71, duration_s=15.0)
+    got = next(r for r in rows if r["point"] == "p03")
+    assert got["damage"] == pytest.approx(ref.damage, rel=1e-12)
+    assert main(["batch", str(tmp_path / "missing"), "--out", str(out)]) == 2
+
+
+def test_api_jobs_run_on_the_cluster(tmp_path, two_workers):
+    # The API's async jobs use the configured scheduler: same results as
+    # the in-process job, and progress from the cluster's tasks.
+    from tests.api.conftest import make_app
+
+    x = histories(4, 20_000, seed=9)
+    body = {"samples": {k: v.tolist() for k, v in x.items()}, "unit": "MPa",
+            "sample_rate_hz": 200.0, "settings": {"curve": "EN1993-1-9:71"}}
+    results = []
+    for name, sched in (("dask", two_workers.scheduler.address), ("local", None)):
+        app = make_app(tmp_path / name, DASK_SCHEDULER=sched, WARM_KERNELS=False)
+        try:
+            c = app.test_client()
+            r = c.post("/v1/assessments", json=body, headers={"Prefer": "respond-async"})
+            assert r.status_code == 202
+            job = r.get_json()
+            import time
+            for _ in range(600):
+                job = c.get(job["links"]["self"]).get_json()
+                if job["state"] in ("done", "failed"):
+                    break
+                time.sleep(0.05)
+            assert job["state"] == "done", job
+            assert job["progress"]["points_done"] == 4
+            a = c.get(job["links"]["result"]).get_json()
+            results.append(a["points"])
+        finally:
+            app.extensions["cycleledger.jobs"].shutdown()
+    assert results[0] == results[1]
