@@ -52,3 +52,16 @@ def test_importing_the_engine_does_not_load_flask():
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
                          timeout=120, check=True)
     assert out.stdout.strip() == "False"
+
+
+BATCH = ENGINE.parent / "batch"
+BATCH_FORBIDDEN = {"flask", "werkzeug", "service.api"}
+
+
+@pytest.mark.parametrize("path", sorted(BATCH.glob("*.py")), ids=lambda p: p.name)
+def test_batch_never_touches_the_web_layer(path):
+    # Dask graphs are built from engine functions; the API calls batch, never
+    # the other way round (STYLE sec. 1).
+    bad = [m for m in _imports(path)
+           if any(m == f or m.startswith(f + ".") for f in BATCH_FORBIDDEN)]
+    assert not bad, f"{path.name} imports {bad}"

@@ -33,7 +33,9 @@ class BatchResult:
     seconds: float
     partitions: int
     partition_points: int
-    peak_rss_kb: dict = field(default_factory=dict)  # worker process id -> peak RSS seen
+    # worker process id -> the most a task raised its resident memory (bytes;
+    # with measure_memory), else the process's peak resident memory (bytes)
+    peak_memory: dict = field(default_factory=dict)
 
     def summary(self, dataset: Dataset, settings: dict, top: int = 10) -> dict:
         ok = [r for r in self.rows if r["status"] == "ok"]
@@ -68,7 +70,8 @@ def _json_safe(v):
 def run_batch(dataset: Dataset, settings: dict, client, *,
               partition_points: int = DEFAULT_PARTITION_POINTS, unit: str = "MPa",
               youngs_modulus: float | None = None, gate: float = 0.0,
-              overrides: dict | None = None, progress=None) -> BatchResult:
+              overrides: dict | None = None, progress=None,
+              measure_memory: bool = False) -> BatchResult:
     """Assess every point of ``dataset`` on ``client``'s cluster.
 
     Settings are checked here first (a bad setting fails at once, not in
@@ -87,7 +90,7 @@ def run_batch(dataset: Dataset, settings: dict, client, *,
                             unit=unit, youngs_modulus=youngs_modulus,
                             sample_rate_hz=dataset.sample_rate_hz, gate=gate,
                             overrides={p: overrides[p] for p in g if p in (overrides or {})},
-                            pure=False)
+                            measure_memory=measure_memory, pure=False)
         futures[fut] = g
     rows: dict[str, dict] = {}
     failures, peaks = [], {}
@@ -102,7 +105,8 @@ def run_batch(dataset: Dataset, settings: dict, client, *,
                          for p in g})
         else:
             rows.update({r["point"]: r for r in out["rows"]})
-            peaks[out["pid"]] = max(peaks.get(out["pid"], 0), out["peak_rss_kb"])
+            seen = out["rss_rise_bytes"] if measure_memory else out["peak_rss_kb"] * 1024
+            peaks[out["pid"]] = max(peaks.get(out["pid"], 0), seen)
         finally:
             fut.release()
         done += len(g)

@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import os
 import resource
+import threading
 import time
 
 from service.engine import units as engine_units
@@ -31,10 +32,14 @@ RESULT_COLUMNS = ("point", "status", "damage", "life_repeats", "life_hours", "li
 def assess_group(files, layout: str, points: list[str], settings: dict, *,
                  unit: str = "MPa", youngs_modulus: float | None = None,
                  sample_rate_hz: float | None = None, gate: float = 0.0,
-                 overrides: dict | None = None) -> dict:
-    """Assess ``points`` of a dataset; returns ``{"rows": [...], "peak_rss_kb",
-    "seconds"}``, one row per point (``status`` ok or failed, with ``error``)."""
+                 overrides: dict | None = None, measure_memory: bool = False) -> dict:
+    """Assess ``points`` of a dataset; returns ``{"rows": [...], "pid",
+    "peak_rss_kb", "seconds", "rss_rise_bytes"}``, one row per point
+    (``status`` ok or failed, with ``error``). ``measure_memory`` samples
+    the process's resident memory every 2 ms to report how far the task
+    raised it (``rss_rise_bytes``; None when not measured)."""
     t0 = time.perf_counter()
+    probe = _RssProbe() if measure_memory else None
     overrides = overrides or {}
     models, rows, states, tables, counts, failed = {}, {}, {}, {}, {}, {}
     for p in points:
@@ -83,7 +88,34 @@ def assess_group(files, layout: str, points: list[str], settings: dict, *,
             "flags": ";".join(s["flags"]), "error": None}
     return {"rows": [rows[p] for p in points], "pid": os.getpid(),
             "peak_rss_kb": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss,
-            "seconds": time.perf_counter() - t0}
+            "seconds": time.perf_counter() - t0,
+            "rss_rise_bytes": probe.stop() if probe else None}
+
+
+class _RssProbe:
+    """Samples this process's resident set (``/proc/self/statm``) on a thread."""
+
+    def __init__(self, every_s: float = 0.002):
+        self.page = os.sysconf("SC_PAGE_SIZE")
+        self.start = self.peak = self._rss()
+        self.every_s = every_s
+        self.done = threading.Event()
+        self.thread = threading.Thread(target=self._loop, daemon=True)
+        self.thread.start()
+
+    def _rss(self) -> int:
+        with open("/proc/self/statm") as f:
+            return int(f.read().split()[1]) * self.page
+
+    def _loop(self) -> None:
+        while not self.done.wait(self.every_s):
+            self.peak = max(self.peak, self._rss())
+
+    def stop(self) -> int:
+        self.done.set()
+        self.thread.join()
+        self.peak = max(self.peak, self._rss())
+        return self.peak - self.start
 
 
 def _num(v):

@@ -81,7 +81,7 @@ def test_two_worker_processes_give_the_single_process_results(tmp_path, two_work
     with connect(threads=2) as local:
         single = run_batch(ds, SETTINGS, local, partition_points=5)
     assert dist.rows == single.rows  # bitwise: the same function on the same bytes
-    assert len(dist.peak_rss_kb) == 2  # both worker processes took partitions
+    assert len(dist.peak_memory) == 2  # both worker processes took partitions
     assert seen[-1] == (12, 12) and len(seen) == 3
     for r in dist.rows:
         # Counting across the file joins is exact: the engine on the whole
