@@ -26,6 +26,8 @@ bench-quick: $(BIN)/.installed   ## the benchmarks' short runs
 	$(BIN)/python tests/benchmarks/bench_api.py --quick
 	$(BIN)/python tests/benchmarks/bench_ledger.py --quick
 	$(BIN)/python tests/benchmarks/bench_load.py --quick
+	$(BIN)/python tests/benchmarks/bench_multiaxial.py --quick
+	$(BIN)/python tests/benchmarks/bench_scale.py --quick
 
 bench: $(BIN)/.installed         ## the benchmarks' full runs (several minutes)
 	$(BIN)/python tests/benchmarks/bench_counting.py
@@ -33,6 +35,8 @@ bench: $(BIN)/.installed         ## the benchmarks' full runs (several minutes)
 	$(BIN)/python tests/benchmarks/bench_api.py
 	$(BIN)/python tests/benchmarks/bench_ledger.py
 	$(BIN)/python tests/benchmarks/bench_load.py
+	$(BIN)/python tests/benchmarks/bench_multiaxial.py
+	$(BIN)/python tests/benchmarks/bench_scale.py
 
 clean:
 	rm -rf $(VENV) .cache examples/data cycleledger-data
