@@ -83,6 +83,49 @@ class JobRunner:
         finally:
             con.close()
 
+    def submit_superposition(self, job_id: str, project: str, unit_set: dict, checked: dict):
+        """Queue a superposition (checked by ``superpositions.check_request``)."""
+        return self.pool.submit(self._run_superposition, job_id, project, unit_set, checked)
+
+    def _run_superposition(self, job_id, project, unit_set, checked) -> None:
+        from service import superpositions
+
+        con = sqlite.connect(self.data_dir)
+        try:
+            sqlite.update_job(con, job_id, state="running")
+            last = [0.0]
+
+            def progress(done: int, total: int) -> None:
+                import time
+
+                now = time.monotonic()  # at most a few writes a second
+                if done == total or now - last[0] > 0.25:
+                    last[0] = now
+                    sqlite.update_job(con, job_id, points_done=done)
+
+            client = None
+            if self.scheduler:
+                self._runner()  # connects once
+                client = self._client
+            row = superpositions.run(con, self.data_dir, project, unit_set, checked,
+                                     progress=progress, client=client)
+            sqlite.update_job(con, job_id, state="done", superposition_id=row["id"])
+        except FileNotFoundError:
+            sqlite.update_job(con, job_id, state="failed", error={
+                "title": "Unit stresses deleted",
+                "detail": f"unit stresses {unit_set['id']} were deleted before the job ran"})
+        except EngineError as exc:
+            sqlite.update_job(con, job_id, state="failed",
+                              error={"title": "Invalid input", "detail": exc.message,
+                                     **runs.json_safe(exc.as_dict())})
+        except Exception:
+            log.exception("job %s failed", job_id)
+            sqlite.update_job(con, job_id, state="failed",
+                              error={"title": "Internal error",
+                                     "detail": "the job failed; it has been logged"})
+        finally:
+            con.close()
+
     def shutdown(self, wait: bool = True) -> None:
         self.pool.shutdown(wait=wait, cancel_futures=not wait)
         if self._client is not None:

@@ -95,12 +95,12 @@ def create_app(test_config: dict | None = None) -> Flask:
 
     problems.register(app)
     from . import (access, assessments, catalogue, histories, ledger, library, meta, metrics,
-                   reports)
+                   reports, superpositions)
 
     metrics.install(app)
     access.install(app)
     for bp in (meta.bp, histories.bp, assessments.bp, catalogue.bp, library.bp, ledger.bp,
-               metrics.bp, reports.bp):
+               metrics.bp, reports.bp, superpositions.bp):
         app.register_blueprint(bp)
     return app
 

@@ -123,6 +123,9 @@ def job_resource(job: dict) -> dict:
     if job["assessment_id"]:
         out["links"]["result"] = url_for("assessments.get_one",
                                          assessment_id=job["assessment_id"])
+    if job.get("superposition_id"):
+        out["links"]["result"] = url_for("superpositions.get_one",
+                                         sup_id=job["superposition_id"])
     if job["error"]:
         out["error"] = job["error"]
     return out

@@ -152,3 +152,53 @@ def point_runner(client):
             client.cancel(list(futures))
         return out
     return run_points
+
+
+def superpose_on_cluster(client, unit, loads, curve, options, *, node_ids, reduction: str,
+                         top: int, gate: float = 0.0, duration_s=None, progress=None,
+                         chunk_nodes: int = 2000):
+    """:func:`service.engine.multiaxial.assess_superposition` over node chunks
+    as Dask tasks; the same numbers, node for node, as one process."""
+    import numpy as np
+    from distributed import as_completed
+
+    from service.engine.multiaxial import NodeDamage
+
+    ids = np.array(node_ids, dtype=object)
+    loads_f = client.scatter(loads, broadcast=True)
+    futures = {}
+    for lo in range(0, unit.shape[0], chunk_nodes):
+        hi = min(lo + chunk_nodes, unit.shape[0])
+        fut = client.submit(_superpose_chunk, unit[lo:hi], loads_f, curve, options, reduction,
+                            ids[lo:hi], top, gate, duration_s, pure=False)
+        futures[fut] = (lo, hi)
+    damage = np.empty(unit.shape[0])
+    peak = np.empty(unit.shape[0])
+    tops = []
+    done = 0
+    try:
+        for fut in as_completed(list(futures)):
+            lo, hi = futures[fut]
+            nd = fut.result()
+            damage[lo:hi] = nd.damage
+            peak[lo:hi] = nd.max_abs_equivalent
+            tops += nd.top
+            done += hi - lo
+            if progress is not None:
+                progress(done, unit.shape[0])
+    finally:
+        client.cancel(list(futures))
+    # The worst of every chunk's worst: the global worst, in the same order as
+    # one process (damage descending, then node order).
+    order = {n: i for i, n in enumerate(node_ids)}
+    tops.sort(key=lambda t: (-t[1].damage, order[t[0]]))
+    return NodeDamage(node_ids=ids, damage=damage, max_abs_equivalent=peak,
+                      reduction=reduction, top=tops[:top])
+
+
+def _superpose_chunk(unit, loads, curve, options, reduction, ids, top, gate, duration_s):
+    from service.engine.multiaxial import assess_superposition
+
+    return assess_superposition(unit, loads, curve, options, reduction=reduction,
+                                node_ids=ids, top=top, gate=gate, duration_s=duration_s,
+                                workers=1)

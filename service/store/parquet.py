@@ -17,6 +17,8 @@ import pyarrow.parquet as pq
 
 HISTORIES = "histories"
 BLOCKS = "blocks"
+UNIT_STRESSES = "unit_stresses"
+SUPERPOSITIONS = "superpositions"
 TMP_PREFIX = ".tmp-"
 _TMP = TMP_PREFIX
 
@@ -48,6 +50,16 @@ def write_columns(data_dir: str | Path, folder: str, name: str,
     # trying dictionaries first made the write 2.5x slower.
     return _atomic(data_dir, folder, name, lambda tmp: pq.write_table(
         table, tmp, compression="none", use_dictionary=False))
+
+
+def write_table(data_dir: str | Path, folder: str, name: str, table: pa.Table) -> str:
+    """Write an Arrow table as ``<folder>/<name>.parquet`` (atomic, fsynced)."""
+    return _atomic(data_dir, folder, name, lambda tmp: pq.write_table(table, tmp))
+
+
+def read_table(data_dir: str | Path, rel: str, columns=None) -> pa.Table:
+    """A stored file as an Arrow table."""
+    return pq.read_table(Path(data_dir) / rel, columns=columns, memory_map=True)
 
 
 def adopt(data_dir: str | Path, folder: str, name: str, path: str | Path) -> str:
@@ -97,7 +109,7 @@ def sweep(data_dir: str | Path, referenced: set[str] | None = None) -> int:
     database row was never committed. Only for a start-up, while no request
     is writing. Returns how many files went."""
     n = 0
-    for folder in (HISTORIES, BLOCKS):
+    for folder in (HISTORIES, BLOCKS, UNIT_STRESSES, SUPERPOSITIONS):
         for p in (Path(data_dir) / folder).glob("*"):
             rel = f"{folder}/{p.name}"
             if p.name.startswith(_TMP) or (referenced is not None and p.is_file()

@@ -57,7 +57,31 @@ CREATE TABLE IF NOT EXISTS jobs (
     points_total    INTEGER NOT NULL,
     points_done     INTEGER NOT NULL DEFAULT 0,
     assessment_id   TEXT,
+    superposition_id TEXT,
     error           TEXT             -- JSON problem details when failed
+);
+
+-- Finite-element unit-load stresses (per node and load case) and the
+-- superpositions run with them: damage per node under measured loads.
+CREATE TABLE IF NOT EXISTS unit_stress_sets (
+    id              TEXT PRIMARY KEY,
+    project         TEXT NOT NULL,
+    name            TEXT,
+    created_at      TEXT NOT NULL,
+    nodes           INTEGER NOT NULL,
+    load_cases      TEXT NOT NULL,   -- JSON list, in the order of the stored array
+    components      INTEGER NOT NULL,-- 3 (plane stress) or 6
+    file            TEXT NOT NULL    -- Parquet: node, load_case, components (MPa per load unit)
+);
+
+CREATE TABLE IF NOT EXISTS superpositions (
+    id              TEXT PRIMARY KEY,
+    project         TEXT NOT NULL,
+    unit_stress_id  TEXT,
+    created_at      TEXT NOT NULL,
+    request         TEXT NOT NULL,   -- JSON: settings as posted (without the loads)
+    result          TEXT NOT NULL,   -- JSON: summary and the worst nodes in full
+    nodes_file      TEXT NOT NULL    -- Parquet: node, damage, max_abs_equivalent
 );
 
 -- What users enter themselves: S-N curves (from points or Basquin constants)

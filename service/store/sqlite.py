@@ -184,7 +184,7 @@ def insert_job(con, project: str, job_id: str, kind: str, points_total: int) -> 
 
 def update_job(con, job_id: str, **fields) -> None:
     """Set some of state, points_done, assessment_id, error (a dict)."""
-    allowed = {"state", "points_done", "assessment_id", "error"}
+    allowed = {"state", "points_done", "assessment_id", "superposition_id", "error"}
     if set(fields) - allowed:
         raise ValueError(f"not job fields: {set(fields) - allowed}")
     if "error" in fields and fields["error"] is not None:
@@ -215,7 +215,8 @@ def referenced_files(con) -> set[str]:
     """Every data file a row names (relative to the data directory)."""
     out = set()
     for sql in ("SELECT file FROM histories", "SELECT file FROM blocks",
-                "SELECT samples_file FROM assessments WHERE samples_file IS NOT NULL"):
+                "SELECT samples_file FROM assessments WHERE samples_file IS NOT NULL",
+                "SELECT file FROM unit_stress_sets", "SELECT nodes_file FROM superpositions"):
         out.update(r[0] for r in con.execute(sql))
     return out
 
@@ -227,6 +228,58 @@ def fail_interrupted_jobs(con) -> int:
     with write(con):
         return con.execute("UPDATE jobs SET state = 'failed', error = ?, updated_at = ? "
                            "WHERE state IN ('queued', 'running')", (err, now())).rowcount
+
+
+# ---------------------------------------------------------------- FE superposition
+
+
+def insert_unit_stress_set(con, row: dict) -> None:
+    con.execute("INSERT INTO unit_stress_sets (id, project, name, created_at, nodes, load_cases, "
+                "components, file) VALUES (?, ?, ?, ?, ?, ?, ?, ?)",
+                (row["id"], row["project"], row.get("name"), row["created_at"], row["nodes"],
+                 json.dumps(row["load_cases"]), row["components"], row["file"]))
+
+
+def _unit_set(r) -> dict | None:
+    if r is None:
+        return None
+    out = dict(r)
+    out["load_cases"] = json.loads(out["load_cases"])
+    return out
+
+
+def get_unit_stress_set(con, project: str, set_id: str) -> dict | None:
+    return _unit_set(con.execute("SELECT * FROM unit_stress_sets WHERE id = ? AND project = ?",
+                                 (set_id, project)).fetchone())
+
+
+def list_unit_stress_sets(con, project: str) -> list[dict]:
+    return [_unit_set(r) for r in con.execute(
+        "SELECT * FROM unit_stress_sets WHERE project = ? ORDER BY created_at DESC, id",
+        (project,))]
+
+
+def delete_unit_stress_set(con, project: str, set_id: str) -> bool:
+    return con.execute("DELETE FROM unit_stress_sets WHERE id = ? AND project = ?",
+                       (set_id, project)).rowcount > 0
+
+
+def insert_superposition(con, row: dict) -> None:
+    con.execute("INSERT INTO superpositions (id, project, unit_stress_id, created_at, request, "
+                "result, nodes_file) VALUES (?, ?, ?, ?, ?, ?, ?)",
+                (row["id"], row["project"], row["unit_stress_id"], row["created_at"],
+                 json.dumps(row["request"]), json.dumps(row["result"]), row["nodes_file"]))
+
+
+def get_superposition(con, project: str, sup_id: str) -> dict | None:
+    r = con.execute("SELECT * FROM superpositions WHERE id = ? AND project = ?",
+                    (sup_id, project)).fetchone()
+    if r is None:
+        return None
+    out = dict(r)
+    out["request"] = json.loads(out["request"])
+    out["result"] = json.loads(out["result"])
+    return out
 
 
 # ---------------------------------------------------------------- user curves, materials

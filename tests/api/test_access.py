@@ -21,6 +21,7 @@ from service.api.access import PUBLIC, ROUTE_SCOPES, required_scope
 from service.store import keys, sqlite
 from tests.api.conftest import assert_problem, make_app
 from tests.api.test_ledger import pq_bytes
+from tests.api.test_superpositions import unit_table
 
 PARQUET = "application/vnd.apache.parquet"
 CA = np.tile([-60.0, 60.0], 400)  # constant amplitude, 120 MPa range
@@ -81,8 +82,23 @@ def populate(c, h) -> dict:
     r = c.post("/v1/assets/a-asset/blocks?seq=1&sample_rate_hz=50", headers=h,
                data=pq_bytes({"a-point": CA}), content_type=PARQUET)
     assert r.status_code == 201, r.get_json()
-    return {"history": hid, "assessment": aid, "job": jid, "block": r.get_json()["block"]["id"],
-            "names": ["a-hist", "a-curve", "a-steel", "a-asset", "a-point"]}
+    block_id = r.get_json()["block"]["id"]
+    from tests.api.test_superpositions import run_superposition
+
+    r = c.post("/v1/unit-stresses?name=a-model", data=unit_table(nodes=3)[0], headers=h,
+               content_type=PARQUET)
+    assert r.status_code == 201, r.get_json()
+    uid = r.get_json()["id"]
+    c.environ_base["HTTP_AUTHORIZATION"] = h["Authorization"]  # for the polling helper
+    try:
+        sup = run_superposition(c, {"unit_stresses_id": uid,
+                                    "loads": {"lift": [0.0, 1.0, -1.0], "slew": [0, 2, 0]},
+                                    "settings": {"curve": "EN1993-1-9:71"}})
+    finally:
+        c.environ_base.pop("HTTP_AUTHORIZATION")
+    return {"history": hid, "assessment": aid, "job": jid, "block": block_id,
+            "unit": uid, "superposition": sup["id"],
+            "names": ["a-hist", "a-curve", "a-steel", "a-asset", "a-point", "a-model"]}
 
 
 def cases(a: dict) -> list[tuple]:
@@ -90,6 +106,7 @@ def cases(a: dict) -> list[tuple]:
     with none of A's names or ids), or a status for creates that refer to A's
     resources by name. Destructive cases last."""
     hid, aid, jid, bid = a["history"], a["assessment"], a["job"], a["block"]
+    uid, sid = a["unit"], a["superposition"]
     block = dict(data=pq_bytes({"a-point": CA}), content_type=PARQUET)
     return [
         ("GET", "/v1/histories", "/v1/histories", {}, "hidden"),
@@ -144,12 +161,23 @@ def cases(a: dict) -> list[tuple]:
         ("GET", "/v1/assets/<asset>/blocks/<block_id>", f"/v1/assets/a-asset/blocks/{bid}",
          {}, 404),
         ("GET", "/v1/feeds/points", "/v1/feeds/points", {}, "hidden"),
+        ("GET", "/v1/unit-stresses", "/v1/unit-stresses", {}, "hidden"),
+        ("GET", "/v1/unit-stresses/<set_id>", f"/v1/unit-stresses/{uid}", {}, 404),
+        ("POST", "/v1/unit-stresses", "/v1/unit-stresses",
+         dict(data=unit_table(nodes=2)[0], content_type=PARQUET), "hidden"),
+        ("POST", "/v1/superpositions", "/v1/superpositions",
+         dict(json={"unit_stresses_id": uid, "loads": {"lift": [0, 1], "slew": [1, 0]},
+                    "settings": {"curve": "EN1993-1-9:71"}}), 404),
+        ("GET", "/v1/superpositions/<sup_id>", f"/v1/superpositions/{sid}", {}, 404),
+        ("GET", "/v1/superpositions/<sup_id>/nodes", f"/v1/superpositions/{sid}/nodes", {},
+         404),
         ("GET", "/metrics", "/metrics", {}, "hidden"),
         ("POST", "/v1/assets/<asset>/blocks/<block_id>/void",
          f"/v1/assets/a-asset/blocks/{bid}/void", {}, 404),
         ("DELETE", "/v1/user-curves/<name>", "/v1/user-curves/a-curve", {}, 404),
         ("DELETE", "/v1/materials/<name>", "/v1/materials/a-steel", {}, 404),
         ("DELETE", "/v1/histories/<history_id>", f"/v1/histories/{hid}", {}, 404),
+        ("DELETE", "/v1/unit-stresses/<set_id>", f"/v1/unit-stresses/{uid}", {}, 404),
     ]
 
 

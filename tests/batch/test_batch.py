@@ -197,3 +197,48 @@ def test_api_jobs_run_on_the_cluster(tmp_path, two_workers):
         finally:
             app.extensions["cycleledger.jobs"].shutdown()
     assert results[0] == results[1]
+
+
+def test_fe_superposition_on_the_cluster_equals_one_process(two_workers, tmp_path):
+    # Node chunks as tasks on two worker processes: node for node the numbers
+    # of one process, and the same worst nodes in the same order.
+    from service.batch.run import superpose_on_cluster
+    from service.engine.multiaxial import assess_superposition
+
+    rng = np.random.default_rng(12)
+    unit = rng.normal(0, 30, size=(230, 3, 6))
+    t = np.arange(1500)
+    loads = np.stack([np.sin(t / 5.0), np.cos(t / 13.0), rng.normal(0, 0.4, t.size)])
+    ids = [f"n{i}" for i in range(230)]
+    seen = []
+    dist = superpose_on_cluster(two_workers, unit, loads, EN71, OPTS, node_ids=ids,
+                                reduction="signed_von_mises", top=7, chunk_nodes=50,
+                                progress=lambda d, n: seen.append(d))
+    one = assess_superposition(unit, loads, EN71, OPTS, node_ids=np.array(ids, dtype=object),
+                               top=7)
+    assert np.array_equal(dist.damage, one.damage)
+    assert [n for n, _ in dist.top] == [n for n, _ in one.top]
+    assert [r.damage for _, r in dist.top] == [r.damage for _, r in one.top]
+    assert sorted(seen)[-1] == 230 and len(seen) == 5
+
+
+def test_api_superposition_job_runs_on_the_cluster(tmp_path, two_workers):
+    from tests.api.conftest import make_app
+    from tests.api.test_superpositions import PARQUET, loads, run_superposition, unit_table
+
+    raw, _, _ = unit_table(nodes=120)
+    L = loads(800)
+    out = []
+    for name, sched in (("dask", two_workers.scheduler.address), ("local", None)):
+        app = make_app(tmp_path / name, DASK_SCHEDULER=sched, WARM_KERNELS=False)
+        try:
+            c = app.test_client()
+            u = c.post("/v1/unit-stresses", data=raw, content_type=PARQUET).get_json()
+            res = run_superposition(c, {"unit_stresses_id": u["id"],
+                                        "loads": {"lift": L[0].tolist(), "slew": L[1].tolist()},
+                                        "settings": {"curve": "EN1993-1-9:71"}, "top": 4})
+            nodes = c.get(res["links"]["nodes"] + "?limit=1000").get_json()["items"]
+            out.append((res["top"], nodes))
+        finally:
+            app.extensions["cycleledger.jobs"].shutdown()
+    assert out[0] == out[1]
