@@ -97,8 +97,10 @@ def open_dataset(path: str | Path, sample_rate_hz: float | None = None) -> Datas
 def read_group(file: str, layout: str, points: list[str]) -> dict[str, np.ndarray]:
     """The samples of ``points`` in one file (absent points are left out). [as stored]"""
     if layout == "wide":
-        present = [p for p in points if p in pq.read_schema(file).names]
-        table = pq.read_table(file, columns=present)
+        pf = pq.ParquetFile(file, memory_map=True)
+        names = set(pf.schema_arrow.names)
+        present = [p for p in points if p in names]
+        table = pf.read(columns=present)
         return {p: table.column(p).to_numpy().astype(np.float64, copy=False) for p in present}
     table = pq.read_table(file, columns=list(LONG_COLUMNS),
                           filters=[("point", "in", list(points))])
