@@ -34,7 +34,7 @@ REQUEST_KEYS = {"history_id", "samples", "unit", "units", "youngs_modulus", "sam
 #: Keys of a multiaxial point's declaration.
 MULTIAXIAL_KEYS = {"rosette", "gauges", "poisson_ratio", "transverse_sensitivity",
                    "calibration_poisson", "components", "reductions", "plane_step_deg",
-                   "settings"}
+                   "settings", "shear_settings"}
 PLANE_COMPONENTS = ("sxx", "syy", "sxy")
 SOLID_COMPONENTS = ("sxx", "syy", "szz", "sxy", "syz", "szx")
 
@@ -199,6 +199,23 @@ def plan(request: dict, channels: dict[str, np.ndarray], lookup=None,
         if lookup is not None:
             merged = resolve(merged, lookup)
         point_from_dict(merged)
+        shear = declared[name].get("shear_settings")
+        if "critical_plane_shear" in spec["reductions"]:
+            if not isinstance(shear, dict):
+                raise InvalidParameter(f"multiaxial point {name!r}: critical_plane_shear needs "
+                                       f"shear_settings with a shear curve (for example "
+                                       f"EN1993-1-9:shear-100)", field="shear_settings")
+            if spec["kind"] == "tensor":
+                raise InvalidParameter("critical_plane_shear is for plane stress (rosettes, "
+                                       "sxx/syy/sxy)", field="reductions")
+            shear = {**defaults, **shear}
+            if lookup is not None:
+                shear = resolve(shear, lookup)
+            point_from_dict(shear)
+            spec["shear_settings"] = shear
+        elif shear is not None:
+            raise InvalidParameter("shear_settings apply to the critical_plane_shear reduction",
+                                   field="shear_settings")
         out.append(PlannedPoint(name, {c: channels[c] for c in spec["channels"]}, merged,
                                 spec))
     return out
@@ -256,6 +273,7 @@ def assess_point(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
     curve, opts, estimate = point_from_dict(point.settings)
     extra_cautions: tuple = ()
     block = None
+    settings_used = point.settings
     if point.multiaxial is None:
         g = resolve_gate(point.samples, gate or 0.0, gate_fraction)
         table = astm_e1049(point.samples, gate=g, residue=residue)
@@ -265,12 +283,18 @@ def assess_point(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
         comps = components_of(point)
         g = resolve_gate(multiaxial.reduce(comps, "signed_von_mises"), gate or 0.0,
                          gate_fraction)
+        shear_curve = shear_opts = None
+        if "shear_settings" in spec:
+            shear_curve, shear_opts, _ = point_from_dict(spec["shear_settings"])
         m = multiaxial.assess_multiaxial(comps, curve, opts, reductions=spec["reductions"],
                                          plane_step_deg=spec["plane_step_deg"], gate=g,
                                          residue=residue, duration_s=duration_s,
-                                         workers=POINT_WORKERS)
+                                         workers=POINT_WORKERS, shear_curve=shear_curve,
+                                         shear_options=shear_opts)
         r, extra_cautions = m.governing, m.cautions
         block = {**spec, **m.summary()}
+        if m.reduction == "critical_plane_shear":
+            settings_used = spec["shear_settings"]  # the governing result's curve
     out = r.summary()
     out.update(
         point=point.name,
@@ -280,7 +304,7 @@ def assess_point(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
         curve=r.curve,
         estimate=estimate.as_dict() if estimate is not None else None,
         settings={**r.options, "residue": residue},
-        settings_used=point.settings,
+        settings_used=settings_used,
         cautions=[c for c in r.cautions if c not in CAUTIONS] + list(extra_cautions),
     )
     if block is not None:

@@ -124,8 +124,8 @@ def check_request(body: dict, unit_set: dict) -> dict:
         raise InvalidParameter("settings must be an object", field="settings")
     point_from_dict(settings)
     reduction = body.get("reduction", "signed_von_mises")
-    if reduction not in multiaxial.REDUCTION_NAMES[:-1]:
-        raise unknown("reduction", reduction, multiaxial.REDUCTION_NAMES[:-1])
+    if reduction not in multiaxial.SCALAR_REDUCTIONS:
+        raise unknown("reduction", reduction, multiaxial.SCALAR_REDUCTIONS)
     top = body.get("top", 10)
     if isinstance(top, bool) or not isinstance(top, int) or not 0 <= top <= MAX_TOP:
         raise InvalidParameter(f"top must be a whole number 0..{MAX_TOP}", field="top")

@@ -355,15 +355,19 @@ def signed_tresca(components) -> np.ndarray:
     return reduce(components, "signed_tresca")
 
 
-#: Scalar reductions; ``critical_plane`` is handled by :func:`assess_multiaxial`
-#: (it needs the curve).
-REDUCTION_NAMES = ("signed_von_mises", "signed_von_mises_hydrostatic", "abs_max_principal",
-                   "signed_tresca", "critical_plane")
+#: Scalar reductions (one signal from the state).
+SCALAR_REDUCTIONS = ("signed_von_mises", "signed_von_mises_hydrostatic", "abs_max_principal",
+                     "signed_tresca")
+#: Plane scans, done by :func:`assess_multiaxial` (they need the curve):
+#: normal stress on each plane, and (plane stress) the in-plane shear stress
+#: on each plane, assessed with a shear curve.
+PLANE_REDUCTIONS = ("critical_plane", "critical_plane_shear")
+REDUCTION_NAMES = SCALAR_REDUCTIONS + PLANE_REDUCTIONS
 
 
 def reduce(components, reduction: str) -> np.ndarray:
     """One scalar history from the components by a named reduction. [MPa]"""
-    if reduction not in REDUCTION_NAMES[:-1]:
+    if reduction not in SCALAR_REDUCTIONS:
         raise unknown("reduction", reduction, REDUCTION_NAMES)
     cols = _columns(components)
     return _reduce_parts(_parts(cols), reduction, len(cols) == 3)
@@ -485,6 +489,7 @@ class MultiaxialAssessment:
     plane_angle: object = None
     plane_angles: np.ndarray = field(default=None, repr=False)
     plane_damage: np.ndarray = field(default=None, repr=False)
+    shear_plane_damage: np.ndarray = field(default=None, repr=False)
     rotation_deg: float = 0.0
     non_proportional: bool = False
     cautions: tuple = ()
@@ -505,20 +510,32 @@ class MultiaxialAssessment:
 
 def _plane_normal(cols: tuple, plane_angle) -> np.ndarray:
     """The unit normal of a plane given by its angle(s) as stored. [-]"""
+    # The same numpy expressions as plane_normals, so the weights are the
+    # scan's to the last bit.
     if len(cols) == 3:
-        a = math.radians(float(plane_angle))
-        return np.array([[math.cos(a), math.sin(a), 0.0]])
-    p, z = (math.radians(float(v)) for v in plane_angle)
-    return np.array([[math.sin(p) * math.cos(z), math.sin(p) * math.sin(z), math.cos(p)]])
+        a = np.radians(np.array([float(plane_angle)]))
+        return np.stack([np.cos(a), np.sin(a), np.zeros_like(a)], 1)
+    p, z = (np.radians(np.array([float(v)])) for v in plane_angle)
+    return np.stack([np.sin(p) * np.cos(z), np.sin(p) * np.sin(z), np.cos(p)], -1)
+
+
+def _shear_weights(angles_deg) -> np.ndarray:
+    """Weights of (sxx, syy, sxy) giving the in-plane shear stress on planes at
+    these angles: -(sx - sy)/2 sin 2t + txy cos 2t (Mohr's circle, signed)."""
+    t2 = np.radians(2.0 * np.asarray(angles_deg, dtype=np.float64))
+    return np.ascontiguousarray(np.stack([-0.5 * np.sin(t2), 0.5 * np.sin(t2), np.cos(t2)], 1))
 
 
 def governing_history(components, reduction: str, plane_angle=None) -> np.ndarray:
     """The scalar history a stored result was counted from (for recounts),
     computed the way :func:`assess_multiaxial` computed it. [MPa]"""
-    if reduction != "critical_plane":
+    if reduction not in PLANE_REDUCTIONS:
         return reduce(components, reduction)
     cols = _columns(components)
-    w = _plane_weights(_plane_normal(cols, plane_angle), len(cols))[0]
+    if reduction == "critical_plane_shear":
+        w = _shear_weights([float(plane_angle)])[0]
+    else:
+        w = _plane_weights(_plane_normal(cols, plane_angle), len(cols))[0]
     out = np.empty(cols[0].shape[0])
     _normal_stress(cols, w, out)
     return out
@@ -536,9 +553,15 @@ def assess_multiaxial(components, curve, options=None, *,
                       reductions=("signed_von_mises", "critical_plane"),
                       plane_step_deg: float = 10.0, gate: float = 0.0,
                       residue: str = "half_cycles", duration_s: float | None = None,
-                      workers: int = 2) -> MultiaxialAssessment:
+                      workers: int = 2, shear_curve=None,
+                      shear_options=None) -> MultiaxialAssessment:
     """
     Assess a multiaxial point by each of ``reductions``; the worst governs.
+
+    ``critical_plane_shear`` (plane stress only) counts the in-plane shear
+    stress on each plane and assesses it with ``shear_curve`` and
+    ``shear_options`` (a shear S-N curve, e.g. EN 1993-1-9 shear with m = 5);
+    the others use ``curve`` and ``options``.
 
     ``components``: an ``(n, 3 | 6)`` array or a tuple of 3 or 6 columns.
     Every scalar reduction and every plane of the critical-plane scan is
@@ -558,43 +581,61 @@ def assess_multiaxial(components, curve, options=None, *,
     for r in names:
         if r not in REDUCTION_NAMES:
             raise unknown("reduction", r, REDUCTION_NAMES)
+    if "critical_plane_shear" in names:
+        if len(cols) != 3:
+            raise InvalidParameter("critical_plane_shear is for plane stress (a free surface); "
+                                   "use critical_plane for 3-D states", field="reductions")
+        if shear_curve is None:
+            raise InvalidParameter("critical_plane_shear needs a shear S-N curve "
+                                   "(shear_settings)", field="shear_settings")
+    shear_opts = shear_options or AssessmentOptions()
     light = replace(opts, reserve_factor=False, top_cycles=0)
+    shear_light = replace(shear_opts, reserve_factor=False, top_cycles=0)
 
-    def damage_of(history):
-        return assess_history(history, curve, light, gate=gate, residue=residue,
+    def damage_of(history, shear=False):
+        return assess_history(history, shear_curve if shear else curve,
+                              shear_light if shear else light, gate=gate, residue=residue,
                               duration_s=duration_s).damage
 
     parts = _parts(cols)
-    scalar = [r for r in names if r != "critical_plane"]
+    scalar = [r for r in names if r not in PLANE_REDUCTIONS]
     damages = {r: damage_of(_reduce_parts(parts, r, len(cols) == 3)) for r in scalar}
-    angles = plane_damage = None
-    best_plane = None
-    if "critical_plane" in names:
-        normals, angles = plane_normals(cols, plane_step_deg)
-        weights = _plane_weights(normals, len(cols))
-        local = threading.local()
+    angles = None
+    scans, best = {}, {}
+    local = threading.local()
 
+    def scan(weights, shear):
         def plane(k):
             buf = getattr(local, "buf", None)
             if buf is None:
                 buf = local.buf = np.empty(cols[0].shape[0])
             _normal_stress(cols, weights[k], buf)
-            return damage_of(buf)
+            return damage_of(buf, shear)
 
         if workers > 1 and len(weights) > 1:
             with ThreadPoolExecutor(max_workers=workers) as pool:
-                plane_damage = np.array(list(pool.map(plane, range(len(weights)))))
-        else:
-            plane_damage = np.array([plane(k) for k in range(len(weights))])
-        k = int(np.argmax(plane_damage))
-        best_plane = angles[k].tolist() if angles.ndim == 2 else float(angles[k])
-        damages["critical_plane"] = float(plane_damage[k])
+                return np.array(list(pool.map(plane, range(len(weights)))))
+        return np.array([plane(k) for k in range(len(weights))])
+
+    for r in PLANE_REDUCTIONS:
+        if r not in names:
+            continue
+        normals, angles = plane_normals(cols, plane_step_deg)
+        weights = (_shear_weights(angles) if r == "critical_plane_shear"
+                   else _plane_weights(normals, len(cols)))
+        scans[r] = scan(weights, r == "critical_plane_shear")
+        k = int(np.argmax(scans[r]))
+        best[r] = angles[k].tolist() if angles.ndim == 2 else float(angles[k])
+        damages[r] = float(scans[r][k])
     # The worst reduction governs (ties: the order given).
     worst = max(names, key=lambda r: (damages[r], -names.index(r)))
-    history = (governing_history(cols, worst, best_plane) if worst == "critical_plane"
+    history = (governing_history(cols, worst, best[worst]) if worst in PLANE_REDUCTIONS
                else _reduce_parts(parts, worst, len(cols) == 3))
-    full = assess_history(history, curve, opts, gate=gate, residue=residue,
+    shear = worst == "critical_plane_shear"
+    full = assess_history(history, shear_curve if shear else curve,
+                          shear_opts if shear else opts, gate=gate, residue=residue,
                           duration_s=duration_s)
+    plane_damage = scans.get("critical_plane")
     rotation = principal_rotation(cols)
     cautions = []
     if rotation > ROTATION_WARNING_DEG:
@@ -604,8 +645,8 @@ def assess_multiaxial(components, curve, options=None, *,
             f"here. Prefer the critical-plane result and confirm by test.")
     return MultiaxialAssessment(
         reduction=worst, governing=full, damages=damages,
-        plane_angle=best_plane if worst == "critical_plane" else None,
-        plane_angles=angles, plane_damage=plane_damage, rotation_deg=rotation,
+        plane_angle=best.get(worst), plane_angles=angles, plane_damage=plane_damage,
+        shear_plane_damage=scans.get("critical_plane_shear"), rotation_deg=rotation,
         non_proportional=rotation > ROTATION_WARNING_DEG, cautions=tuple(cautions))
 
 
@@ -724,8 +765,8 @@ def assess_superposition(unit_stresses, load_histories, curve, options=None, *,
     """
     from .damage import AssessmentOptions, assess_history, assess_many
 
-    if reduction not in REDUCTION_NAMES[:-1]:
-        raise unknown("reduction", reduction, REDUCTION_NAMES[:-1])
+    if reduction not in SCALAR_REDUCTIONS:
+        raise unknown("reduction", reduction, SCALAR_REDUCTIONS)
     u = _unit_array(unit_stresses)
     x = _load_array(load_histories, u.shape[1])
     nodes, n = u.shape[0], x.shape[1]

@@ -154,3 +154,41 @@ def test_a_multiaxial_point_is_named_apart_from_its_channels(client):
         "multiaxial": {"ra": {"rosette": "rectangular", "gauges": ["ra", "rb", "rc"],
                               "poisson_ratio": 0.3}}})
     assert_problem(r, 422, "invalid-parameter", field="multiaxial")
+
+
+def test_shear_planes_over_http(client):
+    # Torsion-like loading (only txy): with critical_plane_shear and the EN
+    # 1993-1-9 shear curve, the result names the reduction that governed and
+    # its cycles and S-N plot use the shear curve.
+    t = np.linspace(0, 40 * np.pi, 4001)
+    tau = (90 * np.sin(t) + 20 * np.sin(7.3 * t)).tolist()
+    zero = [0.0] * len(tau)
+    r = client.post("/v1/assessments", json={
+        "samples": {"sx": zero, "sy": zero, "txy": tau}, "unit": "MPa",
+        "settings": {"curve": "EN1993-1-9:71"},
+        "multiaxial": {"shaft": {"components": {"sxx": "sx", "syy": "sy", "sxy": "txy"},
+                                 "reductions": ["critical_plane", "critical_plane_shear"],
+                                 "plane_step_deg": 15,
+                                 "shear_settings": {"curve": "EN1993-1-9:shear-80"}}}})
+    assert r.status_code == 201, r.get_json()
+    a = r.get_json()
+    p = a["points"]["shaft"]
+    ref_shear = assess_history(np.asarray(tau), catalogue_curve("EN1993-1-9:shear-80")).damage
+    ref_normal = assess_history(np.asarray(tau), EN71).damage
+    assert p["multiaxial"]["damages"]["critical_plane_shear"] == pytest.approx(ref_shear,
+                                                                              rel=1e-12)
+    assert p["multiaxial"]["damages"]["critical_plane"] == pytest.approx(ref_normal, rel=1e-12)
+    assert p["damage"] == pytest.approx(max(ref_shear, ref_normal), rel=1e-12)
+    governing = p["multiaxial"]["reduction"]
+    assert p["curve"]["name"] == ("EN1993-1-9:shear-80" if governing == "critical_plane_shear"
+                                  else "EN1993-1-9:71")
+    cyc = client.get(f"/v1/assessments/{a['id']}/points/shaft/cycles").get_json()
+    assert sum(cyc["damage"]) == pytest.approx(p["damage"], rel=1e-9)
+    assert client.get(f"/v1/assessments/{a['id']}/plots/sn?point=shaft").status_code == 200
+    # Without shear settings, or on a 3-D state: refused up front.
+    r = client.post("/v1/assessments", json={
+        "samples": {"sx": zero, "sy": zero, "txy": tau}, "unit": "MPa",
+        "settings": {"curve": "EN1993-1-9:71"},
+        "multiaxial": {"shaft": {"components": {"sxx": "sx", "syy": "sy", "sxy": "txy"},
+                                 "reductions": ["critical_plane_shear"]}}})
+    assert_problem(r, 422, "invalid-parameter", field="shear_settings")

@@ -184,11 +184,11 @@ def test_uniaxial_state_reduces_to_itself_and_assesses_as_uniaxial():
     rng = np.random.default_rng(7)
     x = np.cumsum(rng.normal(0, 15, 4000))
     c = np.stack([x, np.zeros_like(x), np.zeros_like(x)], 1)
-    for name in REDUCTION_NAMES[:-1]:
+    for name in REDUCTION_NAMES[:4]:  # the scalar ones
         if name != "signed_von_mises_hydrostatic":
             assert reduce(c, name) == pytest.approx(x, abs=1e-12), name
     ref = assess_history(x, EN71).damage
-    m = assess_multiaxial(c, EN71, reductions=REDUCTION_NAMES, plane_step_deg=10)
+    m = assess_multiaxial(c, EN71, reductions=REDUCTION_NAMES[:5], plane_step_deg=10)
     assert m.damages["signed_von_mises"] == pytest.approx(ref, rel=1e-12)
     assert m.damages["critical_plane"] == pytest.approx(ref, rel=1e-12)
     assert m.plane_damage[0] == pytest.approx(ref, rel=1e-12)  # the 0 deg plane
@@ -285,7 +285,7 @@ def test_bad_multiaxial_requests():
         von_mises(bad)
     assert e.value.details["sample_index"] == 4
     # A history with no stress at all: no damage, no rotation, no NaN.
-    m = assess_multiaxial(c, EN71, reductions=REDUCTION_NAMES)
+    m = assess_multiaxial(c, EN71, reductions=REDUCTION_NAMES[:5])
     assert all(v == 0.0 for v in m.damages.values()) and m.rotation_deg == 0.0  # no stress
     assert AssessmentOptions().allowable_damage == 1.0
 
@@ -422,3 +422,33 @@ def test_compiled_superposed_reduction_equals_superpose_then_reduce():
     superposed_reduction(states[:, None, :], np.ones((1, 1)), 0, out)
     vm = von_mises(states)
     assert out[:, 0] == pytest.approx([vm[0], -vm[1], vm[2], -vm[3], -vm[4]], rel=1e-12)
+
+
+def test_shear_planes_are_assessed_with_a_shear_curve():
+    # Pure shear txy(t) (Mohr's circle): the in-plane shear on the 0 deg plane
+    # is txy itself, so critical_plane_shear assessed with the EN 1993-1-9
+    # shear curve (m = 5) equals the uniaxial assessment of txy on that
+    # curve; the normal stress on the 45 deg plane is txy too.
+    from service.engine.sn_catalogue import catalogue_curve as cc
+
+    shear = cc("EN1993-1-9:shear-100")
+    tau = np.cumsum(np.random.default_rng(6).normal(0, 14, 3000))
+    c = np.stack([np.zeros_like(tau), np.zeros_like(tau), tau], 1)
+    m = assess_multiaxial(c, EN71, reductions=("critical_plane", "critical_plane_shear"),
+                          plane_step_deg=15, shear_curve=shear)
+    ref_shear = assess_history(tau, shear).damage
+    ref_normal = assess_history(tau, EN71).damage
+    assert m.shear_plane_damage[0] == pytest.approx(ref_shear, rel=1e-12)
+    assert m.plane_damage[3] == pytest.approx(ref_normal, rel=1e-12)  # 45 deg
+    assert m.damages["critical_plane_shear"] == pytest.approx(ref_shear, rel=1e-12)
+    worst = max(ref_shear, ref_normal)
+    assert m.governing.damage == pytest.approx(worst, rel=1e-12)
+    if m.reduction == "critical_plane_shear":
+        assert m.governing.curve["name"] == shear.name
+        h = governing_history(c, m.reduction, m.plane_angle)
+        assert assess_history(h, shear).damage == pytest.approx(m.governing.damage, rel=1e-12)
+    with pytest.raises(InvalidParameter):
+        assess_multiaxial(c, EN71, reductions=("critical_plane_shear",))  # no shear curve
+    with pytest.raises(InvalidParameter):
+        assess_multiaxial(np.zeros((5, 6)), EN71, reductions=("critical_plane_shear",),
+                          shear_curve=shear)
