@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import logging
 import threading
+import time
 from concurrent.futures import ThreadPoolExecutor
 
 from service import runs
@@ -50,27 +51,16 @@ class JobRunner:
         return self.pool.submit(self._run, job_id, request, load_channels, duration_s,
                                 history_id, samples_file, project)
 
-    def _run(self, job_id, request, load_channels, duration_s, history_id,
-             samples_file, project) -> None:
+    def _guarded(self, job_id: str, work, missing: dict) -> None:
+        """Run ``work(con)`` as job ``job_id``: running, then done with what
+        ``work`` returns ({column: value}) or failed with problem details.
+        ``missing`` is the error when an input file was deleted meanwhile."""
         con = sqlite.connect(self.data_dir)
         try:
             sqlite.update_job(con, job_id, state="running")
-
-            def progress(done: int, total: int) -> None:
-                sqlite.update_job(con, job_id, points_done=done)
-
-            try:
-                channels = load_channels()
-            except FileNotFoundError:
-                sqlite.update_job(con, job_id, state="failed", error={
-                    "title": "History deleted",
-                    "detail": f"history {history_id} was deleted before the job ran"})
-                return
-            row = runs.run(con, self.data_dir, request, channels, duration_s,
-                           history_id, progress=progress, samples_file=samples_file,
-                           lookup=runs.store_lookup(con, project), project=project,
-                           runner=self._runner())
-            sqlite.update_job(con, job_id, state="done", assessment_id=row["id"])
+            sqlite.update_job(con, job_id, state="done", **work(con))
+        except FileNotFoundError:
+            sqlite.update_job(con, job_id, state="failed", error=missing)
         except EngineError as exc:
             sqlite.update_job(con, job_id, state="failed",
                               error={"title": "Invalid input", "detail": exc.message,
@@ -82,6 +72,31 @@ class JobRunner:
                                      "detail": "the job failed; it has been logged"})
         finally:
             con.close()
+
+    @staticmethod
+    def _progress(con, job_id: str):
+        """A progress callback writing at most a few times a second."""
+        last = [0.0]
+
+        def progress(done: int, total: int) -> None:
+            now = time.monotonic()
+            if done == total or now - last[0] > 0.25:
+                last[0] = now
+                sqlite.update_job(con, job_id, points_done=done)
+        return progress
+
+    def _run(self, job_id, request, load_channels, duration_s, history_id,
+             samples_file, project) -> None:
+        def work(con):
+            channels = load_channels()
+            row = runs.run(con, self.data_dir, request, channels, duration_s, history_id,
+                           progress=self._progress(con, job_id), samples_file=samples_file,
+                           lookup=runs.store_lookup(con, project), project=project,
+                           runner=self._runner())
+            return {"assessment_id": row["id"]}
+
+        self._guarded(job_id, work, {"title": "History deleted", "detail": f"history "
+                                     f"{history_id} was deleted before the job ran"})
 
     def submit_superposition(self, job_id: str, project: str, unit_set: dict, checked: dict):
         """Queue a superposition (checked by ``superpositions.check_request``)."""
@@ -90,41 +105,18 @@ class JobRunner:
     def _run_superposition(self, job_id, project, unit_set, checked) -> None:
         from service import superpositions
 
-        con = sqlite.connect(self.data_dir)
-        try:
-            sqlite.update_job(con, job_id, state="running")
-            last = [0.0]
-
-            def progress(done: int, total: int) -> None:
-                import time
-
-                now = time.monotonic()  # at most a few writes a second
-                if done == total or now - last[0] > 0.25:
-                    last[0] = now
-                    sqlite.update_job(con, job_id, points_done=done)
-
+        def work(con):
             client = None
             if self.scheduler:
                 self._runner()  # connects once
                 client = self._client
             row = superpositions.run(con, self.data_dir, project, unit_set, checked,
-                                     progress=progress, client=client)
-            sqlite.update_job(con, job_id, state="done", superposition_id=row["id"])
-        except FileNotFoundError:
-            sqlite.update_job(con, job_id, state="failed", error={
-                "title": "Unit stresses deleted",
-                "detail": f"unit stresses {unit_set['id']} were deleted before the job ran"})
-        except EngineError as exc:
-            sqlite.update_job(con, job_id, state="failed",
-                              error={"title": "Invalid input", "detail": exc.message,
-                                     **runs.json_safe(exc.as_dict())})
-        except Exception:
-            log.exception("job %s failed", job_id)
-            sqlite.update_job(con, job_id, state="failed",
-                              error={"title": "Internal error",
-                                     "detail": "the job failed; it has been logged"})
-        finally:
-            con.close()
+                                     progress=self._progress(con, job_id), client=client)
+            return {"superposition_id": row["id"]}
+
+        self._guarded(job_id, work, {"title": "Unit stresses deleted", "detail": f"unit "
+                                     f"stresses {unit_set['id']} were deleted before the job "
+                                     f"ran"})
 
     def shutdown(self, wait: bool = True) -> None:
         self.pool.shutdown(wait=wait, cancel_futures=not wait)

@@ -18,6 +18,7 @@ from service.engine import multiaxial
 from service.engine.damage import CAUTIONS
 from service.engine.errors import InvalidLoadHistory, InvalidParameter, unknown
 from service.engine.settings import point_from_dict
+from service.runs import json_safe
 from service.store import parquet, sqlite
 
 PLANE = ("sxx", "syy", "sxy")
@@ -172,7 +173,7 @@ def run(con, data_dir, project: str, unit_set: dict, checked: dict, progress=Non
         "damage_max": float(nd.damage.max()) if nd.damage.size else 0.0,
         "nodes_over_allowable": int((nd.damage >= allowable).sum()),
         "damage_median": float(np.median(finite)) if finite.size else None,
-        "top": [{"node": _plain(n), **_json_safe(r.summary()), "top_cycles": r.top_cycles,
+        "top": [{"node": _plain(n), **json_safe(r.summary()), "top_cycles": r.top_cycles,
                  "runout": math.isinf(r.life_repeats)} for n, r in nd.top],
         "units": {"stress": "MPa", "damage": "-", "life_hours": "h"},
         "cautions": list(CAUTIONS) + [
@@ -183,7 +184,7 @@ def run(con, data_dir, project: str, unit_set: dict, checked: dict, progress=Non
            "created_at": sqlite.now(),
            "request": {k: v for k, v in checked.items() if k != "loads"} | {
                "unit_stresses_id": unit_set["id"]},
-           "result": _json_safe(result), "nodes_file": rel}
+           "result": json_safe(result), "nodes_file": rel}
     try:
         with sqlite.write(con):
             sqlite.insert_superposition(con, row)
@@ -195,15 +196,3 @@ def run(con, data_dir, project: str, unit_set: dict, checked: dict, progress=Non
 
 def _plain(v):
     return v.item() if hasattr(v, "item") else v
-
-
-def _json_safe(v):
-    if isinstance(v, dict):
-        return {k: _json_safe(x) for k, x in v.items()}
-    if isinstance(v, (list, tuple)):
-        return [_json_safe(x) for x in v]
-    if isinstance(v, np.generic):
-        v = v.item()
-    if isinstance(v, float) and not math.isfinite(v):
-        return None
-    return v
