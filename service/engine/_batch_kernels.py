@@ -75,7 +75,9 @@ def reserve_search(frm, to, cnt, load_factor, model, segments, target, d, slope,
     prev_ok = False
     prev_x = 0.0
     prev_f = 0.0
+    prev_g = math.nan  # the exact slope f' at prev_x
     for _ in range(100):
+        g = slope  # exact slope at this point (before any secant replaces it)
         if d == 0.0:
             f = -math.inf
         elif d == math.inf:
@@ -95,6 +97,17 @@ def reserve_search(frm, to, cnt, load_factor, model, segments, target, d, slope,
             has_hi = True
         if x_hi - x_lo < 1e-10:
             break
+        if (prev_ok and abs(f) < 1e-3 and g > 0 and prev_g > 0 and abs(prev_f) < math.inf
+                and x != prev_x):
+            # Close already: a Newton step corrected for the curvature seen
+            # between the last two exact slopes. Taken without another pass
+            # when that correction is tiny (the terms it leaves are smaller
+            # still, far below the 1e-8 that ends the search).
+            newton = -f / g
+            corr = 0.5 * (g - prev_g) / (x - prev_x) * newton * newton / g
+            x_new = x + newton - corr
+            if abs(corr) < 1e-7 and x_lo < x_new < x_hi:
+                return math.exp(x_new)
         if (prev_ok and abs(f) < math.inf and abs(prev_f) < math.inf
                 and 0 < abs(x - prev_x) < 0.05):
             secant = (f - prev_f) / (x - prev_x)
@@ -103,6 +116,7 @@ def reserve_search(frm, to, cnt, load_factor, model, segments, target, d, slope,
         prev_ok = True
         prev_x = x
         prev_f = f
+        prev_g = g
         x_new = math.nan
         if slope > 0 and abs(f) < math.inf:
             x_new = x - f / slope

@@ -59,6 +59,35 @@ def turning_points_plain(x, xbits, first, prev, direction, out):
 
 
 @kernel
+def direction_before(x, h, first, prev, direction):
+    """The direction ``turning_points_plain`` holds after ``x[:h]``: the sign
+    of the last nonzero step (against ``prev`` for the first sample of a
+    continued block), else ``direction``."""
+    j = h - 1
+    while j >= 1:
+        dx = x[j] - x[j - 1]
+        if dx > 0.0:
+            return 1
+        if dx < 0.0:
+            return -1
+        j -= 1
+    if not first and h >= 1:
+        dx = x[0] - prev
+        if dx > 0.0:
+            return 1
+        if dx < 0.0:
+            return -1
+    return direction
+
+
+@kernel
+def shift_codes(codes, src, dst, k, add):
+    """codes[dst:dst + k] = codes[src:src + k] + add, in place (dst <= src)."""
+    for i in range(k):
+        codes[dst + i] = codes[src + i] + add
+
+
+@kernel
 def turning_points_gated(x, xbits, gate, first, st_v, st_d, out):
     """Turning points of one block behind a hysteresis gate.
 

@@ -300,11 +300,11 @@ def _points(x: np.ndarray, state: CountingState | None, gate: float, final: bool
     first = state is None
     offset = 0 if first else state.samples_seen
     xbits = x.view(np.int64)
-    codes = _codes_buffer(n + 1)
+    codes = _codes_buffer(n + 2)
     if gate == 0.0:
         prev = 0.0 if first else state.candidate_value
-        k, d, bad = _k.turning_points_plain(x, xbits, first, prev,
-                                            0 if first else state.direction, codes)
+        k, d, bad = _plain_points(x, xbits, first, prev, 0 if first else state.direction,
+                                  codes)
         pre_v = np.array([prev, 0.0, 0.0])
         pre_i = np.array([0 if first else state.candidate_index, 0, 0], np.int64)
         if n:
@@ -345,6 +345,32 @@ def _points(x: np.ndarray, state: CountingState | None, gate: float, final: bool
             f"sample {offset + j} is {x[j]}; samples must be finite numbers",
             sample_index=offset + j)
     return codes, int(k), pre_v, pre_i, after
+
+
+#: Samples from which the ungated turning-point pass runs on two threads.
+_SPLIT_SAMPLES = 1 << 18
+
+
+def _plain_points(x, xbits, first: bool, prev: float, direction: int, codes):
+    """``turning_points_plain`` over the block, in two halves on two threads
+    when it is long. The state a half starts from is known without the other
+    half (the last sample before it and the sign of the last nonzero step),
+    so the halves are exact; the second half's codes are moved down after the
+    first's. ``codes`` holds ``len(x) + 2``."""
+    n = x.shape[0]
+    if n < _SPLIT_SAMPLES:
+        return _k.turning_points_plain(x, xbits, first, prev, direction, codes)
+    from ._threads import helper
+
+    h = n // 2
+    d_h = _k.direction_before(x, h, first, prev, direction)
+    later = helper().submit(_k.turning_points_plain, x[h:], xbits[h:], False, x[h - 1], d_h,
+                            codes[h + 1:])
+    k1, _, bad1 = _k.turning_points_plain(x[:h], xbits[:h], first, prev, direction,
+                                          codes[:h + 1])
+    k2, d, bad2 = later.result()
+    _k.shift_codes(codes, h + 1, k1, k2, h)  # local to the second half -> to the block
+    return k1 + k2, d, bad1 | bad2
 
 
 def _capacity(points: int, residue: int) -> int:

@@ -1,6 +1,7 @@
 """Miner damage, life, reserve factor and equivalent range."""
 
 import math
+from dataclasses import replace
 
 import numpy as np
 import pytest
@@ -292,3 +293,25 @@ def test_same_cycles_give_bitwise_the_same_result_in_any_memory(method):
             r = assess(moved, EN71, opts)
             assert (r.damage, r.reserve_factor, r.equivalent_range) == (
                 ref.damage, ref.reserve_factor, ref.equivalent_range), (shift, readonly)
+
+
+def test_long_tables_split_the_first_pass_without_changing_the_numbers():
+    # Above 2^17 cycles the first pass runs on two threads, one half each;
+    # per-cycle damage is the same bitwise and the sums agree with the
+    # one-thread pass to rounding (regression pin of the split, common practice).
+    from service.engine import _damage_kernels as dk
+    from service.engine.damage import _SPLIT_CYCLES, _Evaluator
+
+    x = np.random.default_rng(5).standard_normal(600_000) * 60 + 15
+    table = astm_e1049(x)
+    assert len(table) >= _SPLIT_CYCLES
+    opts = AssessmentOptions(mean_stress_method="goodman", ultimate_strength=700.0)
+    r = assess(table, EN71, opts)
+    ev = _Evaluator(table, EN71, opts)
+    rows = np.empty(len(table))
+    whole = dk.damage_pass(*ev.cols, 1.0, *ev.args, rows, True)
+    assert np.array_equal(rows, r.damage_per_cycle)
+    assert r.damage == pytest.approx(whole[0], rel=1e-13)
+    assert r.damage == pytest.approx(math.fsum(rows), rel=1e-12)
+    assert r.equivalent_range == pytest.approx(
+        assess(table, EN71, replace(opts, reserve_factor=False)).equivalent_range, rel=0)
