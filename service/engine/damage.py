@@ -434,6 +434,7 @@ def _assess_batch(array: np.ndarray, curve: SNCurve, opts: AssessmentOptions,
     stats = np.zeros((points, 7))
     top = np.full((points, k_top), -1, np.int64)
     echo, description = opts.echo(), curve.description
+    seg_py = segments.tolist()
 
     # Runs of points: at most _BATCH_POINTS (buffers grow with it), and at
     # least two runs a worker so the threads finish together.
@@ -466,12 +467,16 @@ def _assess_batch(array: np.ndarray, curve: SNCurve, opts: AssessmentOptions,
                            opts.allowable_damage, bool(opts.reserve_factor), k_top, per_cycle,
                            st, top[j:j + b])
         out = []
+        # Plain Python numbers from here on: numpy scalars cost several
+        # times more in the per-point bookkeeping, which holds the GIL.
+        rows_py, offs_py, st_py = nrows.tolist(), offsets.tolist(), st.tolist()
+        tops_py = top[j:j + b, :opts.top_cycles].tolist()
         for r in range(b):
-            m, o = int(nrows[r]), int(offsets[r])
+            m, o = rows_py[r], offs_py[r]
             table = CycleTable(frm[r, :m], to[r, :m], cnt[r, :m], s_ix[r, :m], e_ix[r, :m])
-            d, over, max_sr, eq_sum, max_range, reserve, total = st[r, :7]
-            max_inv = _dk.inverse_life(segments, max_sr) if max_sr > 0 else 0.0
-            tops = top[j + r, :opts.top_cycles] if opts.top_cycles else ()
+            d, over, max_sr, eq_sum, max_range, reserve, total = st_py[r]
+            max_inv = _dk.inverse_life(seg_py, max_sr) if max_sr > 0 else 0.0
+            tops = tops_py[r] if opts.top_cycles else ()
             out.append((str(j + r), _assemble(
                 table, per_cycle[o:o + m], tops, d, over, max_inv, eq_sum, max_range, total,
                 None if math.isnan(reserve) else float(reserve), curve, opts, duration_s,
