@@ -194,32 +194,30 @@ def stack_pass(tp, j, ntp, x, offset, pre_v, pre_i, sv, si, sp, half_rule,
         else:
             v = pre_v[-code - 1]
             g = pre_i[-code - 1]
-        sv[sp] = v
-        si[sp] = g
-        sp += 1
-        while sp >= 3:
-            x3 = sv[sp - 1]
-            x2 = sv[sp - 2]
-            x1 = sv[sp - 3]
-            if abs(x3 - x2) < abs(x2 - x1):
+        # The new point X3 = v stays in a register until no range closes: it
+        # is compared with the top two entries, which close as a cycle while
+        # |X3 - X2| >= |X2 - X1|; then it is pushed once.
+        while sp >= 2:
+            x2 = sv[sp - 1]
+            x1 = sv[sp - 2]
+            if abs(v - x2) < abs(x2 - x1):
                 break
             frm[m] = x1
             to[m] = x2
-            s_ix[m] = si[sp - 3]
-            e_ix[m] = si[sp - 2]
-            if sp == 3 and half_rule:
+            s_ix[m] = si[sp - 2]
+            e_ix[m] = si[sp - 1]
+            if sp == 2 and half_rule:
                 # Y holds the starting point: half cycle, drop the start.
                 cnt[m] = 0.5
                 sv[0] = x2
                 si[0] = si[1]
-                sv[1] = x3
-                si[1] = si[2]
-                sp = 2
+                sp = 1
             else:
                 cnt[m] = 1.0
-                sv[sp - 3] = x3
-                si[sp - 3] = si[sp - 1]
                 sp -= 2
             m += 1
+        sv[sp] = v
+        si[sp] = g
+        sp += 1
         j += 1
     return j, sp, m
