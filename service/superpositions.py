@@ -185,12 +185,7 @@ def run(con, data_dir, project: str, unit_set: dict, checked: dict, progress=Non
            "request": {k: v for k, v in checked.items() if k != "loads"} | {
                "unit_stresses_id": unit_set["id"]},
            "result": json_safe(result), "nodes_file": rel}
-    try:
-        with sqlite.write(con):
-            sqlite.insert_superposition(con, row)
-    except BaseException:
-        parquet.remove(data_dir, rel)
-        raise
+    sqlite.insert_owning_file(con, sqlite.insert_superposition, row, data_dir, row["nodes_file"])
     return row
 
 

@@ -22,8 +22,12 @@ def _imports(path: Path):
 
 @pytest.mark.parametrize("path", sorted(ENGINE.glob("*.py")), ids=lambda p: p.name)
 def test_engine_module_imports_nothing_outside_its_layer(path):
+    _check(path, FORBIDDEN)
+
+
+def _check(path: Path, forbidden) -> None:
     bad = [m for m in _imports(path)
-           if any(m == f or m.startswith(f + ".") for f in FORBIDDEN)]
+           if any(m == f or m.startswith(f + ".") for f in forbidden)]
     assert not bad, f"{path.name} imports {bad}"
 
 
@@ -39,9 +43,7 @@ STORE_FORBIDDEN = {"flask", "werkzeug", "service.api", "dask", "distributed"}
 
 @pytest.mark.parametrize("path", sorted(STORE.glob("*.py")), ids=lambda p: p.name)
 def test_store_never_touches_requests(path):
-    bad = [m for m in _imports(path)
-           if any(m == f or m.startswith(f + ".") for f in STORE_FORBIDDEN)]
-    assert not bad, f"{path.name} imports {bad}"
+    _check(path, STORE_FORBIDDEN)
 
 
 def test_importing_the_engine_does_not_load_flask():
@@ -54,6 +56,7 @@ def test_importing_the_engine_does_not_load_flask():
     assert out.stdout.strip() == "False"
 
 
+
 BATCH = ENGINE.parent / "batch"
 BATCH_FORBIDDEN = {"flask", "werkzeug", "service.api"}
 
@@ -62,6 +65,4 @@ BATCH_FORBIDDEN = {"flask", "werkzeug", "service.api"}
 def test_batch_never_touches_the_web_layer(path):
     # Dask graphs are built from engine functions; the API calls batch, never
     # the other way round (STYLE sec. 1).
-    bad = [m for m in _imports(path)
-           if any(m == f or m.startswith(f + ".") for f in BATCH_FORBIDDEN)]
-    assert not bad, f"{path.name} imports {bad}"
+    _check(path, BATCH_FORBIDDEN)

@@ -51,13 +51,7 @@ def upload():
     row = {"id": hid, "project": project(), "name": up.name, "created_at": sqlite.now(),
            "sample_count": up.sample_count, "sample_rate_hz": up.sample_rate_hz,
            "duration_s": up.duration_s, "channels": channels, "file": rel}
-    con = db()
-    try:
-        with sqlite.write(con):
-            sqlite.insert_history(con, row)
-    except BaseException:
-        parquet.remove(data_dir(), rel)
-        raise
+    sqlite.insert_owning_file(db(), sqlite.insert_history, row, data_dir(), rel)
     return created(resource(row), 201)
 
 

@@ -77,13 +77,7 @@ def upload_unit_stresses():
         spooled.unlink(missing_ok=True)
     row = {"id": sid, "project": project(), "name": name, "created_at": sqlite.now(),
            **shape, "file": rel}
-    con = db()
-    try:
-        with sqlite.write(con):
-            sqlite.insert_unit_stress_set(con, row)
-    except BaseException:
-        parquet.remove(data_dir(), rel)
-        raise
+    sqlite.insert_owning_file(db(), sqlite.insert_unit_stress_set, row, data_dir(), rel)
     return created(_unit_resource(row), 201)
 
 

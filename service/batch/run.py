@@ -17,6 +17,7 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 
 from service.engine.damage import CAUTIONS
+from service.runs import json_safe
 from service.engine.settings import point_from_dict
 
 from .dataset import Dataset, partitions
@@ -41,7 +42,7 @@ class BatchResult:
         ok = [r for r in self.rows if r["status"] == "ok"]
         worst = sorted(ok, key=lambda r: -(r["damage"] if r["damage"] is not None
                                             else math.inf))[:top]
-        return _json_safe({
+        return json_safe({
             "dataset": {"files": len(dataset.files), "layout": dataset.layout,
                         "points": len(dataset.points), "rows": dataset.rows,
                         "sample_rate_hz": dataset.sample_rate_hz},
@@ -55,16 +56,6 @@ class BatchResult:
             "units": {"stress": "MPa", "damage": "-", "life_hours": "h"},
             "cautions": list(CAUTIONS),
         })
-
-
-def _json_safe(v):
-    if isinstance(v, dict):
-        return {k: _json_safe(x) for k, x in v.items()}
-    if isinstance(v, list):
-        return [_json_safe(x) for x in v]
-    if isinstance(v, float) and not math.isfinite(v):
-        return None
-    return v
 
 
 def run_batch(dataset: Dataset, settings: dict, client, *,

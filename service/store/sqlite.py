@@ -69,6 +69,19 @@ def init(data_dir: str | Path) -> None:
         con.close()
 
 
+def insert_owning_file(con, insert, row: dict, data_dir, rel: str) -> None:
+    """``insert(con, row)`` in its own write transaction; if it fails, remove
+    the file ``rel`` that was written for the row (nothing half-stored)."""
+    from . import parquet
+
+    try:
+        with write(con):
+            insert(con, row)
+    except BaseException:
+        parquet.remove(data_dir, rel)
+        raise
+
+
 @contextmanager
 def write(con: sqlite3.Connection):
     """A write transaction taken up front (``BEGIN IMMEDIATE``)."""
