@@ -25,6 +25,7 @@ import threading
 import numpy as np
 
 from . import _counting_kernels as _k
+from ._buffers import POOL, codes_buffer
 from .errors import IncompatibleState, InvalidLoadHistory, InvalidParameter, unknown
 
 #: Residue treatments for :func:`astm_e1049`, keyed by their public names.
@@ -36,22 +37,6 @@ RESIDUE_TREATMENTS = ("half_cycles", "repeating_block")
 _SLACK_ROWS = 64
 _ROW_BYTES = 40
 _TRIM_BYTES = 1 << 20
-# Turning-point scratch kept per thread between calls, up to this many bytes:
-# fresh pages cost a fault each, which is a fifth of the time on short signals.
-_SCRATCH_MAX_BYTES = 32 * 2**20
-_scratch = threading.local()
-
-
-def _codes_buffer(n: int) -> np.ndarray:
-    """A buffer for ``n`` turning-point codes, reused when small enough."""
-    dtype = np.int32 if n < 2**31 - 2 else np.int64
-    if n * np.dtype(dtype).itemsize > _SCRATCH_MAX_BYTES:
-        return np.empty(n, dtype)
-    buf = getattr(_scratch, "codes", None)
-    if buf is None or buf.shape[0] < n or buf.dtype != dtype:
-        buf = np.empty(max(n, 4096), dtype)
-        _scratch.codes = buf
-    return buf
 
 
 @dataclass(frozen=True, eq=False)
@@ -300,7 +285,7 @@ def _points(x: np.ndarray, state: CountingState | None, gate: float, final: bool
     first = state is None
     offset = 0 if first else state.samples_seen
     xbits = x.view(np.int64)
-    codes = _codes_buffer(n + 2)
+    codes = codes_buffer(n + 2)
     if gate == 0.0:
         prev = 0.0 if first else state.candidate_value
         k, d, bad = _plain_points(x, xbits, first, prev, 0 if first else state.direction,
@@ -373,6 +358,139 @@ def _plain_points(x, xbits, first: bool, prev: float, direction: int, codes):
     return k1 + k2, d, bad1 | bad2
 
 
+#: Samples from which an ungated count runs as a pipeline on two threads.
+_PIPELINE_SAMPLES = 1 << 18
+#: Chunk lengths of the pipeline: the first is short so counting starts
+#: soon, later ones double up to the last size.
+_FIRST_CHUNK = 1 << 14
+_LAST_CHUNK = 1 << 17
+
+
+class _Pipeline:
+    """Turning points of a long ungated block chunk by chunk on the engine's
+    helper thread, while the calling thread runs the stack pass over the
+    chunks already done.
+
+    The helper takes chunks from the front; whenever the caller would wait,
+    it takes an untaken chunk from the back itself, so the pass over a smooth
+    signal (where the stack is quicker than the turning points) is shared and
+    a busy helper only delays nothing. Each chunk starts from the state the
+    whole pass would hold there (the sample before it and the sign of the
+    last nonzero step, see ``direction_before``), so the codes equal one
+    pass's; a chunk's code -1 names the sample before the chunk.
+    :meth:`finish` must be called after use (it waits for the helper, which
+    writes into this thread's scratch buffer).
+    """
+
+    def __init__(self, x: np.ndarray, state: CountingState | None, final: bool, sp: int):
+        n = x.shape[0]
+        self.x, self.xbits, self.final, self.sp = x, x.view(np.int64), final, sp
+        self.first = state is None
+        self.offset = 0 if state is None else state.samples_seen
+        self.prev = 0.0 if state is None else state.candidate_value
+        self.direction = 0 if state is None else state.direction
+        self.pre0 = (np.array([self.prev, 0.0, 0.0]),
+                     np.array([0 if state is None else state.candidate_index, 0, 0],
+                              np.int64))
+        bounds, size = [0], _FIRST_CHUNK
+        while bounds[-1] < n:
+            bounds.append(min(n, bounds[-1] + size))
+            size = min(2 * size, _LAST_CHUNK)
+        self.bounds = bounds
+        chunks = len(bounds) - 1
+        # Chunk c writes its codes from bounds[c] + c on (its length + 1).
+        self.codes = codes_buffer(n + chunks + 1)
+        self.results: list = [None] * chunks
+        self.done = [threading.Event() for _ in range(chunks)]
+        self.lock = threading.Lock()
+        self.front, self.back = 1, chunks - 1  # the caller takes chunk 0 now
+        x0 = (float(x[0]), 0) if state is None else (state.start_max_value,
+                                                     state.start_max_index)
+        self.after = None
+        self._x0 = x0
+        from ._threads import helper
+
+        self.future = helper().submit(self._helper_loop)
+        self._run(0)
+
+    def _claim(self, from_front: bool):
+        with self.lock:
+            if self.front > self.back:
+                return None
+            if from_front:
+                self.front += 1
+                return self.front - 1
+            self.back -= 1
+            return self.back + 1
+
+    def _helper_loop(self):
+        while (c := self._claim(True)) is not None:
+            self._run(c)
+
+    def _run(self, c: int) -> None:
+        try:
+            b0, b1 = self.bounds[c], self.bounds[c + 1]
+            out = self.codes[b0 + c:b1 + c + 1]
+            if c == 0:
+                res = _k.turning_points_plain(self.x[:b1], self.xbits[:b1], self.first,
+                                              self.prev, self.direction, out)
+            else:
+                d0 = _k.direction_before(self.x, b0, self.first, self.prev, self.direction)
+                res = _k.turning_points_plain(self.x[b0:b1], self.xbits[b0:b1], False,
+                                              self.x[b0 - 1], d0, out)
+            self.results[c] = res
+        except BaseException as exc:  # handed to the caller, never lost
+            self.results[c] = exc
+        finally:
+            self.done[c].set()
+
+    def segments(self):
+        """Yield ``_stack`` segments in order, as their chunks are done."""
+        x, n, chunks = self.x, self.x.shape[0], len(self.bounds) - 1
+        k_seen = 0
+        for c in range(chunks):
+            while not self.done[c].is_set():
+                mine = self._claim(False)
+                if mine is None:
+                    self.done[c].wait()
+                else:
+                    self._run(mine)
+            res = self.results[c]
+            if isinstance(res, BaseException):
+                raise res
+            k, d, bad = res
+            b0, b1 = self.bounds[c], self.bounds[c + 1]
+            if bad:
+                j = b0 + _first_non_finite(x[b0:b1])
+                raise InvalidLoadHistory(
+                    f"sample {self.offset + j} is {x[j]}; samples must be finite numbers",
+                    sample_index=self.offset + j)
+            codes = self.codes[b0 + c:b1 + c + 1]
+            if c == chunks - 1:
+                self.after = (int(d), float(x[-1]), self.offset + n - 1, *self._x0, *self._x0)
+                if self.final and d != 0:
+                    codes[k] = n - 1 - b0
+                    k += 1
+            if c == 0:
+                pre_v, pre_i = self.pre0
+            else:
+                pre_v = np.array([x[b0 - 1], 0.0, 0.0])
+                pre_i = np.array([self.offset + b0 - 1, 0, 0], np.int64)
+            k_seen += k
+            # Rows for the whole table, from the density of turning points
+            # so far (5 % spare; the table grows if later chunks are busier).
+            rows = _capacity(int(k_seen * 1.05 * n / b1) + 1, self.sp)
+            yield codes, k, x[b0:], self.offset + b0, pre_v, pre_i, rows
+
+    def finish(self) -> None:
+        """Leave no chunk running: cancel the untaken ones and wait for the
+        helper's current one (a helper that never started is cancelled)."""
+        with self.lock:
+            self.back = self.front - 1
+        if not self.future.cancel():
+            self.future.result()
+
+
 def _capacity(points: int, residue: int) -> int:
     """Rows to allocate for the cycles of ``points`` new turning points.
 
@@ -385,39 +503,45 @@ def _capacity(points: int, residue: int) -> int:
 
 
 def _columns(rows: int, keep=None, m: int = 0) -> list[np.ndarray]:
-    """Five cycle columns of ``rows`` rows (copying ``keep[:m]`` over).
-
-    Five separate arrays, not one block: above 4 MB numpy asks the kernel for
-    huge pages, and on this kind of machine (THP defrag on madvise) that
-    stalled some calls for tens of milliseconds while memory was compacted.
-    """
-    cols = [np.empty(rows, np.float64) for _ in range(3)] + [
-        np.empty(rows, np.int64) for _ in range(2)]
+    """Five cycle columns of ``rows`` rows (copying ``keep[:m]`` over), from
+    the pool of columns no table uses any more when one fits."""
+    cols = POOL.columns(rows)
     if keep is not None:
         for new, old in zip(cols, keep):
             new[:m] = old[:m]
     return cols
 
 
-def _stack(codes, k, x, offset, pre_v, pre_i, sv, si, sp, half_rule, final, cap):
-    """Second pass: run the stack kernel, growing its arrays when it asks.
+def _stack(segments, sv, si, sp, half_rule, final):
+    """Second pass: run the stack kernel over each segment in turn, growing
+    its arrays when it asks.
 
-    Returns ``(CycleTable, residue_values, residue_indices)``.
+    ``segments`` yields ``(codes, k, x, offset, pre_v, pre_i, rows)``: the
+    codes of one stretch of the history and the rows the whole table is
+    expected to need (the first sizes the table; a later one that is larger
+    sizes it when it has to grow). Returns ``(CycleTable, residue_values,
+    residue_indices)``.
     """
-    cols = _columns(cap)
-    j, m = 0, 0
-    while True:
-        j, sp, m = _k.stack_pass(codes, j, k, x, offset, pre_v, pre_i, sv, si, sp,
-                                 half_rule, *cols, m)
-        if j >= k:
-            break
-        if sp + 1 > sv.shape[0]:
-            size = 2 * sp + 64
-            sv2, si2 = np.empty(size), np.empty(size, np.int64)
-            sv2[:sp], si2[:sp] = sv[:sp], si[:sp]
-            sv, si = sv2, si2
-        if m + sp + 1 > cols[0].shape[0]:
-            cols = _columns(max(m + m // 2, m + sp + 1) + 64, cols, m)
+    cols = None
+    m = 0
+    for codes, k, x, offset, pre_v, pre_i, rows in segments:
+        if cols is None:
+            cols = _columns(rows)
+        j = 0
+        while True:
+            j, sp, m = _k.stack_pass(codes, j, k, x, offset, pre_v, pre_i, sv, si, sp,
+                                     half_rule, *cols, m)
+            if j >= k:
+                break
+            if sp + 1 > sv.shape[0]:
+                size = 2 * sp + 64
+                sv2, si2 = np.empty(size), np.empty(size, np.int64)
+                sv2[:sp], si2[:sp] = sv[:sp], si[:sp]
+                sv, si = sv2, si2
+            if m + sp + 1 > cols[0].shape[0]:
+                cols = _columns(max(m + m // 2, m + sp + 1, rows) + 64, cols, m)
+    if cols is None:
+        cols = _columns(sp + 1)
     rv, ri = sv[:sp].copy(), si[:sp].copy()
     if final and sp > 1:
         # What is left open is counted as half cycles, oldest first.
@@ -480,7 +604,6 @@ def _count(x: np.ndarray, state: CountingState | None, gate: float,
            final: bool) -> tuple[CycleTable, CountingState]:
     """Both passes over a validated block with a resolved gate."""
     offset = 0 if state is None else state.samples_seen
-    codes, k, pre_v, pre_i, after = _points(x, state, gate, final)
     if state is None:
         sv = np.empty(64, np.float64)
         si = np.empty(64, np.int64)
@@ -491,8 +614,17 @@ def _count(x: np.ndarray, state: CountingState | None, gate: float,
         si = np.empty(sp + 64, np.int64)
         sv[:sp] = state.residue_values
         si[:sp] = state.residue_indices
-    table, rv, ri = _stack(codes, k, x, offset, pre_v, pre_i, sv, si, sp, True,
-                           final, _capacity(k, sp))
+    if gate == 0.0 and x.shape[0] >= _PIPELINE_SAMPLES:
+        pipe = _Pipeline(x, state, final, sp)
+        try:
+            table, rv, ri = _stack(pipe.segments(), sv, si, sp, True, final)
+        finally:
+            pipe.finish()
+        after = pipe.after
+    else:
+        codes, k, pre_v, pre_i, after = _points(x, state, gate, final)
+        table, rv, ri = _stack([(codes, k, x, offset, pre_v, pre_i, _capacity(k, sp))],
+                               sv, si, sp, True, final)
     return table, CountingState(gate, offset + x.shape[0], *after, rv, ri)
 
 
@@ -578,8 +710,8 @@ def _repeating_block(x: np.ndarray, gate: float) -> CycleTable:
     seq_v = np.concatenate([vals[j:], vals[:j], vals[j:j + 1]])
     seq_i = np.concatenate([idx[j:], idx[:j], idx[j:j + 1]])
     codes2, k2, pre_v, pre_i, _ = _points(seq_v, None, gate, True)
-    table, _, _ = _stack(codes2, k2, seq_v, 0, pre_v, pre_i, np.empty(64),
-                         np.empty(64, np.int64), 0, False, True, _capacity(k2, 0))
+    table, _, _ = _stack([(codes2, k2, seq_v, 0, pre_v, pre_i, _capacity(k2, 0))],
+                         np.empty(64), np.empty(64, np.int64), 0, False, True)
     return CycleTable(table.stress_from, table.stress_to, table.count,
                       seq_i[table.start_index], seq_i[table.end_index])
 
