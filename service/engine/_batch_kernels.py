@@ -18,7 +18,7 @@ import math
 
 import numpy as np
 
-from ._counting_kernels import stack_pass, turning_points_plain
+from ._counting_kernels import STACK_PAD, stack_pass, turning_points_plain
 from ._damage_kernels import damage_pass, top_k
 from ._numba import kernel
 
@@ -34,9 +34,11 @@ def count_whole(x, codes, sv, si, frm, to, cnt, s_ix, e_ix):
         k += 1
     pre_v = np.zeros(3)
     pre_i = np.zeros(3, np.int64)
+    for q in range(STACK_PAD):
+        sv[q] = np.nan
     _, sp, m = stack_pass(codes, 0, k, x, 0, pre_v, pre_i, sv, si, 0, True,
                           frm, to, cnt, s_ix, e_ix, 0)
-    for q in range(sp - 1):
+    for q in range(STACK_PAD, STACK_PAD + sp - 1):
         frm[m] = sv[q]
         to[m] = sv[q + 1]
         cnt[m] = 0.5
@@ -154,8 +156,8 @@ def count_points(block, rows, frm, to, cnt, s_ix, e_ix, bad):
     n, b = block.shape
     xcol = np.empty(n)
     codes = np.empty(n + 1, np.int32)
-    sv = np.empty(n + 2)
-    si = np.empty(n + 2, np.int64)
+    sv = np.empty(n + 2 + STACK_PAD)
+    si = np.empty(n + 2 + STACK_PAD, np.int64)
     for r in range(b):
         for q in range(n):
             xcol[q] = block[q, r]

@@ -168,16 +168,23 @@ def turning_points_gated(x, xbits, gate, first, st_v, st_d, out):
     return k, d, c, jc, cmax, jmax, cmin, jmin, bad
 
 
+#: Entries below a stack's bottom, always NaN: a comparison with NaN is
+#: false, so the kernel's checks need no test of the stack's depth.
+STACK_PAD = 2
+
+
 @kernel
 def stack_pass(tp, j, ntp, x, offset, pre_v, pre_i, sv, si, sp, half_rule,
                frm, to, cnt, s_ix, e_ix, m):
     """ASTM E1049-85 three-point counting over ``tp[j:ntp]``.
 
     ``sv``/``si`` hold the residue (values, global indices) with ``sp``
-    entries. With ``half_rule`` a range that contains the starting point is a
-    half cycle (the standard's rule); without it every closed range is a full
-    cycle (the simplified method for a history rearranged to start at its
-    largest point). Closed cycles are written from row ``m`` on.
+    entries from index ``STACK_PAD`` on; ``sv[:STACK_PAD]`` must be NaN. With
+    ``half_rule`` a range that contains the starting point is a half cycle
+    (the standard's rule); without it every closed range is a full cycle (the
+    simplified method for a history rearranged to start at its largest
+    point). Closed cycles are written from row ``m`` on; rows from ``m`` to
+    ``m + sp`` may be overwritten as scratch.
 
     The arrays are never reallocated here (numba would then count references
     on every access, several times slower): when the stack or the outputs may
@@ -185,13 +192,16 @@ def stack_pass(tp, j, ntp, x, offset, pre_v, pre_i, sv, si, sp, half_rule,
     grows them and calls again from ``j``. Returns ``(j, sp, m)``.
     """
     cap = frm.shape[0]
-    scap = sv.shape[0]
+    scap = sv.shape[0] - STACK_PAD
     last = ntp - 1
     ahead = x.shape[0] > 0
+    q = sp + STACK_PAD  # one past the top entry
+    a = sv[q - 1]  # top entry (X2), NaN when the stack is empty
+    b = sv[q - 2]  # the one below (X1)
     while j < ntp:
         # One push closes at most ``sp`` cycles and adds one stack entry.
-        if sp + 1 > scap or m + sp + 1 > cap:
-            return j, sp, m
+        if q - STACK_PAD + 1 > scap or m + q - STACK_PAD + 1 > cap:
+            return j, q - STACK_PAD, m
         code = tp[j]
         # Sparse turning points (1 in 20 samples on a smooth signal) make
         # x[code] a cache miss each; ask for the one _AHEAD points on now.
@@ -203,30 +213,49 @@ def stack_pass(tp, j, ntp, x, offset, pre_v, pre_i, sv, si, sp, half_rule,
         else:
             v = pre_v[-code - 1]
             g = pre_i[-code - 1]
-        # The new point X3 = v stays in a register until no range closes: it
-        # is compared with the top two entries, which close as a cycle while
-        # |X3 - X2| >= |X2 - X1|; then it is pushed once.
-        while sp >= 2:
-            x2 = sv[sp - 1]
-            x1 = sv[sp - 2]
-            if abs(v - x2) < abs(x2 - x1):
-                break
-            frm[m] = x1
-            to[m] = x2
-            s_ix[m] = si[sp - 2]
-            e_ix[m] = si[sp - 1]
-            if sp == 2 and half_rule:
-                # Y holds the starting point: half cycle, drop the start.
-                cnt[m] = 0.5
-                sv[0] = x2
-                si[0] = si[1]
-                sp = 1
-            else:
-                cnt[m] = 1.0
-                sp -= 2
-            m += 1
-        sv[sp] = v
-        si[sp] = g
-        sp += 1
+        # The new point X3 = v closes X1-X2 as a cycle while |X3 - X2| >=
+        # |X2 - X1|. Nine pushes in ten close at most one range, so the
+        # first check is done without a branch (its row written whether or
+        # not it counts, the stack top moved by 0 or 2) and only a second
+        # closure, or a closure that empties the stack (the half-cycle rule),
+        # takes the general loop. NaN below the bottom fails every check.
+        c1 = abs(v - a) >= abs(a - b)
+        frm[m] = b
+        to[m] = a
+        s_ix[m] = si[q - 2]
+        e_ix[m] = si[q - 1]
+        cnt[m] = 1.0
+        q1 = q - 2 * np.int64(c1)
+        top = sv[q1 - 1]
+        below = sv[q1 - 2]
+        if abs(v - top) >= abs(top - below) or q1 == STACK_PAD:
+            q1 = q
+            while q1 - STACK_PAD >= 2:
+                x2 = sv[q1 - 1]
+                x1 = sv[q1 - 2]
+                if abs(v - x2) < abs(x2 - x1):
+                    break
+                frm[m] = x1
+                to[m] = x2
+                s_ix[m] = si[q1 - 2]
+                e_ix[m] = si[q1 - 1]
+                if q1 - STACK_PAD == 2 and half_rule:
+                    # Y holds the starting point: half cycle, drop the start.
+                    cnt[m] = 0.5
+                    sv[STACK_PAD] = x2
+                    si[STACK_PAD] = si[STACK_PAD + 1]
+                    q1 -= 1
+                else:
+                    cnt[m] = 1.0
+                    q1 -= 2
+                m += 1
+            top = sv[q1 - 1]
+        else:
+            m += np.int64(c1)
+        sv[q1] = v
+        si[q1] = g
+        b = top
+        a = v
+        q = q1 + 1
         j += 1
-    return j, sp, m
+    return j, q - STACK_PAD, m

@@ -386,12 +386,8 @@ class _Pipeline:
         n = x.shape[0]
         self.x, self.xbits, self.final, self.sp = x, x.view(np.int64), final, sp
         self.first = state is None
-        self.offset = 0 if state is None else state.samples_seen
         self.prev = 0.0 if state is None else state.candidate_value
         self.direction = 0 if state is None else state.direction
-        self.pre0 = (np.array([self.prev, 0.0, 0.0]),
-                     np.array([0 if state is None else state.candidate_index, 0, 0],
-                              np.int64))
         bounds, size = [0], _FIRST_CHUNK
         while bounds[-1] < n:
             bounds.append(min(n, bounds[-1] + size))
@@ -400,31 +396,39 @@ class _Pipeline:
         chunks = len(bounds) - 1
         # Chunk c writes its codes from bounds[c] + c on (its length + 1).
         self.codes = codes_buffer(n + chunks + 1)
-        self.results: list = [None] * chunks
-        self.done = [threading.Event() for _ in range(chunks)]
-        self.lock = threading.Lock()
+        self.results: list = [None] * chunks  # (k, d, bad) or an exception
+        self.cv = threading.Condition(threading.Lock())
         self.front, self.back = 1, chunks - 1  # the caller takes chunk 0 now
-        x0 = (float(x[0]), 0) if state is None else (state.start_max_value,
-                                                     state.start_max_index)
-        self.after = None
-        self._x0 = x0
         from ._threads import helper
 
+        # Waking the helper takes 0.1-0.2 ms on this kind of machine: ask first.
         self.future = helper().submit(self._helper_loop)
+        self.offset = 0 if state is None else state.samples_seen
+        self.pre0 = (np.array([self.prev, 0.0, 0.0]),
+                     np.array([0 if state is None else state.candidate_index, 0, 0],
+                              np.int64))
+        self._x0 = (float(x[0]), 0) if state is None else (state.start_max_value,
+                                                           state.start_max_index)
+        self.after = None
         self._run(0)
 
     def _claim(self, from_front: bool):
-        with self.lock:
-            if self.front > self.back:
-                return None
-            if from_front:
-                self.front += 1
-                return self.front - 1
-            self.back -= 1
-            return self.back + 1
+        """The next untaken chunk from the front or the back, or None
+        (call with ``cv`` held)."""
+        if self.front > self.back:
+            return None
+        if from_front:
+            self.front += 1
+            return self.front - 1
+        self.back -= 1
+        return self.back + 1
 
     def _helper_loop(self):
-        while (c := self._claim(True)) is not None:
+        while True:
+            with self.cv:
+                c = self._claim(True)
+            if c is None:
+                return
             self._run(c)
 
     def _run(self, c: int) -> None:
@@ -438,24 +442,32 @@ class _Pipeline:
                 d0 = _k.direction_before(self.x, b0, self.first, self.prev, self.direction)
                 res = _k.turning_points_plain(self.x[b0:b1], self.xbits[b0:b1], False,
                                               self.x[b0 - 1], d0, out)
-            self.results[c] = res
         except BaseException as exc:  # handed to the caller, never lost
-            self.results[c] = exc
-        finally:
-            self.done[c].set()
+            res = exc
+        with self.cv:
+            self.results[c] = res
+            self.cv.notify()
+
+    def _result(self, c: int):
+        """Chunk ``c``'s result; while it is not done, take chunks from the
+        back, and wait only when none is left to take."""
+        while True:
+            with self.cv:
+                res = self.results[c]
+                if res is not None:
+                    return res
+                mine = self._claim(False)
+                if mine is None:
+                    self.cv.wait_for(lambda: self.results[c] is not None)
+                    return self.results[c]
+            self._run(mine)
 
     def segments(self):
         """Yield ``_stack`` segments in order, as their chunks are done."""
         x, n, chunks = self.x, self.x.shape[0], len(self.bounds) - 1
         k_seen = 0
         for c in range(chunks):
-            while not self.done[c].is_set():
-                mine = self._claim(False)
-                if mine is None:
-                    self.done[c].wait()
-                else:
-                    self._run(mine)
-            res = self.results[c]
+            res = self._result(c)
             if isinstance(res, BaseException):
                 raise res
             k, d, bad = res
@@ -485,7 +497,7 @@ class _Pipeline:
     def finish(self) -> None:
         """Leave no chunk running: cancel the untaken ones and wait for the
         helper's current one (a helper that never started is cancelled)."""
-        with self.lock:
+        with self.cv:
             self.back = self.front - 1
         if not self.future.cancel():
             self.future.result()
@@ -512,6 +524,26 @@ def _columns(rows: int, keep=None, m: int = 0) -> list[np.ndarray]:
     return cols
 
 
+def _new_stack(spare: int, values=None, indices=None):
+    """Residue stack arrays for the stack kernel: ``(sv, si, sp)`` holding
+    ``values``/``indices`` (if given) above the kernel's NaN sentinels, with
+    room for ``spare`` more entries."""
+    sp = 0 if values is None else values.shape[0]
+    size = _k.STACK_PAD + sp + spare
+    sv, si = np.empty(size, np.float64), np.empty(size, np.int64)
+    sv[:_k.STACK_PAD] = np.nan
+    si[:_k.STACK_PAD] = 0
+    if sp:
+        sv[_k.STACK_PAD:_k.STACK_PAD + sp] = values
+        si[_k.STACK_PAD:_k.STACK_PAD + sp] = indices
+    return sv, si, sp
+
+
+def _residue(sv, si, sp):
+    """Views of the ``sp`` residue entries of stack arrays."""
+    return sv[_k.STACK_PAD:_k.STACK_PAD + sp], si[_k.STACK_PAD:_k.STACK_PAD + sp]
+
+
 def _stack(segments, sv, si, sp, half_rule, final):
     """Second pass: run the stack kernel over each segment in turn, growing
     its arrays when it asks.
@@ -533,16 +565,13 @@ def _stack(segments, sv, si, sp, half_rule, final):
                                      half_rule, *cols, m)
             if j >= k:
                 break
-            if sp + 1 > sv.shape[0]:
-                size = 2 * sp + 64
-                sv2, si2 = np.empty(size), np.empty(size, np.int64)
-                sv2[:sp], si2[:sp] = sv[:sp], si[:sp]
-                sv, si = sv2, si2
+            if sp + 1 > sv.shape[0] - _k.STACK_PAD:
+                sv, si, _ = _new_stack(sp + 64, *_residue(sv, si, sp))
             if m + sp + 1 > cols[0].shape[0]:
                 cols = _columns(max(m + m // 2, m + sp + 1, rows) + 64, cols, m)
     if cols is None:
         cols = _columns(sp + 1)
-    rv, ri = sv[:sp].copy(), si[:sp].copy()
+    rv, ri = (r.copy() for r in _residue(sv, si, sp))
     if final and sp > 1:
         # What is left open is counted as half cycles, oldest first.
         need = m + sp - 1
@@ -605,15 +634,9 @@ def _count(x: np.ndarray, state: CountingState | None, gate: float,
     """Both passes over a validated block with a resolved gate."""
     offset = 0 if state is None else state.samples_seen
     if state is None:
-        sv = np.empty(64, np.float64)
-        si = np.empty(64, np.int64)
-        sp = 0
+        sv, si, sp = _new_stack(64)
     else:
-        sp = state.residue_values.shape[0]
-        sv = np.empty(sp + 64, np.float64)
-        si = np.empty(sp + 64, np.int64)
-        sv[:sp] = state.residue_values
-        si[:sp] = state.residue_indices
+        sv, si, sp = _new_stack(64, state.residue_values, state.residue_indices)
     if gate == 0.0 and x.shape[0] >= _PIPELINE_SAMPLES:
         pipe = _Pipeline(x, state, final, sp)
         try:
@@ -711,7 +734,7 @@ def _repeating_block(x: np.ndarray, gate: float) -> CycleTable:
     seq_i = np.concatenate([idx[j:], idx[:j], idx[j:j + 1]])
     codes2, k2, pre_v, pre_i, _ = _points(seq_v, None, gate, True)
     table, _, _ = _stack([(codes2, k2, seq_v, 0, pre_v, pre_i, _capacity(k2, 0))],
-                         np.empty(64), np.empty(64, np.int64), 0, False, True)
+                         *_new_stack(64), False, True)
     return CycleTable(table.stress_from, table.stress_to, table.count,
                       seq_i[table.start_index], seq_i[table.end_index])
 
