@@ -28,7 +28,7 @@ def count_whole(x, codes, sv, si, frm, to, cnt, s_ix, e_ix):
     """Ungated ASTM E1049-85 count of a whole history into rows sized ``len(x)``;
     the residue closes as half cycles. Returns ``(rows, bad)``."""
     n = x.shape[0]
-    k, d, bad = turning_points_plain(x, x.view(np.int64), True, 0.0, 0, codes)
+    k, d, bad = turning_points_plain(x, x.view(np.int64), True, 0.0, 0, codes, 0)
     if d != 0:
         codes[k] = n - 1
         k += 1

@@ -28,13 +28,15 @@ _EXP = np.int64(0x7FF0000000000000)
 
 
 @kernel
-def turning_points_plain(x, xbits, first, prev, direction, out):
-    """Ungated turning points of one block.
+def turning_points_plain(x, xbits, first, prev, direction, out, base):
+    """Ungated turning points of one stretch ``x`` that starts at index
+    ``base`` of its block.
 
-    ``out`` (length ``len(x) + 1``) receives local indices; ``-1`` stands for
-    the sample before the block. A plateau counts once, at its last sample.
-    Returns ``(k, direction, bad)`` where ``bad`` is nonzero if any sample is
-    inf or NaN.
+    ``out`` (length ``len(x) + 1``) receives block indices; ``base - 1``
+    stands for the pending point before the stretch (``prev``; for
+    ``base = 0`` that lies before the block: code ``-1``). A plateau counts
+    once, at its last sample. Returns ``(k, direction, bad)`` where ``bad``
+    is nonzero if any sample is inf or NaN.
     """
     n = x.shape[0]
     k = 0
@@ -43,18 +45,19 @@ def turning_points_plain(x, xbits, first, prev, direction, out):
     start = 0
     last = prev
     if first:
-        out[0] = 0
+        out[0] = base
         k = 1
         last = x[0]
         start = 1
         bad |= (xbits[0] & _EXP) == _EXP
+    b1 = base - 1
     for i in range(start, n):
         xi = x[i]
         bad |= (xbits[i] & _EXP) == _EXP
         dx = xi - last
         s = np.int64(dx > 0.0) - np.int64(dx < 0.0)
         # Branch-free compaction: always write, advance only on a reversal.
-        out[k] = i - 1
+        out[k] = b1 + i
         k += np.int64(s * d < 0)
         d = s if s != 0 else d
         last = xi

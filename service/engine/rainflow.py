@@ -344,17 +344,17 @@ def _plain_points(x, xbits, first: bool, prev: float, direction: int, codes):
     first's. ``codes`` holds ``len(x) + 2``."""
     n = x.shape[0]
     if n < _SPLIT_SAMPLES:
-        return _k.turning_points_plain(x, xbits, first, prev, direction, codes)
+        return _k.turning_points_plain(x, xbits, first, prev, direction, codes, 0)
     from ._threads import helper
 
     h = n // 2
     d_h = _k.direction_before(x, h, first, prev, direction)
     later = helper().submit(_k.turning_points_plain, x[h:], xbits[h:], False, x[h - 1], d_h,
-                            codes[h + 1:])
+                            codes[h + 1:], h)
     k1, _, bad1 = _k.turning_points_plain(x[:h], xbits[:h], first, prev, direction,
-                                          codes[:h + 1])
+                                          codes[:h + 1], 0)
     k2, d, bad2 = later.result()
-    _k.shift_codes(codes, h + 1, k1, k2, h)  # local to the second half -> to the block
+    _k.shift_codes(codes, h + 1, k1, k2, 0)  # after the first half's codes
     return k1 + k2, d, bad1 | bad2
 
 
@@ -371,13 +371,14 @@ class _Pipeline:
     helper thread, while the calling thread runs the stack pass over the
     chunks already done.
 
-    The helper takes chunks from the front; whenever the caller would wait,
-    it takes an untaken chunk from the back itself, so the pass over a smooth
-    signal (where the stack is quicker than the turning points) is shared and
-    a busy helper only delays nothing. Each chunk starts from the state the
-    whole pass would hold there (the sample before it and the sign of the
-    last nonzero step, see ``direction_before``), so the codes equal one
-    pass's; a chunk's code -1 names the sample before the chunk.
+    Both threads take the next untaken chunk, the caller only when it would
+    otherwise wait: on a smooth signal (where the stack is quicker than the
+    turning points) the pass is shared, and a busy helper delays nothing.
+    Chunks grow from short (so counting starts soon) to a fixed length. Each
+    chunk starts from the state the whole pass would hold there (the sample
+    before it and the sign of the last nonzero step, see
+    ``direction_before``), so its codes, indices into the block, equal one
+    pass's.
     :meth:`finish` must be called after use (it waits for the helper, which
     writes into this thread's scratch buffer).
     """
@@ -412,21 +413,17 @@ class _Pipeline:
         self.after = None
         self._run(0)
 
-    def _claim(self, from_front: bool):
-        """The next untaken chunk from the front or the back, or None
-        (call with ``cv`` held)."""
+    def _claim(self):
+        """The next untaken chunk, or None (call with ``cv`` held)."""
         if self.front > self.back:
             return None
-        if from_front:
-            self.front += 1
-            return self.front - 1
-        self.back -= 1
-        return self.back + 1
+        self.front += 1
+        return self.front - 1
 
     def _helper_loop(self):
         while True:
             with self.cv:
-                c = self._claim(True)
+                c = self._claim()
             if c is None:
                 return
             self._run(c)
@@ -437,11 +434,11 @@ class _Pipeline:
             out = self.codes[b0 + c:b1 + c + 1]
             if c == 0:
                 res = _k.turning_points_plain(self.x[:b1], self.xbits[:b1], self.first,
-                                              self.prev, self.direction, out)
+                                              self.prev, self.direction, out, 0)
             else:
                 d0 = _k.direction_before(self.x, b0, self.first, self.prev, self.direction)
                 res = _k.turning_points_plain(self.x[b0:b1], self.xbits[b0:b1], False,
-                                              self.x[b0 - 1], d0, out)
+                                              self.x[b0 - 1], d0, out, b0)
         except BaseException as exc:  # handed to the caller, never lost
             res = exc
         with self.cv:
@@ -449,14 +446,14 @@ class _Pipeline:
             self.cv.notify()
 
     def _result(self, c: int):
-        """Chunk ``c``'s result; while it is not done, take chunks from the
-        back, and wait only when none is left to take."""
+        """Chunk ``c``'s result; while it is not done, take the next untaken
+        chunk, and wait only when none is left to take."""
         while True:
             with self.cv:
                 res = self.results[c]
                 if res is not None:
                     return res
-                mine = self._claim(False)
+                mine = self._claim()
                 if mine is None:
                     self.cv.wait_for(lambda: self.results[c] is not None)
                     return self.results[c]
@@ -481,18 +478,13 @@ class _Pipeline:
             if c == chunks - 1:
                 self.after = (int(d), float(x[-1]), self.offset + n - 1, *self._x0, *self._x0)
                 if self.final and d != 0:
-                    codes[k] = n - 1 - b0
+                    codes[k] = n - 1
                     k += 1
-            if c == 0:
-                pre_v, pre_i = self.pre0
-            else:
-                pre_v = np.array([x[b0 - 1], 0.0, 0.0])
-                pre_i = np.array([self.offset + b0 - 1, 0, 0], np.int64)
             k_seen += k
             # Rows for the whole table, from the density of turning points
             # so far (5 % spare; the table grows if later chunks are busier).
             rows = _capacity(int(k_seen * 1.05 * n / b1) + 1, self.sp)
-            yield codes, k, x[b0:], self.offset + b0, pre_v, pre_i, rows
+            yield codes, k, x, self.offset, *self.pre0, rows
 
     def finish(self) -> None:
         """Leave no chunk running: cancel the untaken ones and wait for the
