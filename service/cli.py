@@ -47,11 +47,10 @@ def assess_file(path: Path, config: dict) -> dict:
     import numpy as np
 
     from service.engine import units
-    from service.engine.damage import assess
+    from service.engine.damage import assess_history
     import pandas as pd
 
     from service.engine.errors import InvalidLoadHistory, InvalidParameter
-    from service.engine.rainflow import astm_e1049
     from service.engine.settings import point_from_dict
 
     df = _read_table(path)
@@ -80,8 +79,7 @@ def assess_file(path: Path, config: dict) -> dict:
                 sample_index=int(bad[0]), channel=name)
         stress = units.to_mpa(raw, config.get("unit", "MPa"), config.get("youngs_modulus"))
         gate = float(config.get("gate_fraction", 0.0)) * float(np.ptp(stress))
-        table = astm_e1049(stress, gate=gate)
-        result = assess(table, curve, opts, duration_s=duration)
+        result = assess_history(stress, curve, opts, gate=gate, duration_s=duration)
         entry = result.summary()
         entry.update(curve=curve.name, curve_source=curve.source,
                      top_cycles=result.top_cycles, cautions=list(result.cautions))

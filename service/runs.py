@@ -17,7 +17,7 @@ import numpy as np
 
 from service.engine import histograms, multiaxial
 from service.engine import units as engine_units
-from service.engine.damage import CAUTIONS, assess
+from service.engine.damage import CAUTIONS, assess, assess_history
 from service.engine.errors import InvalidParameter, unknown
 from service.engine.rainflow import RESIDUE_TREATMENTS, CycleTable, astm_e1049, resolve_gate
 from service.engine.settings import USER_CURVE_PREFIX, point_from_dict, resolve
@@ -276,8 +276,8 @@ def assess_point(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
     settings_used = point.settings
     if point.multiaxial is None:
         g = resolve_gate(point.samples, gate or 0.0, gate_fraction)
-        table = astm_e1049(point.samples, gate=g, residue=residue)
-        r = assess(table, curve, opts, duration_s=duration_s)
+        r = assess_history(point.samples, curve, opts, gate=g, residue=residue,
+                           duration_s=duration_s)
     else:
         spec = point.multiaxial
         comps = components_of(point)

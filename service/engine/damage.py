@@ -217,26 +217,39 @@ def equivalent_range(stress_range, count, slope: float = 3.0,
 _NO_ROWS = np.empty(0)
 
 
+def _model_args(curve: SNCurve, opts: AssessmentOptions) -> tuple:
+    """``(model, segments)``: what the damage kernel needs of the curve and
+    the options."""
+    method = opts.mean_stress_method
+    needs = MEAN_STRESS_METHODS[method][1]
+    param = {"ultimate_strength": opts.ultimate_strength,
+             "yield_strength": opts.yield_strength,
+             "fatigue_strength_coefficient": opts.fatigue_strength_coefficient,
+             "walker_exponent": opts.walker_exponent}.get(needs) or 1.0
+    clip = method in ("goodman", "soderberg", "morrow", "gerber") and (
+        opts.compressive_mean == "zero"
+        or (opts.compressive_mean == "no_benefit" and method != "gerber"))
+    segments = _dk.curve_segments(curve)
+    return (_dk.model_array(
+        method, float(param), clip,
+        float(opts.ultimate_strength) if opts.ultimate_strength else math.inf,
+        opts.thickness_factor * opts.strength_factor, float(opts.equivalent_slope)),
+        segments)
+
+
+def _combine(a: tuple, b: tuple) -> tuple:
+    """Two extras passes' outputs over consecutive rows, as one pass's."""
+    return (a[0] + b[0], a[1] + b[1], a[2] + b[2], max(a[3], b[3]), a[4] + b[4],
+            max(a[5], b[5]), min(a[6], b[6]))
+
+
 class _Evaluator:
     """Damage of the history scaled by ``s``, through the compiled loop."""
 
     def __init__(self, table: CycleTable, curve: SNCurve, opts: AssessmentOptions):
-        method = opts.mean_stress_method
-        needs = MEAN_STRESS_METHODS[method][1]
-        param = {"ultimate_strength": opts.ultimate_strength,
-                 "yield_strength": opts.yield_strength,
-                 "fatigue_strength_coefficient": opts.fatigue_strength_coefficient,
-                 "walker_exponent": opts.walker_exponent}.get(needs) or 1.0
-        clip = method in ("goodman", "soderberg", "morrow", "gerber") and (
-            opts.compressive_mean == "zero"
-            or (opts.compressive_mean == "no_benefit" and method != "gerber"))
         self.curve = curve
-        self.segments = _dk.curve_segments(curve)
-        self.args = (_dk.model_array(
-            method, float(param), clip,
-            float(opts.ultimate_strength) if opts.ultimate_strength else math.inf,
-            opts.thickness_factor * opts.strength_factor, float(opts.equivalent_slope)),
-            self.segments)
+        self.args = _model_args(curve, opts)
+        self.segments = self.args[1]
         self.load_factor = opts.load_factor
         self.cols = (table.stress_from, table.stress_to, table.count)
         self.overload_scale = math.inf
@@ -253,6 +266,10 @@ class _Evaluator:
             out = self._halves(s, rows, n)
         else:
             out = _dk.damage_pass(*self.cols, s * self.load_factor, *self.args, rows, extras)
+        return self.finish(out, extras)
+
+    def finish(self, out: tuple, extras: bool):
+        """The figures of :meth:`__call__` from the kernel's output ``out``."""
         d, over, weight = out[0], out[1], out[2]
         slope = weight / d if 0 < d < math.inf else None
         max_inv = 0.0
@@ -262,7 +279,6 @@ class _Evaluator:
             # Scale s at which the first cycle becomes a static overload.
             self.overload_scale = out[6] / self.load_factor
         return (d, over, slope, max_inv) + tuple(out[4:6])
-
 
     def _halves(self, s: float, rows, n: int):
         """The first (extras) pass on two threads, one half of the cycles
@@ -274,9 +290,7 @@ class _Evaluator:
         parts = [rows[:h] if rows.shape[0] else rows, rows[h:] if rows.shape[0] else rows]
         later = helper().submit(_dk.damage_pass, *halves[1], scale, *self.args, parts[1], True)
         a = _dk.damage_pass(*halves[0], scale, *self.args, parts[0], True)
-        b = later.result()
-        return (a[0] + b[0], a[1] + b[1], a[2] + b[2], max(a[3], b[3]), a[4] + b[4],
-                max(a[5], b[5]), min(a[6], b[6]))
+        return _combine(a, later.result())
 
 
 #: Cycles from which the first pass runs on two threads (about 0.7 ms of
@@ -347,13 +361,22 @@ def assess(table: CycleTable, curve: SNCurve, options: AssessmentOptions | None 
     .. [2] EN 1993-1-9:2005, sec. 6 and 8 (partial factors, damage sum).
     """
     opts = options or AssessmentOptions()
+    _check_duration(duration_s)
+    evaluate = _Evaluator(table, curve, opts)
+    per_cycle = np.empty(len(table))
+    first = evaluate(1.0, per_cycle, extras=True)
+    return _complete(table, evaluate, per_cycle, first, curve, opts, duration_s)
+
+
+def _check_duration(duration_s):
     if duration_s is not None and (not math.isfinite(duration_s) or duration_s <= 0):
         raise InvalidParameter(f"duration_s {duration_s} must be positive", field="duration_s",
                                value=duration_s, limit=0.0)
-    evaluate = _Evaluator(table, curve, opts)
+
+
+def _complete(table, evaluate, per_cycle, first, curve, opts, duration_s) -> PointAssessment:
+    """Reserve factor, top cycles and the result, after the first pass."""
     n = len(table)
-    per_cycle = np.empty(n)
-    first = evaluate(1.0, per_cycle, extras=True)
     damage, overloads, _, max_inv_life, eq_sum, max_range = first
     reserve = None
     if opts.reserve_factor and n and max_range > 0:
@@ -407,6 +430,7 @@ def assess_history(samples, curve: SNCurve, options: AssessmentOptions | None = 
                    gate: float = 0.0, residue: str = "half_cycles",
                    duration_s: float | None = None) -> PointAssessment:
     """Count ``samples`` by rainflow and :func:`assess` the cycles."""
+    _check_duration(duration_s)
     table = astm_e1049(samples, gate=gate, residue=residue)
     return assess(table, curve, options, duration_s=duration_s)
 

@@ -4,9 +4,10 @@ Run:  python tests/benchmarks/bench_assessment.py [--quick]
 
 1. ``assessment_over_counting``: count + mean-stress correction + S-N curve +
    Miner + reserve factor + equivalent range for one 1e7-sample history
-   (``--quick``: 1e6), divided by counting alone, on a narrow-band random
-   signal (the shape of most measured stress); white noise and a smooth signal
-   are printed too. Medians of fresh seeded inputs.
+   (``--quick``: 1e6) through ``assess_history`` (the call the service makes
+   for one history), divided by counting alone (``astm_e1049``), on a
+   narrow-band random signal (the shape of most measured stress); white noise
+   and a smooth signal are printed too. Medians of fresh seeded inputs.
 2. ``speedup_many_points``: 1,000 points of 1e4 samples in one ``assess_many``
    call, against looping the `rainflow` package plus a plain Python Miner sum
    over the same curve (the loop is timed on a subset and scaled per point);
@@ -33,7 +34,7 @@ import rainflow  # noqa: E402
 
 from bench_counting import make  # noqa: E402
 from service.engine import astm_e1049  # noqa: E402
-from service.engine.damage import AssessmentOptions, assess, assess_many  # noqa: E402
+from service.engine.damage import AssessmentOptions, assess_history, assess_many  # noqa: E402
 from service.engine.rainflow import warm_up  # noqa: E402
 from service.engine.sn_catalogue import catalogue_curve  # noqa: E402
 
@@ -48,7 +49,7 @@ def scaled(kind, n, seed, rms=40.0):
 def count_vs_assess(kind: str, n: int, reps: int) -> dict:
     opts = AssessmentOptions(mean_stress_method="goodman", ultimate_strength=700.0)
     x = scaled(kind, n, 500)
-    assess(astm_e1049(x), CURVE, opts)
+    assess_history(x, CURVE, opts)
     tc, ta = [], []
     for r in range(reps):
         x = scaled(kind, n, r)
@@ -57,7 +58,7 @@ def count_vs_assess(kind: str, n: int, reps: int) -> dict:
         tc.append(time.perf_counter() - t0)
         x = scaled(kind, n, r + 100)
         t0 = time.perf_counter()
-        assess(astm_e1049(x), CURVE, opts)
+        assess_history(x, CURVE, opts)
         ta.append(time.perf_counter() - t0)
     c, a = statistics.median(tc), statistics.median(ta)
     return {"signal": kind, "samples": n, "count_s": c, "assess_s": a, "ratio": a / c}
