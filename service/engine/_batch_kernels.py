@@ -48,100 +48,161 @@ def count_whole(x, codes, sv, si, frm, to, cnt, s_ix, e_ix):
     return m, bad
 
 
+# Fields of the reserve search's state (``reserve_begin`` / ``reserve_step``).
+(_LOG_T, _X_LO, _X_HI, _HAS_LO, _HAS_HI, _FLO, _FHI, _S, _PREV_OK, _PREV_X, _PREV_F,
+ _PREV_G, _PHASE, _ITER, _RESULT, _D1, _SLOPE1, _S_OVER, _BELOW, _TARGET) = range(20)
+_STATE_FIELDS = 20
+
+
+@kernel
+def reserve_begin(target, d, slope, s_over):
+    """The state of a reserve-factor search (see ``damage._reserve_factor``)
+    for damage ``target``; ``d`` and ``slope`` are the damage and slope at
+    scale 1 (slope NaN when undefined), ``s_over`` the scale at which the
+    first cycle becomes an overload. Drive it with :func:`reserve_step`."""
+    st = np.zeros(_STATE_FIELDS)
+    st[_TARGET] = target
+    st[_LOG_T] = math.log(target)
+    st[_X_LO] = math.log(1e-6)
+    st[_X_HI] = math.log(1e6)
+    st[_S] = 1.0
+    st[_PREV_G] = math.nan  # the exact slope f' at prev_x
+    st[_RESULT] = math.nan
+    st[_D1] = d
+    st[_SLOPE1] = slope
+    st[_S_OVER] = s_over
+    return st
+
+
+@kernel
+def _finish(st, value):
+    st[_RESULT] = value
+    return math.nan
+
+
+@kernel
+def reserve_step(st, d, slope):
+    """Advance the search with the damage ``d`` and slope at the scale it
+    last asked for (at the first call: scale 1). Returns the next scale to
+    evaluate, or NaN when done; the factor is then ``st[_RESULT]`` (NaN for
+    none within 1e-6..1e6). One algorithm for every caller: the compiled
+    loop of :func:`reserve_search` and the two-thread passes of long tables."""
+    phase = st[_PHASE]
+    if phase == 0.0:
+        s_over = st[_S_OVER]
+        if 1.0 < s_over < 1e6 and d < math.inf and d < st[_TARGET]:
+            # Damage grows to the target only up to the overload onset, or
+            # the reserve is the onset itself: look just below it first.
+            st[_BELOW] = s_over * (1.0 - 1e-12)
+            st[_PHASE] = 1.0
+            return st[_BELOW]
+        st[_PHASE] = 2.0
+        return _loop_step(st, d, slope)
+    if phase == 1.0:
+        if d < st[_TARGET]:
+            return _finish(st, st[_S_OVER])
+        st[_X_HI] = math.log(st[_BELOW])
+        st[_HAS_HI] = 1.0
+        st[_FHI] = math.log(d) - st[_LOG_T]
+        if abs(st[_FHI]) < 1e-8:
+            return _finish(st, st[_BELOW])
+        st[_PHASE] = 2.0
+        return _loop_step(st, st[_D1], st[_SLOPE1])
+    return _loop_step(st, d, slope)
+
+
+@kernel
+def _loop_step(st, d, slope):
+    """One Newton/secant/bisection step in log-log space (at most 100)."""
+    if st[_ITER] >= 100:
+        return _end(st)
+    st[_ITER] += 1
+    s = st[_S]
+    log_t = st[_LOG_T]
+    g = slope  # exact slope at this point (before any secant replaces it)
+    if d == 0.0:
+        f = -math.inf
+    elif d == math.inf:
+        f = math.inf
+    else:
+        f = math.log(d) - log_t
+    if abs(f) < 1e-8:
+        return _finish(st, s)
+    x = math.log(s)
+    if f < 0:
+        st[_X_LO] = x
+        st[_FLO] = f
+        st[_HAS_LO] = 1.0
+    else:
+        st[_X_HI] = x
+        st[_FHI] = f
+        st[_HAS_HI] = 1.0
+    x_lo, x_hi = st[_X_LO], st[_X_HI]
+    if x_hi - x_lo < 1e-10:
+        return _end(st)
+    prev_ok, prev_x, prev_f, prev_g = st[_PREV_OK] != 0.0, st[_PREV_X], st[_PREV_F], st[_PREV_G]
+    if (prev_ok and abs(f) < 1e-3 and g > 0 and prev_g > 0 and abs(prev_f) < math.inf
+            and x != prev_x):
+        # Close already: a Newton step corrected for the curvature seen
+        # between the last two exact slopes. Taken without another pass
+        # when that correction is tiny (the terms it leaves are smaller
+        # still, far below the 1e-8 that ends the search).
+        newton = -f / g
+        corr = 0.5 * (g - prev_g) / (x - prev_x) * newton * newton / g
+        x_new = x + newton - corr
+        if abs(corr) < 1e-7 and x_lo < x_new < x_hi:
+            return _finish(st, math.exp(x_new))
+    if (prev_ok and abs(f) < math.inf and abs(prev_f) < math.inf
+            and 0 < abs(x - prev_x) < 0.05):
+        secant = (f - prev_f) / (x - prev_x)
+        if secant > 0:
+            slope = secant
+    st[_PREV_OK] = 1.0
+    st[_PREV_X] = x
+    st[_PREV_F] = f
+    st[_PREV_G] = g
+    has_lo, has_hi = st[_HAS_LO] != 0.0, st[_HAS_HI] != 0.0
+    flo, fhi = st[_FLO], st[_FHI]
+    x_new = math.nan
+    if slope > 0 and abs(f) < math.inf:
+        x_new = x - f / slope
+        if abs(f) < 1e-6 and x_lo < x_new < x_hi:
+            return _finish(st, math.exp(x_new))
+    elif has_lo and has_hi and abs(flo) < math.inf and abs(fhi) < math.inf:
+        x_new = x_hi - fhi * (x_hi - x_lo) / (fhi - flo)
+    if not (x_lo < x_new < x_hi):
+        if not has_hi:
+            x_new = min(x_lo + math.log(4.0), x_hi)
+        elif not has_lo:
+            x_new = max(x_hi - math.log(4.0), x_lo)
+        else:
+            x_new = 0.5 * (x_lo + x_hi)
+    if x_new == x:
+        return _end(st)
+    st[_S] = math.exp(x_new)
+    return st[_S]
+
+
+@kernel
+def _end(st):
+    """The search stopped without meeting the target exactly: the bracket's
+    upper end, if there is one."""
+    return _finish(st, math.exp(st[_X_HI]) if st[_HAS_HI] != 0.0 else math.nan)
+
+
 @kernel
 def reserve_search(frm, to, cnt, load_factor, model, segments, target, d, slope, s_over):
-    """The reserve-factor search (see ``damage._reserve_factor``): the smallest
-    scale whose damage reaches ``target`` (NaN for none within 1e-6..1e6). ``d`` and ``slope``
-    are the damage and slope at scale 1 (slope NaN when undefined),
-    ``s_over`` the scale at which the first cycle becomes an overload."""
+    """The reserve-factor search over one table in one compiled loop: the
+    smallest scale whose damage reaches ``target`` (NaN for none within
+    1e-6..1e6); arguments as :func:`reserve_begin`."""
     none = np.empty(0)
-    log_t = math.log(target)
-    x_lo = math.log(1e-6)
-    x_hi = math.log(1e6)
-    has_lo = False
-    has_hi = False
-    flo = 0.0
-    fhi = 0.0
-    s = 1.0
-    if 1.0 < s_over < 1e6 and d < math.inf and d < target:
-        below = s_over * (1.0 - 1e-12)
-        d_below = damage_pass(frm, to, cnt, below * load_factor, model, segments, none,
-                              False)[0]
-        if d_below < target:
-            return s_over
-        x_hi = math.log(below)
-        has_hi = True
-        fhi = math.log(d_below) - log_t
-        if abs(fhi) < 1e-8:
-            return below
-    prev_ok = False
-    prev_x = 0.0
-    prev_f = 0.0
-    prev_g = math.nan  # the exact slope f' at prev_x
-    for _ in range(100):
-        g = slope  # exact slope at this point (before any secant replaces it)
-        if d == 0.0:
-            f = -math.inf
-        elif d == math.inf:
-            f = math.inf
-        else:
-            f = math.log(d) - log_t
-        if abs(f) < 1e-8:
-            return s
-        x = math.log(s)
-        if f < 0:
-            x_lo = x
-            flo = f
-            has_lo = True
-        else:
-            x_hi = x
-            fhi = f
-            has_hi = True
-        if x_hi - x_lo < 1e-10:
-            break
-        if (prev_ok and abs(f) < 1e-3 and g > 0 and prev_g > 0 and abs(prev_f) < math.inf
-                and x != prev_x):
-            # Close already: a Newton step corrected for the curvature seen
-            # between the last two exact slopes. Taken without another pass
-            # when that correction is tiny (the terms it leaves are smaller
-            # still, far below the 1e-8 that ends the search).
-            newton = -f / g
-            corr = 0.5 * (g - prev_g) / (x - prev_x) * newton * newton / g
-            x_new = x + newton - corr
-            if abs(corr) < 1e-7 and x_lo < x_new < x_hi:
-                return math.exp(x_new)
-        if (prev_ok and abs(f) < math.inf and abs(prev_f) < math.inf
-                and 0 < abs(x - prev_x) < 0.05):
-            secant = (f - prev_f) / (x - prev_x)
-            if secant > 0:
-                slope = secant
-        prev_ok = True
-        prev_x = x
-        prev_f = f
-        prev_g = g
-        x_new = math.nan
-        if slope > 0 and abs(f) < math.inf:
-            x_new = x - f / slope
-            if abs(f) < 1e-6 and x_lo < x_new < x_hi:
-                return math.exp(x_new)
-        elif has_lo and has_hi and abs(flo) < math.inf and abs(fhi) < math.inf:
-            x_new = x_hi - fhi * (x_hi - x_lo) / (fhi - flo)
-        if not (x_lo < x_new < x_hi):
-            if not has_hi:
-                x_new = min(x_lo + math.log(4.0), x_hi)
-            elif not has_lo:
-                x_new = max(x_hi - math.log(4.0), x_lo)
-            else:
-                x_new = 0.5 * (x_lo + x_hi)
-        if x_new == x:
-            break
-        s = math.exp(x_new)
+    st = reserve_begin(target, d, slope, s_over)
+    s = reserve_step(st, d, slope)
+    while not math.isnan(s):
         out = damage_pass(frm, to, cnt, s * load_factor, model, segments, none, False)
         d = out[0]
-        slope = out[2] / d if 0.0 < d < math.inf else math.nan
-    if not has_hi:
-        return math.nan
-    return math.exp(x_hi)
+        s = reserve_step(st, d, out[2] / d if 0.0 < d < math.inf else math.nan)
+    return st[_RESULT]
 
 
 @kernel

@@ -280,6 +280,18 @@ class _Evaluator:
             self.overload_scale = out[6] / self.load_factor
         return (d, over, slope, max_inv) + tuple(out[4:6])
 
+    def damage_in_halves(self, s: float) -> tuple[float, int, float]:
+        """``(damage, overloads, slope_weight)`` at scale s, one half of the
+        cycles on each thread, combined in a fixed order."""
+        h = self.cols[0].shape[0] // 2
+        scale = s * self.load_factor
+        later = helper().submit(_dk.damage_pass, *(c[h:] for c in self.cols), scale,
+                                *self.args, _NO_ROWS, False)
+        a = _dk.damage_pass(*(c[:h] for c in self.cols), scale, *self.args, _NO_ROWS, False)
+        b = later.result()
+        over = a[1] + b[1]
+        return (math.inf if over else a[0] + b[0]), over, a[2] + b[2]
+
     def _halves(self, s: float, rows, n: int):
         """The first (extras) pass on two threads, one half of the cycles
         each (the kernel releases the GIL); the halves are combined in a
@@ -309,15 +321,27 @@ def _reserve_factor(evaluate, target: float, first) -> float | None:
     damage(lo) < target <= damage(hi) is kept; a step that leaves it, or a
     zero or infinite damage (cut-off, overload), grows or bisects it; a
     reserve limited by static overload is found from its onset directly.
-    The search is compiled (``_batch_kernels.reserve_search``) and shared
-    with the batch path, so both give the same factor.
+    The search's steps are compiled (``_batch_kernels.reserve_step``) and
+    shared with the batch path, so both give the same factor; a short table
+    runs the whole search in one compiled loop, a long one (from
+    ``_SPLIT_CYCLES`` cycles) evaluates each scale on two threads.
     """
     from . import _batch_kernels as _bk
 
     d, _, slope = first[:3]
     model, segments = evaluate.args
-    s = _bk.reserve_search(*evaluate.cols, evaluate.load_factor, model, segments, target,
-                           d, math.nan if slope is None else slope, evaluate.overload_scale)
+    slope = math.nan if slope is None else slope
+    n = evaluate.cols[0].shape[0]
+    if n < _SPLIT_CYCLES:
+        s = _bk.reserve_search(*evaluate.cols, evaluate.load_factor, model, segments, target,
+                               d, slope, evaluate.overload_scale)
+    else:
+        st = _bk.reserve_begin(target, d, slope, evaluate.overload_scale)
+        step = _bk.reserve_step(st, d, slope)
+        while not math.isnan(step):
+            d, _, weight = evaluate.damage_in_halves(step)
+            step = _bk.reserve_step(st, d, weight / d if 0.0 < d < math.inf else math.nan)
+        s = st[_bk._RESULT]
     return None if math.isnan(s) else float(s)
 
 

@@ -315,3 +315,39 @@ def test_long_tables_split_the_first_pass_without_changing_the_numbers():
     assert r.damage == pytest.approx(math.fsum(rows), rel=1e-12)
     assert r.equivalent_range == pytest.approx(
         assess(table, EN71, replace(opts, reserve_factor=False)).equivalent_range, rel=0)
+
+
+@pytest.mark.parametrize("method,mean,sd,allowable,onset", [
+    ("goodman", 15.0, 60.0, 1.0, False), ("none", 0.0, 60.0, 0.5, False),
+    ("none", 600.0, 5.0, 1.0, True)])
+def test_long_tables_search_the_reserve_on_two_threads(method, mean, sd, allowable, onset):
+    # From 2^16 cycles each scale of the reserve search is evaluated in two
+    # halves on two threads; the factor must be the one-thread compiled
+    # search's (the same steps, sums grouped differently) and round-trip:
+    # the history scaled by it reaches the allowable damage (issue's check),
+    # or, when the static overload comes first (small cycles about a high
+    # mean), is the overload onset.
+    from service.engine import _batch_kernels as bk
+    from service.engine.damage import _SPLIT_CYCLES, _Evaluator
+
+    x = np.random.default_rng(9).standard_normal(400_000) * sd + mean
+    table = astm_e1049(x)
+    assert len(table) >= _SPLIT_CYCLES
+    opts = AssessmentOptions(mean_stress_method=method, ultimate_strength=700.0,
+                             allowable_damage=allowable)
+    r = assess(table, EN71, opts)
+    ev = _Evaluator(table, EN71, opts)
+    first = ev(1.0, np.empty(len(table)), extras=True)
+    one = bk.reserve_search(*ev.cols, ev.load_factor, *ev.args, allowable, first[0],
+                            first[2] if first[2] is not None else math.nan, ev.overload_scale)
+    assert r.reserve_factor == pytest.approx(one, rel=1e-9)
+
+    def at(f):
+        return assess(table, EN71, replace(opts, load_factor=f, reserve_factor=False))
+
+    if onset:
+        assert r.reserve_factor == pytest.approx(700.0 / x.max(), rel=1e-9)
+        assert at(r.reserve_factor).damage < allowable
+        assert "static_overload" in at(r.reserve_factor * (1 + 1e-9)).flags
+    else:
+        assert at(r.reserve_factor).damage == pytest.approx(allowable, rel=1e-6)
