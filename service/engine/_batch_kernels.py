@@ -243,16 +243,13 @@ def assess_counted(rows, offsets, frm, to, cnt, load_factor, model, segments, ta
         pc = per_cycle[offsets[r]:offsets[r] + m]
         out = damage_pass(f, t, c, load_factor, model, segments, pc, True)
         d = out[0]
-        total = 0.0
-        for q in range(m):
-            total += c[q]
         stats[r, 0] = d
         stats[r, 1] = out[1]
         stats[r, 2] = out[3]
         stats[r, 3] = out[4]
         stats[r, 4] = out[5]
         stats[r, 5] = math.nan
-        stats[r, 6] = total
+        stats[r, 6] = out[7]
         if want_reserve and m > 0 and out[5] > 0:
             slope = out[2] / d if 0.0 < d < math.inf else math.nan
             stats[r, 5] = reserve_search(f, t, c, load_factor, model, segments, target, d,

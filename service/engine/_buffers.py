@@ -8,11 +8,12 @@ faulting its pages in. Two kinds of memory are therefore kept:
 
 * turning-point codes, scratch that never leaves the engine: one buffer per
   thread, reused whenever it is large enough (:func:`codes_buffer`);
-* cycle-table columns, which *do* leave the engine inside a
-  :class:`~service.engine.rainflow.CycleTable`: sets of five columns kept in
-  a process-wide :class:`ColumnPool` and handed out again only once no array
-  that views them is alive (counted by reference, so a table, a column or a
-  slice of one that anybody still holds keeps its set out of use).
+* cycle-table columns and per-cycle damage, which *do* leave the engine
+  (inside a :class:`~service.engine.rainflow.CycleTable` or an assessment):
+  sets of columns kept in a process-wide :class:`ColumnPool` and handed out
+  again only once no array that views them is alive (counted by reference,
+  so a table, a column or a slice of one that anybody still holds keeps its
+  set out of use).
 
 Both are bounded; larger needs are served fresh and not kept.
 """
@@ -50,15 +51,20 @@ def codes_buffer(n: int) -> np.ndarray:
     return buf
 
 
-def fresh_columns(rows: int) -> list[np.ndarray]:
-    """Five cycle columns (from, to, count as float64; start, end as int64).
+#: A cycle table's columns: from, to, count; start and end index.
+TABLE = (np.float64, np.float64, np.float64, np.int64, np.int64)
+#: One float column (per-cycle damage).
+FLOATS = (np.float64,)
 
-    Five separate arrays, not one block: above 4 MB numpy asks the kernel for
+
+def fresh_columns(rows: int, layout: tuple = TABLE) -> list[np.ndarray]:
+    """Fresh columns of ``rows`` rows, one per dtype of ``layout``.
+
+    Separate arrays, not one block: above 4 MB numpy asks the kernel for
     huge pages, and on this kind of machine (THP defrag on madvise) that
     stalled some calls for tens of milliseconds while memory was compacted.
     """
-    return [np.empty(rows, np.float64) for _ in range(3)] + [
-        np.empty(rows, np.int64) for _ in range(2)]
+    return [np.empty(rows, dtype) for dtype in layout]
 
 
 def _refs(entry: list) -> int:
@@ -88,23 +94,25 @@ class ColumnPool:
     def _bytes(entry: list) -> int:
         return sum(c.nbytes for c in entry)
 
-    def columns(self, rows: int) -> list[np.ndarray]:
-        """Five columns of at least ``rows`` rows: a kept set nothing views
-        (the smallest that fits within the slack) or a fresh one, which is
-        kept for later if there is room."""
+    def columns(self, rows: int, layout: tuple = TABLE) -> list[np.ndarray]:
+        """Columns of at least ``rows`` rows, one per dtype of ``layout``: a
+        kept set of that layout nothing views (the smallest that fits within
+        the slack) or a fresh one, which is kept for later if there is room."""
         if rows < self.min_rows:
-            return fresh_columns(rows)
+            return fresh_columns(rows, layout)
+        dtypes = [np.dtype(t) for t in layout]
         with self._lock:
             best = None
             for entry in self._sets:
                 size = entry[0].shape[0]
                 if rows <= size <= rows + int(rows * POOL_SLACK) and (
                         best is None or size < best[0].shape[0]) and (
+                        [c.dtype for c in entry] == dtypes) and (
                         _refs(entry) <= self._idle_refs):
                     best = entry
             if best is not None:
                 return list(best)  # a new list: the arrays count one more holder
-        cols = fresh_columns(rows)
+        cols = fresh_columns(rows, layout)
         self._keep(cols)
         return cols
 

@@ -256,8 +256,14 @@ def _onset_and_range(frm, to, lo, hi, method, param, clip, ultimate):
     stresses at which one becomes a static overload (inf if none does),
     mirroring ``_equivalent_ranges`` (peak strictly above ``ultimate``, or
     the correction's denominator reaching zero: Goodman-type at mu >= param,
-    Gerber at |mu| >= param), and the largest unscaled range."""
-    onset = math.inf
+    Gerber at |mu| >= param), and the largest unscaled range.
+
+    The smallest of ``ultimate / peak`` over the cycles is ``ultimate`` over
+    the largest peak (a correctly rounded quotient falls as the divisor
+    grows), so the loop keeps maxima and divides once.
+    """
+    max_peak = 0.0
+    max_mu = 0.0
     max_range = 0.0
     ratio = 1 <= method <= 4
     gerber = method == 2
@@ -265,15 +271,15 @@ def _onset_and_range(frm, to, lo, hi, method, param, clip, ultimate):
         rng = abs(frm[i] - to[i])
         a = 0.5 * rng
         mean = 0.5 * (frm[i] + to[i])
-        peak = mean + a
-        t_peak = ultimate / peak if peak > 0.0 else math.inf
+        max_peak = max(max_peak, mean + a)
         mu = max(mean, 0.0) if clip else mean
         mu = abs(mu) if gerber else mu
         # & not "and": a short-circuit is a branch, which stops vectorising.
-        t_den = param / mu if (ratio & (a > 0.0) & (mu > 0.0)) else math.inf
-        onset = min(onset, min(t_peak, t_den))
+        max_mu = max(max_mu, mu if (ratio & (a > 0.0)) else 0.0)
         max_range = max(max_range, rng)
-    return onset, max_range
+    t_peak = ultimate / max_peak if max_peak > 0.0 else math.inf
+    t_den = param / max_mu if max_mu > 0.0 else math.inf
+    return min(t_peak, t_den), max_range
 
 
 @kernel
@@ -289,12 +295,13 @@ def damage_pass(frm, to, cnt, scale, model, segments, per_cycle, extras):
     is empty.
 
     Returns ``(damage, overloads, slope_weight, max_range_on_curve, eq_sum,
-    max_range, overload_onset)``: damage (inf with any overload), overload
-    cycles, the damage-weighted slope sum (``slope_weight / damage`` is
-    d log D / d log s away from the cut-off), and, with ``extras``, the
-    largest finite corrected range, ``sum count (S / range_factor)^eq_slope``,
-    the largest unscaled range and the factor on the unscaled stresses at
-    which the first cycle becomes a static overload.
+    max_range, overload_onset, total_count)``: damage (inf with any
+    overload), overload cycles, the damage-weighted slope sum
+    (``slope_weight / damage`` is d log D / d log s away from the cut-off),
+    and, with ``extras``, the largest finite corrected range,
+    ``sum count (S / range_factor)^eq_slope``, the largest unscaled range,
+    the factor on the unscaled stresses at which the first cycle becomes a
+    static overload and the sum of the counts (exact: halves and wholes).
     """
     method = int(model[0])
     param = model[1]
@@ -323,6 +330,7 @@ def damage_pass(frm, to, cnt, scale, model, segments, per_cycle, extras):
     eq_sum = 0.0
     max_range = 0.0
     onset = math.inf
+    counted = 0.0
     inv_rf = 1.0 / range_factor
     for lo in range(0, n, _CHUNK):
         hi = min(lo + _CHUNK, n)
@@ -345,9 +353,10 @@ def damage_pass(frm, to, cnt, scale, model, segments, per_cycle, extras):
             o, r = _onset_and_range(frm, to, lo, hi, method, param, clip, ultimate)
             onset = min(onset, o)
             max_range = max(max_range, r)
+            counted += _sum8(cnt[lo:hi], k)
     if over:
         total = math.inf
-    return total, over, weight, max_sr, eq_sum, max_range, onset
+    return total, over, weight, max_sr, eq_sum, max_range, onset, counted
 
 
 @functools.lru_cache(maxsize=256)

@@ -104,7 +104,7 @@ def main(argv=None) -> dict:
     args = ap.parse_args(argv)
     warm_up()
     n = 10**6 if args.quick else 10**7
-    reps = 5 if args.quick else 3
+    reps = 7
     print(f"{'signal':<12}{'samples':>10}{'count ms':>10}{'assess ms':>11}{'ratio':>8}")
     rows = {}
     for kind in ("narrow_band", "white", "smooth"):
