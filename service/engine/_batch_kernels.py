@@ -206,23 +206,24 @@ def reserve_search(frm, to, cnt, load_factor, model, segments, target, d, slope,
 
 
 @kernel
-def count_points(block, rows, frm, to, cnt, s_ix, e_ix, bad):
+def count_points(block, xt, rows, frm, to, cnt, s_ix, e_ix, bad):
     """Count every point (column) of a samples x points ``block``.
 
-    Each column is copied into a contiguous scratch row first: reading a
-    column of a row-major array column after column keeps the block's
-    cache lines hot, so no transposed copy of the whole block is needed.
-    Point r's rows go to row r of the 2-D outputs; ``rows[r]`` of them.
+    The block is first copied row by row into ``xt`` (points x samples):
+    each row of the block is read once, whole, and every point's samples
+    end up contiguous (reading a column of a row-major slice of a wide array
+    instead touched a new page every sample or two). Point r's rows go to
+    row r of the 2-D outputs; ``rows[r]`` of them.
     """
     n, b = block.shape
-    xcol = np.empty(n)
+    for q in range(n):
+        for r in range(b):
+            xt[r, q] = block[q, r]
     codes = np.empty(n + 1, np.int32)
     sv = np.empty(n + 2 + STACK_PAD)
     si = np.empty(n + 2 + STACK_PAD, np.int64)
     for r in range(b):
-        for q in range(n):
-            xcol[q] = block[q, r]
-        m, flag = count_whole(xcol, codes, sv, si, frm[r], to[r], cnt[r], s_ix[r], e_ix[r])
+        m, flag = count_whole(xt[r], codes, sv, si, frm[r], to[r], cnt[r], s_ix[r], e_ix[r])
         rows[r] = m
         bad[r] = flag
 

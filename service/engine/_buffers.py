@@ -15,7 +15,9 @@ faulting its pages in. Two kinds of memory are therefore kept:
   so a table, a column or a slice of one that anybody still holds keeps its
   set out of use).
 
-Both are bounded; larger needs are served fresh and not kept.
+A third kind is scratch that a caller takes and gives back when done
+(:class:`ScratchShelf`): the batch path's per-run cycle buffers, which no
+result keeps. All are bounded; larger needs are served fresh and not kept.
 """
 
 from __future__ import annotations
@@ -148,3 +150,42 @@ class ColumnPool:
 
 #: The pool the counting draws its cycle tables from.
 POOL = ColumnPool()
+
+
+class ScratchShelf:
+    """Sets of arrays a caller takes for a while and gives back, kept for the
+    next caller (at most ``max_sets``, each at most ``max_bytes``).
+
+    Unlike the pool nothing is counted: a set is only ever in the hands of
+    the caller that took it, and that caller promises that no array viewing
+    it outlives the give-back.
+    """
+
+    def __init__(self, max_sets: int = 2, max_bytes: int = 64 * 2**20):
+        self.max_sets = max_sets
+        self.max_bytes = max_bytes
+        self._shelf: list[tuple[tuple, list[np.ndarray]]] = []
+        self._lock = threading.Lock()
+
+    def take(self, shape: tuple, layout: tuple) -> list[np.ndarray]:
+        """Arrays of ``shape``, one per dtype of ``layout`` (contents undefined)."""
+        key = (tuple(shape), tuple(np.dtype(t).str for t in layout))
+        with self._lock:
+            for i, (k, arrays) in enumerate(self._shelf):
+                if k == key:
+                    del self._shelf[i]
+                    return arrays
+        return [np.empty(shape, dtype) for dtype in layout]
+
+    def give_back(self, arrays: list[np.ndarray]) -> None:
+        key = (arrays[0].shape, tuple(a.dtype.str for a in arrays))
+        if sum(a.nbytes for a in arrays) > self.max_bytes:
+            return
+        with self._lock:
+            if len(self._shelf) >= self.max_sets:
+                self._shelf.pop(0)
+            self._shelf.append((key, arrays))
+
+
+#: The shelf the batch path keeps its per-run cycle buffers on.
+SHELF = ScratchShelf()

@@ -15,7 +15,7 @@ from dataclasses import dataclass, field, fields
 import numpy as np
 
 from . import _damage_kernels as _dk
-from ._buffers import FLOATS, POOL
+from ._buffers import FLOATS, POOL, SHELF, TABLE
 from ._threads import helper
 from .errors import InvalidLoadHistory, InvalidParameter
 from .mean_stress import (COMPRESSIVE_MEAN_POLICIES, MEAN_STRESS_METHODS,
@@ -402,6 +402,20 @@ def _check_duration(duration_s):
                                value=duration_s, limit=0.0)
 
 
+def _top_rows(per_cycle: np.ndarray, k: int):
+    """Rows of the ``k`` most damaging cycles, largest first (ties: earliest),
+    as ``top_k`` gives them; a long table is searched in two halves on two
+    threads and the two lists merged."""
+    n = per_cycle.shape[0]
+    if n < _SPLIT_CYCLES:
+        return _dk.top_k(per_cycle, k)
+    h = n // 2
+    later = helper().submit(_dk.top_k, per_cycle[h:], k)
+    first = _dk.top_k(per_cycle[:h], k).tolist()
+    second = [h + int(i) for i in later.result()]
+    return sorted(first + second, key=lambda i: (-per_cycle[i], i))[:k]
+
+
 def _complete(table, evaluate, per_cycle, first, curve, opts, duration_s) -> PointAssessment:
     """Reserve factor, top cycles and the result, after the first pass."""
     n = len(table)
@@ -409,7 +423,7 @@ def _complete(table, evaluate, per_cycle, first, curve, opts, duration_s) -> Poi
     reserve = None
     if opts.reserve_factor and n and max_range > 0:
         reserve = _reserve_factor(evaluate, opts.allowable_damage, first)
-    top_rows = _dk.top_k(per_cycle, opts.top_cycles) if opts.top_cycles and n else ()
+    top_rows = _top_rows(per_cycle, opts.top_cycles) if opts.top_cycles and n else ()
     return _assemble(table, per_cycle, top_rows, damage, overloads, max_inv_life, eq_sum,
                      max_range, total_count, reserve, curve, opts, duration_s)
 
@@ -430,16 +444,23 @@ def _assemble(table, per_cycle, top_rows, damage, overloads, max_inv_life, eq_su
         flags.append("low_cycle_regime")
     life = math.inf if damage == 0 else opts.allowable_damage / damage
     top = []
-    for i in top_rows:
-        if i < 0 or per_cycle[i] == 0:
-            break
-        f, t = float(table.stress_from[i]), float(table.stress_to[i])
-        top.append({
-            "start_index": int(table.start_index[i]), "end_index": int(table.end_index[i]),
-            "stress_range": abs(f - t), "stress_mean": 0.5 * (f + t),
-            "count": float(table.count[i]), "damage": float(per_cycle[i]),
-            "damage_share": float(per_cycle[i] / damage) if math.isfinite(damage) else None,
-        })
+    rows = [int(i) for i in top_rows if i >= 0]
+    if rows:
+        # One gather per column and plain floats: numpy scalars one at a
+        # time cost most of a short point's bookkeeping.
+        pc = per_cycle[rows].tolist()
+        cols = zip(table.start_index[rows].tolist(), table.end_index[rows].tolist(),
+                   table.stress_from[rows].tolist(), table.stress_to[rows].tolist(),
+                   table.count[rows].tolist(), pc)
+        finite = math.isfinite(damage)
+        for s_i, e_i, f, t, c, d in cols:
+            if d == 0:
+                break
+            top.append({
+                "start_index": s_i, "end_index": e_i,
+                "stress_range": abs(f - t), "stress_mean": 0.5 * (f + t),
+                "count": c, "damage": d, "damage_share": d / damage if finite else None,
+            })
     eq_range = float((eq_sum / opts.equivalent_cycles) ** (1.0 / opts.equivalent_slope))
     cautions = CAUTIONS + tuple(FLAG_CAUTIONS[f] for f in flags) + tuple(curve.notes)
     return PointAssessment(
@@ -497,11 +518,19 @@ def _assess_batch(array: np.ndarray, curve: SNCurve, opts: AssessmentOptions,
         if block.dtype != np.float64:
             block = block.astype(np.float64)
         b = block.shape[1]
-        frm, to, cnt = (np.empty((b, n)) for _ in range(3))
-        s_ix, e_ix = (np.empty((b, n), np.int64) for _ in range(2))
+        # The run's cycle rows live only until its results are built (no
+        # result keeps a view of them), so they go back on the shelf after:
+        # fresh pages for 64 points x 1e4 samples cost more than counting.
+        bufs = SHELF.take((b, n), TABLE + FLOATS)
+        try:
+            return counted_run(j, block, b, *bufs)
+        finally:
+            SHELF.give_back(bufs)
+
+    def counted_run(j, block, b, frm, to, cnt, s_ix, e_ix, xt):
         nrows = np.empty(b, np.int64)
         bad = np.zeros(b, np.int64)
-        _bk.count_points(block, nrows, frm, to, cnt, s_ix, e_ix, bad)
+        _bk.count_points(block, xt, nrows, frm, to, cnt, s_ix, e_ix, bad)
         for r in np.flatnonzero(bad):
             # A bad sample: the one-point path raises the precise error.
             try:
@@ -513,7 +542,8 @@ def _assess_batch(array: np.ndarray, curve: SNCurve, opts: AssessmentOptions,
                 raise
         offsets = np.zeros(b, np.int64)
         offsets[1:] = np.cumsum(nrows)[:-1]
-        per_cycle = np.empty(int(nrows.sum()))
+        total_rows = int(nrows.sum())
+        per_cycle = POOL.columns(total_rows, FLOATS)[0][:total_rows]
         st = stats[j:j + b]
         _bk.assess_counted(nrows, offsets, frm, to, cnt, ev.load_factor, model, segments,
                            opts.allowable_damage, bool(opts.reserve_factor), k_top, per_cycle,

@@ -111,3 +111,23 @@ def test_concurrent_counts_from_several_threads_are_each_correct():
 def _bounded_pool():
     yield
     assert POOL.kept_bytes() <= POOL.max_bytes
+
+
+def test_scratch_shelf_hands_a_set_to_one_taker_at_a_time():
+    from service.engine._buffers import ScratchShelf
+
+    shelf = ScratchShelf(max_sets=1, max_bytes=10**6)
+    a = shelf.take((4, 8), (np.float64, np.int64))
+    b = shelf.take((4, 8), (np.float64, np.int64))
+    assert a[0] is not b[0]  # both out at once: two sets
+    shelf.give_back(a)
+    again = shelf.take((4, 8), (np.float64, np.int64))
+    assert again[0] is a[0]  # handed out again only after the give-back
+    assert shelf.take((4, 8), (np.float64, np.int64))[0] is not a[0]
+    # Another shape or layout never gets it; sets above the bound are not kept.
+    shelf.give_back(again)
+    assert shelf.take((4, 9), (np.float64, np.int64))[0] is not a[0]
+    assert shelf.take((4, 8), (np.int64, np.int64))[0] is not a[0]
+    big = shelf.take((1000, 1000), (np.float64,))
+    shelf.give_back(big)
+    assert shelf.take((1000, 1000), (np.float64,))[0] is not big[0]

@@ -351,3 +351,16 @@ def test_long_tables_search_the_reserve_on_two_threads(method, mean, sd, allowab
         assert "static_overload" in at(r.reserve_factor * (1 + 1e-9)).flags
     else:
         assert at(r.reserve_factor).damage == pytest.approx(allowable, rel=1e-6)
+
+
+def test_top_cycles_of_a_long_table_equal_one_search():
+    # Long tables search the most damaging cycles in two halves; ties must
+    # still go to the earliest row (equal ranges repeat in a block history).
+    from service.engine import _damage_kernels as dk
+    from service.engine.damage import _SPLIT_CYCLES, _top_rows
+
+    rng = np.random.default_rng(3)
+    values = np.round(rng.exponential(1.0, 3 * _SPLIT_CYCLES), 1)  # many ties
+    values[[10, _SPLIT_CYCLES * 2 + 5]] = np.inf  # overloads rank first
+    for k in (1, 10, 50):
+        assert list(_top_rows(values, k)) == dk.top_k(values, k).tolist()
