@@ -444,14 +444,14 @@ def _assemble(table, per_cycle, top_rows, damage, overloads, max_inv_life, eq_su
         flags.append("low_cycle_regime")
     life = math.inf if damage == 0 else opts.allowable_damage / damage
     top = []
-    rows = [int(i) for i in top_rows if i >= 0]
-    if rows:
+    rows = np.asarray(top_rows, np.int64)
+    rows = rows[rows >= 0]
+    if rows.shape[0]:
         # One gather per column and plain floats: numpy scalars one at a
         # time cost most of a short point's bookkeeping.
-        pc = per_cycle[rows].tolist()
         cols = zip(table.start_index[rows].tolist(), table.end_index[rows].tolist(),
                    table.stress_from[rows].tolist(), table.stress_to[rows].tolist(),
-                   table.count[rows].tolist(), pc)
+                   table.count[rows].tolist(), per_cycle[rows].tolist())
         finite = math.isfinite(damage)
         for s_i, e_i, f, t, c, d in cols:
             if d == 0:
@@ -552,13 +552,13 @@ def _assess_batch(array: np.ndarray, curve: SNCurve, opts: AssessmentOptions,
         # Plain Python numbers from here on: numpy scalars cost several
         # times more in the per-point bookkeeping, which holds the GIL.
         rows_py, offs_py, st_py = nrows.tolist(), offsets.tolist(), st.tolist()
-        tops_py = top[j:j + b, :opts.top_cycles].tolist()
+        tops_np = top[j:j + b, :opts.top_cycles]
         for r in range(b):
             m, o = rows_py[r], offs_py[r]
             table = CycleTable(frm[r, :m], to[r, :m], cnt[r, :m], s_ix[r, :m], e_ix[r, :m])
             d, over, max_sr, eq_sum, max_range, reserve, total = st_py[r]
             max_inv = _dk.inverse_life(seg_py, max_sr) if max_sr > 0 else 0.0
-            tops = tops_py[r] if opts.top_cycles else ()
+            tops = tops_np[r] if opts.top_cycles else ()
             out.append((str(j + r), _assemble(
                 table, per_cycle[o:o + m], tops, d, over, max_inv, eq_sum, max_range, total,
                 None if math.isnan(reserve) else float(reserve), curve, opts, duration_s,
