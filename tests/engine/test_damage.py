@@ -364,3 +364,25 @@ def test_top_cycles_of_a_long_table_equal_one_search():
     values[[10, _SPLIT_CYCLES * 2 + 5]] = np.inf  # overloads rank first
     for k in (1, 10, 50):
         assert list(_top_rows(values, k)) == dk.top_k(values, k).tolist()
+
+
+def test_batch_leaves_the_garbage_collector_as_it_found_it():
+    # The batch pauses Python's collector while it builds results; it must
+    # be back on afterwards, also after a bad point, and stay off if the
+    # caller had turned it off.
+    import gc
+
+    data = np.random.default_rng(1).standard_normal((200, 6))
+    assert gc.isenabled()
+    assess_many(data, EN71)
+    assert gc.isenabled()
+    data[17, 3] = np.inf
+    with pytest.raises(ValueError):
+        assess_many(data, EN71)
+    assert gc.isenabled()
+    gc.disable()
+    try:
+        assess_many(data[:, :3], EN71)
+        assert not gc.isenabled()
+    finally:
+        gc.enable()
