@@ -25,6 +25,7 @@ from dataclasses import replace
 import numpy as np
 
 from service import runs
+from service.engine._threads import in_one_thread
 from service.engine.damage import AssessmentOptions, assess
 from service.engine.errors import InvalidLoadHistory, InvalidParameter, unknown
 from service.engine.rainflow import CountingState, close_residue, count_block
@@ -238,7 +239,7 @@ def post_block(con, data_dir, asset_id: str, seq: int, up, spooled, *, recorded_
             if len(in_order) > 1 and up.sample_count >= runs.THREADED_SAMPLES:
                 # Long blocks: points side by side (the kernels release the GIL).
                 with ThreadPoolExecutor(runs.POINT_WORKERS) as pool:
-                    totals = dict(pool.map(advance, in_order))
+                    totals = dict(pool.map(in_one_thread(advance), in_order))
             else:
                 totals = dict(map(advance, in_order))
             with sqlite.write(con):

@@ -17,6 +17,7 @@ import numpy as np
 
 from service.engine import histograms, multiaxial
 from service.engine import units as engine_units
+from service.engine._threads import in_one_thread
 from service.engine.damage import CAUTIONS, assess, assess_history
 from service.engine.errors import InvalidParameter, unknown
 from service.engine.rainflow import RESIDUE_TREATMENTS, CycleTable, astm_e1049, resolve_gate
@@ -343,7 +344,8 @@ def run(con, data_dir, request: dict, channels: dict[str, np.ndarray],
     long_points = sum(p.sample_count for p in points) >= THREADED_SAMPLES * len(points)
     pool = ThreadPoolExecutor(POINT_WORKERS) if long_points and len(points) > 1 else None
     try:
-        outcomes = pool.map(one, points) if pool else map(one, points)
+        # On the pool each point keeps to its own thread (no engine helper).
+        outcomes = pool.map(in_one_thread(one), points) if pool else map(one, points)
         for i, (p, (res, _dmg)) in enumerate(zip(points, outcomes)):
             results[p.name] = res
             if progress is not None:

@@ -18,7 +18,7 @@ import numpy as np
 
 from . import _damage_kernels as _dk
 from ._buffers import FLOATS, POOL, SHELF, TABLE
-from ._threads import helper
+from ._threads import beside, in_one_thread
 from .errors import InvalidLoadHistory, InvalidParameter
 from .mean_stress import (COMPRESSIVE_MEAN_POLICIES, MEAN_STRESS_METHODS,
                           check_strengths, equivalent_amplitude)
@@ -289,7 +289,7 @@ class _Evaluator:
         cycles on each thread, combined in a fixed order."""
         h = self.cols[0].shape[0] // 2
         scale = s * self.load_factor
-        later = helper().submit(_dk.damage_pass, *(c[h:] for c in self.cols), scale,
+        later = beside(_dk.damage_pass, *(c[h:] for c in self.cols), scale,
                                 *self.args, _NO_ROWS, False)
         a = _dk.damage_pass(*(c[:h] for c in self.cols), scale, *self.args, _NO_ROWS, False)
         b = later.result()
@@ -304,7 +304,7 @@ class _Evaluator:
         scale = s * self.load_factor
         halves = [tuple(c[:h] for c in self.cols), tuple(c[h:] for c in self.cols)]
         parts = [rows[:h] if rows.shape[0] else rows, rows[h:] if rows.shape[0] else rows]
-        later = helper().submit(_dk.damage_pass, *halves[1], scale, *self.args, parts[1], True)
+        later = beside(_dk.damage_pass, *halves[1], scale, *self.args, parts[1], True)
         a = _dk.damage_pass(*halves[0], scale, *self.args, parts[0], True)
         return _combine(a, later.result())
 
@@ -412,7 +412,7 @@ def _top_rows(per_cycle: np.ndarray, k: int):
     if n < _SPLIT_CYCLES:
         return _dk.top_k(per_cycle, k)
     h = n // 2
-    later = helper().submit(_dk.top_k, per_cycle[h:], k)
+    later = beside(_dk.top_k, per_cycle[h:], k)
     first = _dk.top_k(per_cycle[:h], k).tolist()
     second = [h + int(i) for i in later.result()]
     return sorted(first + second, key=lambda i: (-per_cycle[i], i))[:k]
@@ -484,6 +484,20 @@ def assess_history(samples, curve: SNCurve, options: AssessmentOptions | None = 
     _check_duration(duration_s)
     table = astm_e1049(samples, gate=gate, residue=residue)
     return assess(table, curve, options, duration_s=duration_s)
+
+
+def damage_of_history(samples, curve: SNCurve, options: AssessmentOptions | None = None, *,
+                      gate: float = 0.0, residue: str = "half_cycles") -> float:
+    """The Miner damage of one pass of ``samples`` and nothing else (what a
+    scan over many candidate histories compares): no per-cycle damage, no
+    extras, no reserve. Equal to ``assess_history(...).damage`` to the last
+    bit (the same passes, summed in the same order)."""
+    opts = options or AssessmentOptions()
+    evaluate = _Evaluator(astm_e1049(samples, gate=gate, residue=residue), curve, opts)
+    if evaluate.cols[0].shape[0] >= _SPLIT_CYCLES:
+        return float(evaluate.damage_in_halves(1.0)[0])
+    return float(_dk.damage_pass(*evaluate.cols, 1.0 * evaluate.load_factor, *evaluate.args,
+                                 _NO_ROWS, False)[0])
 
 
 #: Longest point (samples) for the batch path; longer points are few enough
@@ -659,7 +673,7 @@ def assess_many(histories, curve: SNCurve, options: AssessmentOptions | None = N
     if workers <= 1 or n_items < 4 or mean_size < _THREADED_SAMPLES:
         return dict(one(it) for it in items)
     with ThreadPoolExecutor(max_workers=workers) as pool:
-        return dict(pool.map(one, items))
+        return dict(pool.map(in_one_thread(one), items))
 
 
 def warm_up() -> None:

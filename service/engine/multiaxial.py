@@ -43,6 +43,7 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from . import _multiaxial_kernels as _k
+from ._threads import in_one_thread
 from .errors import InvalidLoadHistory, InvalidParameter, unknown
 
 #: Gauge directions of the rosette layouts, from gauge a. [deg]
@@ -571,7 +572,7 @@ def assess_multiaxial(components, curve, options=None, *,
     time), then the governing history once in full. ``gate`` [MPa] applies
     to each counted history. Returns a :class:`MultiaxialAssessment`.
     """
-    from .damage import AssessmentOptions, assess_history
+    from .damage import AssessmentOptions, assess_history, damage_of_history
 
     cols = _columns(components)
     opts = options or AssessmentOptions()
@@ -593,9 +594,8 @@ def assess_multiaxial(components, curve, options=None, *,
     shear_light = replace(shear_opts, reserve_factor=False, top_cycles=0)
 
     def damage_of(history, shear=False):
-        return assess_history(history, shear_curve if shear else curve,
-                              shear_light if shear else light, gate=gate, residue=residue,
-                              duration_s=duration_s).damage
+        return damage_of_history(history, shear_curve if shear else curve,
+                                 shear_light if shear else light, gate=gate, residue=residue)
 
     parts = _parts(cols)
     scalar = [r for r in names if r not in PLANE_REDUCTIONS]
@@ -614,7 +614,7 @@ def assess_multiaxial(components, curve, options=None, *,
 
         if workers > 1 and len(weights) > 1:
             with ThreadPoolExecutor(max_workers=workers) as pool:
-                return np.array(list(pool.map(plane, range(len(weights)))))
+                return np.array(list(pool.map(in_one_thread(plane), range(len(weights)))))
         return np.array([plane(k) for k in range(len(weights))])
 
     for r in PLANE_REDUCTIONS:

@@ -26,6 +26,7 @@ import numpy as np
 
 from . import _counting_kernels as _k
 from ._buffers import POOL, codes_buffer
+from ._threads import helper, helper_allowed
 from .errors import IncompatibleState, InvalidLoadHistory, InvalidParameter, unknown
 
 #: Residue treatments for :func:`astm_e1049`, keyed by their public names.
@@ -343,9 +344,8 @@ def _plain_points(x, xbits, first: bool, prev: float, direction: int, codes):
     so the halves are exact; the second half's codes are moved down after the
     first's. ``codes`` holds ``len(x) + 2``."""
     n = x.shape[0]
-    if n < _SPLIT_SAMPLES:
+    if n < _SPLIT_SAMPLES or not helper_allowed():
         return _k.turning_points_plain(x, xbits, first, prev, direction, codes, 0)
-    from ._threads import helper
 
     h = n // 2
     d_h = _k.direction_before(x, h, first, prev, direction)
@@ -400,7 +400,6 @@ class _Pipeline:
         self.results: list = [None] * chunks  # (k, d, bad) or an exception
         self.cv = threading.Condition(threading.Lock())
         self.front, self.back = 1, chunks - 1  # the caller takes chunk 0 now
-        from ._threads import helper
 
         # Waking the helper takes 0.1-0.2 ms on this kind of machine: ask first.
         self.future = helper().submit(self._helper_loop)
@@ -629,7 +628,7 @@ def _count(x: np.ndarray, state: CountingState | None, gate: float,
         sv, si, sp = _new_stack(64)
     else:
         sv, si, sp = _new_stack(64, state.residue_values, state.residue_indices)
-    if gate == 0.0 and x.shape[0] >= _PIPELINE_SAMPLES:
+    if gate == 0.0 and x.shape[0] >= _PIPELINE_SAMPLES and helper_allowed():
         pipe = _Pipeline(x, state, final, sp)
         try:
             table, rv, ri = _stack(pipe.segments(), sv, si, sp, True, final)

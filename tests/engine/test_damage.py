@@ -386,3 +386,22 @@ def test_batch_leaves_the_garbage_collector_as_it_found_it():
         assert not gc.isenabled()
     finally:
         gc.enable()
+
+
+@pytest.mark.parametrize("n", [3_000, 400_000])
+@pytest.mark.parametrize("method", ["none", "goodman", "smith_watson_topper"])
+def test_damage_alone_is_the_assessments_damage_to_the_last_bit(n, method):
+    # What a critical-plane scan compares (damage_of_history) must be the
+    # very number the full assessment of the chosen plane reports, for short
+    # tables and for long ones (first pass in halves), also when the halves
+    # run on the calling thread (one_thread, as on a scan's worker threads).
+    from service.engine._threads import one_thread
+    from service.engine.damage import damage_of_history
+
+    x = np.random.default_rng(n).standard_normal(n) * 60 + 20
+    opts = AssessmentOptions(mean_stress_method=method, ultimate_strength=700.0)
+    full = assess_history(x, EN71, opts).damage
+    assert damage_of_history(x, EN71, opts) == full
+    with one_thread():
+        assert damage_of_history(x, EN71, opts) == full
+        assert assess_history(x, EN71, opts).damage == full

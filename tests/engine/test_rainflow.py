@@ -433,3 +433,33 @@ def test_pipeline_completes_while_the_helper_thread_is_busy(tiny_pipeline):
         blocker.result()
     with _pipelined(False):
         _tables_equal(astm_e1049(x), two)
+
+
+def test_one_thread_keeps_long_work_off_the_helper(monkeypatch):
+    # Threads that already run side by side (planes of a scan, points of a
+    # request) keep the engine's work on their own thread; the figures are
+    # the same as with the helper (counts exactly; damage to the last bit).
+    from service.engine import _threads, rainflow as rf
+    from service.engine._threads import helper_allowed, in_one_thread, one_thread
+    from service.engine.damage import AssessmentOptions, assess_history
+    from service.engine.sn_catalogue import catalogue_curve
+
+    x = np.random.default_rng(12).standard_normal(300_000) * 50
+    curve = catalogue_curve("EN1993-1-9:71")
+    opts = AssessmentOptions(mean_stress_method="goodman", ultimate_strength=700.0)
+    with_helper = astm_e1049(x), assess_history(x, curve, opts)
+
+    def no_helper():
+        raise AssertionError("the helper thread was asked for")
+
+    monkeypatch.setattr(_threads, "helper", no_helper)
+    monkeypatch.setattr(rf, "helper", no_helper)
+    with one_thread():
+        assert not helper_allowed()
+        alone = astm_e1049(x), assess_history(x, curve, opts)
+    assert helper_allowed()
+    _tables_equal(with_helper[0], alone[0])
+    a, b = with_helper[1], alone[1]
+    assert a.damage == b.damage and a.reserve_factor == b.reserve_factor
+    assert a.equivalent_range == b.equivalent_range and a.top_cycles == b.top_cycles
+    assert in_one_thread(helper_allowed)() is False and helper_allowed()
