@@ -13,6 +13,9 @@ import numpy as np
 
 from ._numba import kernel
 
+#: Exponent mask of an IEEE-754 double; all ones means inf or NaN.
+_EXP = np.int64(0x7FF0000000000000)
+
 
 @kernel
 def rosette_plane_stress(a, b, c, inv, poisson, sxx, syy, sxy):
@@ -60,47 +63,57 @@ def plane_rotation(sxx, syy, sxy, significance):
     lines is half the angle between their vectors, so one arccos at the end.
     """
     n = sxx.shape[0]
+    # Pass 1: the largest von Mises, and the well-defined sample of largest
+    # von Mises with its direction (it is the reference if it clears the
+    # floor, which depends on the first; if it does not, none does).
     vmax = 0.0
+    best = 0.0  # a sample of zero stress has no direction
+    rx = 0.0
+    ry = 0.0
     for i in range(n):
         vm = math.sqrt(sxx[i] * sxx[i] - sxx[i] * syy[i] + syy[i] * syy[i]
                        + 3.0 * sxy[i] * sxy[i])
         if vm > vmax:
             vmax = vm
+        if vm <= best:
+            continue
+        centre = 0.5 * (sxx[i] + syy[i])
+        hx = 0.5 * (sxx[i] - syy[i])
+        radius = math.sqrt(hx * hx + sxy[i] * sxy[i])
+        a1 = abs(centre + radius)
+        a2 = abs(centre - radius)
+        hi = max(a1, a2)
+        if hi - min(a1, a2) < 0.1 * hi:
+            continue  # also radius = 0: no direction
+        sgn = -1.0 / radius if a2 > a1 else 1.0 / radius
+        best = vm
+        rx = hx * sgn
+        ry = sxy[i] * sgn
     if vmax == 0.0:
         return 0.0
     floor = significance * vmax
-    best = -1.0
-    rx = 0.0
-    ry = 0.0
+    if best < floor:
+        return 0.0
+    # Pass 2: the largest turn from the reference among the samples that
+    # clear the floor and have a direction.
     lowest = 1.0
-    for sweep in range(2):
-        for i in range(n):
-            vm = math.sqrt(sxx[i] * sxx[i] - sxx[i] * syy[i] + syy[i] * syy[i]
-                           + 3.0 * sxy[i] * sxy[i])
-            if vm < floor:
-                continue
-            centre = 0.5 * (sxx[i] + syy[i])
-            hx = 0.5 * (sxx[i] - syy[i])
-            radius = math.sqrt(hx * hx + sxy[i] * sxy[i])
-            a1 = abs(centre + radius)
-            a2 = abs(centre - radius)
-            hi = max(a1, a2)
-            if hi - min(a1, a2) < 0.1 * hi:
-                continue  # also radius = 0: no direction
-            sgn = -1.0 / radius if a2 > a1 else 1.0 / radius
-            dx = hx * sgn
-            dy = sxy[i] * sgn
-            if sweep == 0:
-                if vm > best:
-                    best = vm
-                    rx = dx
-                    ry = dy
-            else:
-                d = dx * rx + dy * ry
-                if d < lowest:
-                    lowest = d
-        if best < 0.0:
-            return 0.0
+    for i in range(n):
+        vm = math.sqrt(sxx[i] * sxx[i] - sxx[i] * syy[i] + syy[i] * syy[i]
+                       + 3.0 * sxy[i] * sxy[i])
+        if vm < floor:
+            continue
+        centre = 0.5 * (sxx[i] + syy[i])
+        hx = 0.5 * (sxx[i] - syy[i])
+        radius = math.sqrt(hx * hx + sxy[i] * sxy[i])
+        a1 = abs(centre + radius)
+        a2 = abs(centre - radius)
+        hi = max(a1, a2)
+        if hi - min(a1, a2) < 0.1 * hi:
+            continue
+        sgn = -1.0 / radius if a2 > a1 else 1.0 / radius
+        d = hx * sgn * rx + sxy[i] * sgn * ry
+        if d < lowest:
+            lowest = d
     return 0.5 * math.degrees(math.acos(max(-1.0, min(1.0, lowest))))
 
 
@@ -188,3 +201,17 @@ def warm_up() -> None:
     for code in REDUCTION_CODES.values():
         superposed_reduction(np.ones((1, 2, 6)), np.ones((2, 3)), code, np.empty((1, 3)))
     plane_rotation(x, x * 0.5, x * 0.2, 0.1)
+
+
+@kernel
+def split_columns(arr, bits, outs):
+    """``outs[j][i] = arr[i, j]`` for an ``(n, k)`` component array and a
+    tuple of k columns; returns 1 if any value is inf or NaN (``bits`` is
+    ``arr`` viewed as int64), else 0. One read of the array does both."""
+    n, k = arr.shape
+    bad = 0
+    for i in range(n):
+        for j in range(k):
+            outs[j][i] = arr[i, j]
+            bad |= (bits[i, j] & _EXP) == _EXP
+    return bad

@@ -43,6 +43,7 @@ from dataclasses import dataclass, field, replace
 import numpy as np
 
 from . import _multiaxial_kernels as _k
+from ._buffers import FLOATS, POOL
 from ._threads import in_one_thread
 from .errors import InvalidLoadHistory, InvalidParameter, unknown
 
@@ -203,6 +204,20 @@ def principal_in_plane(sxx, syy, sxy):
 
 def as_components(components) -> np.ndarray:
     """Check a component array: ``(n, 3)`` plane stress or ``(n, 6)`` 3-D, finite."""
+    arr = _shaped(components)
+    _check_finite(arr)
+    return arr
+
+
+def _check_finite(arr: np.ndarray) -> None:
+    bad = np.flatnonzero(~np.isfinite(arr).all(axis=1))
+    if bad.size:
+        raise InvalidLoadHistory(f"sample {int(bad[0])} has a non-finite component",
+                                 field="components", sample_index=int(bad[0]))
+
+
+def _shaped(components) -> np.ndarray:
+    """A component array of the right shape (finiteness not checked)."""
     try:
         arr = np.asarray(components, dtype=np.float64)
     except (TypeError, ValueError) as exc:
@@ -214,10 +229,6 @@ def as_components(components) -> np.ndarray:
                                  f"{arr.shape}", field="components")
     if arr.shape[0] < 2:
         raise InvalidLoadHistory("a history needs at least two samples", field="components")
-    bad = np.flatnonzero(~np.isfinite(arr).all(axis=1))
-    if bad.size:
-        raise InvalidLoadHistory(f"sample {int(bad[0])} has a non-finite component",
-                                 field="components", sample_index=int(bad[0]))
     return arr
 
 
@@ -234,8 +245,14 @@ def _columns(components) -> tuple:
             raise InvalidLoadHistory("component columns differ in length",
                                      field="components")
         return cols
-    arr = as_components(components)
-    return tuple(np.ascontiguousarray(arr[:, i]) for i in range(arr.shape[1]))
+    arr = _shaped(components)
+    # One compiled pass splits and checks; the columns come from the engine's
+    # pool (fresh pages for three 1e6-sample columns cost ~12 ms here).
+    n = arr.shape[0]
+    cols = tuple(c[:n] for c in POOL.columns(n, FLOATS * arr.shape[1]))
+    if _k.split_columns(arr, arr.view(np.int64), cols):
+        _check_finite(arr)
+    return cols
 
 
 def _full(arr: np.ndarray) -> np.ndarray:
@@ -550,6 +567,34 @@ def _normal_stress(cols: tuple, w: np.ndarray, out: np.ndarray) -> None:
         _k.normal_stress6(*cols, w, out)
 
 
+def _scan_planes(cols, names, plane_step_deg, damage_of, pool) -> dict:
+    """``{reduction: (damage per plane, plane angles, index of the worst)}``
+    for the plane reductions in ``names``; planes on ``pool``'s threads (each
+    keeping to its own thread, with its own buffer) or in turn without one."""
+    out = {}
+    local = threading.local()
+    for r in PLANE_REDUCTIONS:
+        if r not in names:
+            continue
+        normals, angles = plane_normals(cols, plane_step_deg)
+        shear = r == "critical_plane_shear"
+        weights = _shear_weights(angles) if shear else _plane_weights(normals, len(cols))
+
+        def plane(k, weights=weights, shear=shear):
+            buf = getattr(local, "buf", None)
+            if buf is None:
+                buf = local.buf = np.empty(cols[0].shape[0])
+            _normal_stress(cols, weights[k], buf)
+            return damage_of(buf, shear)
+
+        if pool is not None and len(weights) > 1:
+            values = np.array(list(pool.map(in_one_thread(plane), range(len(weights)))))
+        else:
+            values = np.array([plane(k) for k in range(len(weights))])
+        out[r] = (values, angles, int(np.argmax(values)))
+    return out
+
+
 def assess_multiaxial(components, curve, options=None, *,
                       reductions=("signed_von_mises", "critical_plane"),
                       plane_step_deg: float = 10.0, gate: float = 0.0,
@@ -602,31 +647,21 @@ def assess_multiaxial(components, curve, options=None, *,
     damages = {r: damage_of(_reduce_parts(parts, r, len(cols) == 3)) for r in scalar}
     angles = None
     scans, best = {}, {}
-    local = threading.local()
-
-    def scan(weights, shear):
-        def plane(k):
-            buf = getattr(local, "buf", None)
-            if buf is None:
-                buf = local.buf = np.empty(cols[0].shape[0])
-            _normal_stress(cols, weights[k], buf)
-            return damage_of(buf, shear)
-
-        if workers > 1 and len(weights) > 1:
-            with ThreadPoolExecutor(max_workers=workers) as pool:
-                return np.array(list(pool.map(in_one_thread(plane), range(len(weights)))))
-        return np.array([plane(k) for k in range(len(weights))])
-
-    for r in PLANE_REDUCTIONS:
-        if r not in names:
-            continue
-        normals, angles = plane_normals(cols, plane_step_deg)
-        weights = (_shear_weights(angles) if r == "critical_plane_shear"
-                   else _plane_weights(normals, len(cols)))
-        scans[r] = scan(weights, r == "critical_plane_shear")
-        k = int(np.argmax(scans[r]))
+    scanning = any(r in names for r in PLANE_REDUCTIONS)
+    pool = ThreadPoolExecutor(max_workers=workers) if workers > 1 and scanning else None
+    try:
+        # The rotation (one long pass) goes first on the scan's threads, so
+        # the planes fill in around it instead of waiting behind it.
+        rotation_job = pool.submit(in_one_thread(principal_rotation), cols) if pool else None
+        scanned = _scan_planes(cols, names, plane_step_deg, damage_of, pool)
+        rotation = rotation_job.result() if rotation_job else principal_rotation(cols)
+    finally:
+        if pool:
+            pool.shutdown(cancel_futures=True)
+    for r, (values, angles, k) in scanned.items():
+        scans[r] = values
         best[r] = angles[k].tolist() if angles.ndim == 2 else float(angles[k])
-        damages[r] = float(scans[r][k])
+        damages[r] = float(values[k])
     # The worst reduction governs (ties: the order given).
     worst = max(names, key=lambda r: (damages[r], -names.index(r)))
     history = (governing_history(cols, worst, best[worst]) if worst in PLANE_REDUCTIONS
@@ -636,7 +671,6 @@ def assess_multiaxial(components, curve, options=None, *,
                           shear_opts if shear else opts, gate=gate, residue=residue,
                           duration_s=duration_s)
     plane_damage = scans.get("critical_plane")
-    rotation = principal_rotation(cols)
     cautions = []
     if rotation > ROTATION_WARNING_DEG:
         cautions.append(

@@ -452,3 +452,31 @@ def test_shear_planes_are_assessed_with_a_shear_curve():
     with pytest.raises(InvalidParameter):
         assess_multiaxial(np.zeros((5, 6)), EN71, reductions=("critical_plane_shear",),
                           shear_curve=shear)
+
+
+def test_component_columns_from_reused_memory_have_the_history_length():
+    # Component columns come from the engine's pool, whose sets may be a
+    # little longer than asked; the columns must still be exactly the
+    # history, and a held set must not be reused (regression pin).
+    from service.engine.multiaxial import _columns
+
+    rng = np.random.default_rng(5)
+    big = rng.standard_normal((40_000, 3))
+    held = _columns(big)
+    saved = [c.copy() for c in held]
+    small = rng.standard_normal((39_000, 3))
+    cols = _columns(small)
+    assert all(c.shape == (39_000,) for c in cols)
+    assert all(np.array_equal(c, small[:, i]) for i, c in enumerate(cols))
+    assert all(np.array_equal(a, b) for a, b in zip(held, saved))
+    del held, cols
+    # Only the 40,000-row set fits 39,500 rows now: it must come back cut.
+    mid = rng.standard_normal((39_500, 3))
+    again = _columns(mid)
+    assert all(c.shape == (39_500,) for c in again)
+    assert all(np.array_equal(c, mid[:, i]) for i, c in enumerate(again))
+    bad = small.copy()
+    bad[123, 2] = np.nan
+    with pytest.raises(InvalidLoadHistory) as err:
+        _columns(bad)
+    assert err.value.sample_index == 123
