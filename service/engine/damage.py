@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import gc
 import math
+import threading
 from concurrent.futures import ThreadPoolExecutor
 from contextlib import contextmanager
 from dataclasses import dataclass, field, fields
@@ -18,7 +19,7 @@ import numpy as np
 
 from . import _damage_kernels as _dk
 from ._buffers import FLOATS, POOL, SHELF, TABLE
-from ._threads import beside, in_one_thread
+from ._threads import beside, helper_allowed, in_one_thread
 from .errors import InvalidLoadHistory, InvalidParameter
 from .mean_stress import (COMPRESSIVE_MEAN_POLICIES, MEAN_STRESS_METHODS,
                           check_strengths, equivalent_amplitude)
@@ -284,35 +285,96 @@ class _Evaluator:
             self.overload_scale = out[6] / self.load_factor
         return (d, over, slope, max_inv) + tuple(out[4:6]) + (out[7],)
 
-    def damage_in_halves(self, s: float) -> tuple[float, int, float]:
-        """``(damage, overloads, slope_weight)`` at scale s, one half of the
-        cycles on each thread, combined in a fixed order."""
-        h = self.cols[0].shape[0] // 2
+    def damage_at(self, s: float) -> tuple[float, int, float]:
+        """``(damage, overloads, slope_weight)`` at scale s (no per-cycle
+        damage, no extras), summed as :func:`_stretches` groups them."""
+        n = self.cols[0].shape[0]
         scale = s * self.load_factor
-        later = beside(_dk.damage_pass, *(c[h:] for c in self.cols), scale,
-                                *self.args, _NO_ROWS, False)
-        a = _dk.damage_pass(*(c[:h] for c in self.cols), scale, *self.args, _NO_ROWS, False)
-        b = later.result()
-        over = a[1] + b[1]
-        return (math.inf if over else a[0] + b[0]), over, a[2] + b[2]
+        if n < _SPLIT_CYCLES:
+            out = _dk.damage_pass(*self.cols, scale, *self.args, _NO_ROWS, False)
+        else:
+            out = _combine_all(_run_jobs([_job(self.cols, lo, hi, scale, self.args, _NO_ROWS,
+                                               False) for lo, hi in _stretches(n)]))
+        return out[0], out[1], out[2]
 
     def _halves(self, s: float, rows, n: int):
-        """The first (extras) pass on two threads, one half of the cycles
-        each (the kernel releases the GIL); the halves are combined in a
-        fixed order, so the result depends on the cycles alone."""
-        h = n // 2
+        """The first (extras) pass over stretches of rows on two threads (the
+        kernel releases the GIL), combined in row order, so the result
+        depends on the cycles alone."""
         scale = s * self.load_factor
-        halves = [tuple(c[:h] for c in self.cols), tuple(c[h:] for c in self.cols)]
-        parts = [rows[:h] if rows.shape[0] else rows, rows[h:] if rows.shape[0] else rows]
-        later = beside(_dk.damage_pass, *halves[1], scale, *self.args, parts[1], True)
-        a = _dk.damage_pass(*halves[0], scale, *self.args, parts[0], True)
-        return _combine(a, later.result())
+        return _combine_all(_run_jobs([_job(self.cols, lo, hi, scale, self.args, rows, True)
+                                       for lo, hi in _stretches(n)]))
 
 
-#: Cycles from which the first pass runs on two threads (about 0.7 ms of
-#: work; below it the hand-off costs more than it saves). The batch path
-#: never reaches it (its points have at most 32768 cycles).
+#: Cycles from which passes run on two threads (about 0.7 ms of work; below
+#: it the hand-off costs more than it saves). The batch path never reaches it
+#: (its points have at most 32768 cycles).
 _SPLIT_CYCLES = 1 << 16
+#: Rows in a stretch: from _SPLIT_CYCLES rows on, a pass sums its damage
+#: stretch by stretch in row order, whichever thread did which stretch and
+#: whether or not the count was still running (see _FirstPassAlong).
+_STRETCH = 1 << 15
+
+
+def _stretches(n: int) -> list[tuple[int, int]]:
+    """Row ranges ``[lo, hi)`` of the stretches of a table of ``n`` rows."""
+    return [(lo, min(lo + _STRETCH, n)) for lo in range(0, n, _STRETCH)]
+
+
+def _job(cols, lo: int, hi: int, scale: float, args, rows, extras: bool) -> tuple:
+    """The damage kernel's arguments for rows ``[lo, hi)``."""
+    return (cols[0][lo:hi], cols[1][lo:hi], cols[2][lo:hi], scale, *args,
+            rows[lo:hi] if rows.shape[0] else rows, extras)
+
+
+def _combine_all(outs: list) -> tuple:
+    """Kernel outputs of consecutive stretches as one, combined in order."""
+    total = outs[0]
+    for out in outs[1:]:
+        total = _combine(total, out)
+    return total
+
+
+def _run_jobs(jobs: list, started: list | None = None) -> list:
+    """``damage_pass`` of every job, outputs in order. The helper thread
+    takes jobs from the front and this thread from the back (one thread
+    inside ``one_thread``); ``started``, if given, holds futures already
+    submitted for some jobs (None where not): those the helper has not begun
+    are taken back and done here."""
+    outs: list = [None] * len(jobs)
+    if started is None:
+        started = [None] * len(jobs)
+        if len(jobs) > 1 and helper_allowed():
+            lock = threading.Lock()
+            claims = {"front": 0, "back": len(jobs) - 1}
+
+            def take_front():
+                while True:
+                    with lock:
+                        if claims["front"] > claims["back"]:
+                            return
+                        i = claims["front"]
+                        claims["front"] += 1
+                    outs[i] = _dk.damage_pass(*jobs[i])
+
+            helper_done = beside(take_front)
+            while True:
+                with lock:
+                    if claims["front"] > claims["back"]:
+                        break
+                    i = claims["back"]
+                    claims["back"] -= 1
+                outs[i] = _dk.damage_pass(*jobs[i])
+            helper_done.result()
+            return outs
+    for i in range(len(jobs) - 1, -1, -1):
+        future = started[i]
+        if future is None or future.cancel():
+            outs[i] = _dk.damage_pass(*jobs[i])
+    for i, future in enumerate(started):
+        if outs[i] is None:
+            outs[i] = future.result()
+    return outs
 
 
 def _reserve_factor(evaluate, target: float, first) -> float | None:
@@ -343,7 +405,7 @@ def _reserve_factor(evaluate, target: float, first) -> float | None:
         st = _bk.reserve_begin(target, d, slope, evaluate.overload_scale)
         step = _bk.reserve_step(st, d, slope)
         while not math.isnan(step):
-            d, _, weight = evaluate.damage_in_halves(step)
+            d, _, weight = evaluate.damage_at(step)
             step = _bk.reserve_step(st, d, weight / d if 0.0 < d < math.inf else math.nan)
         s = st[_bk._RESULT]
     return None if math.isnan(s) else float(s)
@@ -495,7 +557,7 @@ def damage_of_history(samples, curve: SNCurve, options: AssessmentOptions | None
     opts = options or AssessmentOptions()
     evaluate = _Evaluator(astm_e1049(samples, gate=gate, residue=residue), curve, opts)
     if evaluate.cols[0].shape[0] >= _SPLIT_CYCLES:
-        return float(evaluate.damage_in_halves(1.0)[0])
+        return float(evaluate.damage_at(1.0)[0])
     return float(_dk.damage_pass(*evaluate.cols, 1.0 * evaluate.load_factor, *evaluate.args,
                                  _NO_ROWS, False)[0])
 
