@@ -19,11 +19,12 @@ import numpy as np
 
 from . import _damage_kernels as _dk
 from ._buffers import FLOATS, POOL, SHELF, TABLE
-from ._threads import beside, helper_allowed, in_one_thread
+from ._threads import beside, helper_allowed, in_one_thread, take_back
 from .errors import InvalidLoadHistory, InvalidParameter
 from .mean_stress import (COMPRESSIVE_MEAN_POLICIES, MEAN_STRESS_METHODS,
                           check_strengths, equivalent_amplitude)
-from .rainflow import CycleTable, astm_e1049
+from . import rainflow as _rf
+from .rainflow import CycleTable, as_history, astm_e1049, resolve_gate
 from .sn_curve import SNCurve
 
 #: Shown with every result: what the numbers are and are not.
@@ -365,7 +366,7 @@ def _run_jobs(jobs: list, started: list | None = None) -> list:
                     i = claims["back"]
                     claims["back"] -= 1
                 outs[i] = _dk.damage_pass(*jobs[i])
-            helper_done.result()
+            take_back(helper_done, lambda: None)
             return outs
     for i in range(len(jobs) - 1, -1, -1):
         future = started[i]
@@ -375,6 +376,72 @@ def _run_jobs(jobs: list, started: list | None = None) -> list:
         if outs[i] is None:
             outs[i] = future.result()
     return outs
+
+
+class _FirstPassAlong:
+    """The first (extras) damage pass at scale 1 taken along with a long
+    count: called as the count's ``on_rows``, it hands each stretch of rows
+    (see ``_stretches``) to the helper thread as soon as the count has closed
+    it. In a long count the helper finishes its share of the turning points
+    before the caller's stack pass ends, and spends the rest on these.
+
+    Stretches are only handed out once the table has ``_SPLIT_CYCLES`` rows
+    (a shorter table is one stretch, done at the end), and their sums are
+    combined in row order: the figures are those of ``assess(table)`` to
+    the last bit. At the end the caller takes the stretches the helper has
+    not begun, from the back.
+    """
+
+    def __init__(self, curve: SNCurve, opts: AssessmentOptions):
+        self.args = _model_args(curve, opts)
+        self.scale = 1.0 * opts.load_factor
+        self.jobs: list = []
+        self.started: list = []
+        self.per_cycle = np.empty(0)
+
+    def __call__(self, cols, m: int, last: bool) -> None:
+        if cols[0].shape[0] > self.per_cycle.shape[0]:
+            # New or grown: stretches under way write the old array, so let
+            # them finish before it is copied over (growth is rare).
+            done = len(self.jobs) * _STRETCH
+            outs = _run_jobs(self.jobs, self.started)
+            self.started = [_Done(out) for out in outs]
+            per_cycle = POOL.columns(cols[0].shape[0], FLOATS)[0]
+            per_cycle[:done] = self.per_cycle[:done]
+            self.per_cycle = per_cycle
+        if last or m < _SPLIT_CYCLES:
+            return
+        while (len(self.jobs) + 1) * _STRETCH <= m:
+            lo = len(self.jobs) * _STRETCH
+            job = _job(cols, lo, lo + _STRETCH, self.scale, self.args, self.per_cycle, True)
+            self.jobs.append(job)
+            self.started.append(beside(_dk.damage_pass, *job))
+
+    def result(self, table) -> tuple[np.ndarray, tuple]:
+        """``(per-cycle damage, kernel output)`` over the whole table."""
+        n = len(table)
+        cols = (table.stress_from, table.stress_to, table.count)
+        per_cycle = self.per_cycle[:n]
+        if n < _SPLIT_CYCLES:
+            return per_cycle, _dk.damage_pass(*cols, self.scale, *self.args, per_cycle, True)
+        jobs, started = list(self.jobs), list(self.started)
+        for lo, hi in _stretches(n)[len(jobs):]:
+            jobs.append(_job(cols, lo, hi, self.scale, self.args, self.per_cycle, True))
+            started.append(None)
+        return per_cycle, _combine_all(_run_jobs(jobs, started))
+
+
+class _Done:
+    """A finished job's output where a future is expected."""
+
+    def __init__(self, out):
+        self.out = out
+
+    def cancel(self) -> bool:
+        return False
+
+    def result(self):
+        return self.out
 
 
 def _reserve_factor(evaluate, target: float, first) -> float | None:
@@ -476,7 +543,7 @@ def _top_rows(per_cycle: np.ndarray, k: int):
     h = n // 2
     later = beside(_dk.top_k, per_cycle[h:], k)
     first = _dk.top_k(per_cycle[:h], k).tolist()
-    second = [h + int(i) for i in later.result()]
+    second = [h + int(i) for i in take_back(later, _dk.top_k, per_cycle[h:], k)]
     return sorted(first + second, key=lambda i: (-per_cycle[i], i))[:k]
 
 
@@ -542,10 +609,27 @@ def _assemble(table, per_cycle, top_rows, damage, overloads, max_inv_life, eq_su
 def assess_history(samples, curve: SNCurve, options: AssessmentOptions | None = None, *,
                    gate: float = 0.0, residue: str = "half_cycles",
                    duration_s: float | None = None) -> PointAssessment:
-    """Count ``samples`` by rainflow and :func:`assess` the cycles."""
+    """Count ``samples`` by rainflow and :func:`assess` the cycles.
+
+    A long ungated history is assessed while it is counted: the first damage
+    pass runs on the helper thread over the stretches of cycles closed so
+    far (:class:`_FirstPassAlong`); the figures are the same as counting
+    first and assessing after, to the last bit.
+    """
+    opts = options or AssessmentOptions()
     _check_duration(duration_s)
-    table = astm_e1049(samples, gate=gate, residue=residue)
-    return assess(table, curve, options, duration_s=duration_s)
+    x = as_history(samples)
+    g = resolve_gate(x, gate)
+    if (residue == "half_cycles" and g == 0.0 and x.shape[0] >= _rf._PIPELINE_SAMPLES
+            and helper_allowed()):
+        along = _FirstPassAlong(curve, opts)
+        table, _ = _rf._count(x, None, 0.0, True, on_rows=along)
+        per_cycle, out = along.result(table)
+        evaluate = _Evaluator(table, curve, opts)
+        first = evaluate.finish(out, True)
+        return _complete(table, evaluate, per_cycle, first, curve, opts, duration_s)
+    table = astm_e1049(x, gate=g, residue=residue)
+    return assess(table, curve, opts, duration_s=duration_s)
 
 
 def damage_of_history(samples, curve: SNCurve, options: AssessmentOptions | None = None, *,

@@ -26,7 +26,7 @@ import numpy as np
 
 from . import _counting_kernels as _k
 from ._buffers import POOL, codes_buffer
-from ._threads import helper, helper_allowed
+from ._threads import helper, helper_allowed, take_back
 from .errors import IncompatibleState, InvalidLoadHistory, InvalidParameter, unknown
 
 #: Residue treatments for :func:`astm_e1049`, keyed by their public names.
@@ -349,11 +349,12 @@ def _plain_points(x, xbits, first: bool, prev: float, direction: int, codes):
 
     h = n // 2
     d_h = _k.direction_before(x, h, first, prev, direction)
-    later = helper().submit(_k.turning_points_plain, x[h:], xbits[h:], False, x[h - 1], d_h,
-                            codes[h + 1:], h)
+    second = (_k.turning_points_plain, x[h:], xbits[h:], False, x[h - 1], d_h,
+              codes[h + 1:], h)
+    later = helper().submit(*second)
     k1, _, bad1 = _k.turning_points_plain(x[:h], xbits[:h], first, prev, direction,
                                           codes[:h + 1], 0)
-    k2, d, bad2 = later.result()
+    k2, d, bad2 = take_back(later, *second)
     _k.shift_codes(codes, h + 1, k1, k2, 0)  # after the first half's codes
     return k1 + k2, d, bad1 | bad2
 
@@ -535,15 +536,18 @@ def _residue(sv, si, sp):
     return sv[_k.STACK_PAD:_k.STACK_PAD + sp], si[_k.STACK_PAD:_k.STACK_PAD + sp]
 
 
-def _stack(segments, sv, si, sp, half_rule, final):
+def _stack(segments, sv, si, sp, half_rule, final, on_rows=None):
     """Second pass: run the stack kernel over each segment in turn, growing
     its arrays when it asks.
 
     ``segments`` yields ``(codes, k, x, offset, pre_v, pre_i, rows)``: the
     codes of one stretch of the history and the rows the whole table is
     expected to need (the first sizes the table; a later one that is larger
-    sizes it when it has to grow). Returns ``(CycleTable, residue_values,
-    residue_indices)``.
+    sizes it when it has to grow). ``on_rows(cols, m, last)``, if given, is
+    told after each segment, and once more (``last``) when the table is
+    complete, that rows ``[0, m)`` of the five columns ``cols`` are final
+    (it may read them from another thread, never write them).
+    Returns ``(CycleTable, residue_values, residue_indices)``.
     """
     cols = None
     m = 0
@@ -560,6 +564,8 @@ def _stack(segments, sv, si, sp, half_rule, final):
                 sv, si, _ = _new_stack(sp + 64, *_residue(sv, si, sp))
             if m + sp + 1 > cols[0].shape[0]:
                 cols = _columns(max(m + m // 2, m + sp + 1, rows) + 64, cols, m)
+        if on_rows is not None:
+            on_rows(cols, m, False)
     if cols is None:
         cols = _columns(sp + 1)
     rv, ri = (r.copy() for r in _residue(sv, si, sp))
@@ -572,6 +578,8 @@ def _stack(segments, sv, si, sp, half_rule, final):
         frm[m:need], to[m:need], cnt[m:need] = rv[:-1], rv[1:], 0.5
         s_ix[m:need], e_ix[m:need] = ri[:-1], ri[1:]
         m = need
+    if on_rows is not None:
+        on_rows(cols, m, True)
     slack = cols[0].shape[0] - m
     if slack > _SLACK_ROWS and slack * _ROW_BYTES > _TRIM_BYTES and slack > m // 4:
         table = CycleTable(*(c[:m].copy() for c in cols))
@@ -621,8 +629,9 @@ def count_block(samples, state: CountingState | None = None, *, gate: float = 0.
 
 
 def _count(x: np.ndarray, state: CountingState | None, gate: float,
-           final: bool) -> tuple[CycleTable, CountingState]:
-    """Both passes over a validated block with a resolved gate."""
+           final: bool, on_rows=None) -> tuple[CycleTable, CountingState]:
+    """Both passes over a validated block with a resolved gate (``on_rows``:
+    see :func:`_stack`)."""
     offset = 0 if state is None else state.samples_seen
     if state is None:
         sv, si, sp = _new_stack(64)
@@ -631,14 +640,14 @@ def _count(x: np.ndarray, state: CountingState | None, gate: float,
     if gate == 0.0 and x.shape[0] >= _PIPELINE_SAMPLES and helper_allowed():
         pipe = _Pipeline(x, state, final, sp)
         try:
-            table, rv, ri = _stack(pipe.segments(), sv, si, sp, True, final)
+            table, rv, ri = _stack(pipe.segments(), sv, si, sp, True, final, on_rows)
         finally:
             pipe.finish()
         after = pipe.after
     else:
         codes, k, pre_v, pre_i, after = _points(x, state, gate, final)
         table, rv, ri = _stack([(codes, k, x, offset, pre_v, pre_i, _capacity(k, sp))],
-                               sv, si, sp, True, final)
+                               sv, si, sp, True, final, on_rows)
     return table, CountingState(gate, offset + x.shape[0], *after, rv, ri)
 
 

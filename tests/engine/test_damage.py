@@ -405,3 +405,95 @@ def test_damage_alone_is_the_assessments_damage_to_the_last_bit(n, method):
     with one_thread():
         assert damage_of_history(x, EN71, opts) == full
         assert assess_history(x, EN71, opts).damage == full
+
+
+def _identical(a, b):
+    """The same result to the last bit (per cycle and every figure)."""
+    assert np.array_equal(a.damage_per_cycle, b.damage_per_cycle)
+    for f in ("damage", "life_repeats", "life_hours", "life_cycles", "reserve_factor",
+              "equivalent_range", "cycles_counted", "max_range", "overload_cycles", "flags",
+              "top_cycles"):
+        assert getattr(a, f) == getattr(b, f), f
+
+
+@pytest.fixture
+def small_stretches(monkeypatch):
+    """Long-count paths on short histories: the pipeline in chunks of a few
+    samples, stretches of a few rows, two-thread passes from 16 rows."""
+    from service.engine import damage as dm
+    from service.engine import rainflow as rf
+
+    monkeypatch.setattr(rf, "_PIPELINE_SAMPLES", 2)
+    monkeypatch.setattr(rf, "_FIRST_CHUNK", 16)
+    monkeypatch.setattr(rf, "_LAST_CHUNK", 64)
+    monkeypatch.setattr(dm, "_STRETCH", 8)
+    monkeypatch.setattr(dm, "_SPLIT_CYCLES", 16)
+
+
+@pytest.mark.parametrize("method,scale", [("goodman", 1.0), ("none", 1.0), ("gerber", 1.0),
+                                          ("goodman", 20.0), ("none", 0.05)])
+@pytest.mark.parametrize("n", [20, 3000])
+def test_first_pass_along_the_count_is_the_assessment_of_the_table(
+        small_stretches, method, scale, n):
+    # assess_history of a long ungated history takes the first damage pass
+    # along with the count (stretches of closed rows on the helper thread);
+    # it must give assess(astm_e1049(x)) to the last bit, for a table of one
+    # stretch and of many. Scales cover damage, a static overload (x20) and
+    # everything below the cut-off (regression pin).
+    x = np.cumsum(np.random.default_rng(11).standard_normal(n)) * 4 * scale + 10
+    opts = AssessmentOptions(mean_stress_method=method, ultimate_strength=700.0)
+    along = assess_history(x, EN71, opts, duration_s=60.0)
+    _identical(along, assess(astm_e1049(x), EN71, opts, duration_s=60.0))
+
+
+def test_first_pass_along_survives_a_table_that_grows(small_stretches, monkeypatch):
+    # A quiet start makes the table's size estimate too small; the busy rest
+    # grows it while stretches are under way (they write the old per-cycle
+    # array, so they must finish before it is copied).
+    from service.engine import rainflow as rf
+
+    grown = []
+    columns = rf._columns
+
+    def spy(rows, keep=None, m=0):
+        if keep is not None:
+            grown.append(rows)
+        return columns(rows, keep, m)
+
+    monkeypatch.setattr(rf, "_columns", spy)
+    rng = np.random.default_rng(4)
+    x = np.concatenate([np.sin(np.arange(400) / 60.0), rng.standard_normal(40_000) * 80])
+    opts = AssessmentOptions(mean_stress_method="goodman", ultimate_strength=700.0)
+    along = assess_history(x, EN71, opts)
+    assert grown, "the table did not grow: the test lost its point"
+    _identical(along, assess(astm_e1049(x), EN71, opts))
+
+
+def test_first_pass_along_completes_while_the_helper_is_busy(small_stretches):
+    import threading
+
+    from service.engine._threads import helper
+
+    x = np.random.default_rng(2).standard_normal(5000) * 70
+    opts = AssessmentOptions()
+    release = threading.Event()
+    blocker = helper().submit(release.wait, 30)
+    try:
+        along = assess_history(x, EN71, opts)
+    finally:
+        release.set()
+        assert blocker.result() is True  # released by the test, not by the timeout
+    _identical(along, assess(astm_e1049(x), EN71, opts))
+
+
+def test_first_pass_along_at_real_sizes():
+    # 400,000 samples: the real chunk and stretch sizes; the figures equal
+    # counting first and assessing after, and the one-thread path, exactly.
+    from service.engine._threads import one_thread
+
+    x = np.random.default_rng(8).standard_normal(400_000) * 50 + 10
+    opts = AssessmentOptions(mean_stress_method="goodman", ultimate_strength=700.0)
+    along = assess_history(x, EN71, opts)
+    _identical(along, assess(astm_e1049(x), EN71, opts))
+    with one_thread():
+        _identical(along, assess_history(x, EN71, opts))

@@ -430,7 +430,7 @@ def test_pipeline_completes_while_the_helper_thread_is_busy(tiny_pipeline):
         two = astm_e1049(x)
     finally:
         release.set()
-        blocker.result()
+        assert blocker.result() is True  # released by the test, not by the timeout
     with _pipelined(False):
         _tables_equal(astm_e1049(x), two)
 
