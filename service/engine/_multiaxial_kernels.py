@@ -11,7 +11,7 @@ import math
 
 import numpy as np
 
-from ._numba import kernel
+from ._numba import kernel, njit
 
 #: Exponent mask of an IEEE-754 double; all ones means inf or NaN.
 _EXP = np.int64(0x7FF0000000000000)
@@ -52,6 +52,24 @@ def normal_stress6(sxx, syy, szz, sxy, syz, szx, w, out):
                   + w5 * szx[i])
 
 
+@njit(cache=True, nogil=True, inline="always")
+def _direction(sxx, syy, sxy):
+    """``(ok, dx, dy)``: the direction of the larger-magnitude principal
+    stress as a unit vector on Mohr's circle (negated when the second
+    principal is the larger), ``ok`` false where it is not well defined (the
+    two magnitudes within 10 %, or no shear circle at all)."""
+    centre = 0.5 * (sxx + syy)
+    hx = 0.5 * (sxx - syy)
+    radius = math.sqrt(hx * hx + sxy * sxy)
+    a1 = abs(centre + radius)
+    a2 = abs(centre - radius)
+    hi = max(a1, a2)
+    if hi - min(a1, a2) < 0.1 * hi or radius == 0.0:
+        return False, 0.0, 0.0
+    sgn = -1.0 / radius if a2 > a1 else 1.0 / radius
+    return True, hx * sgn, sxy * sgn
+
+
 @kernel
 def plane_rotation(sxx, syy, sxy, significance):
     """Largest turn of the larger-magnitude principal direction from its
@@ -77,18 +95,11 @@ def plane_rotation(sxx, syy, sxy, significance):
             vmax = vm
         if vm <= best:
             continue
-        centre = 0.5 * (sxx[i] + syy[i])
-        hx = 0.5 * (sxx[i] - syy[i])
-        radius = math.sqrt(hx * hx + sxy[i] * sxy[i])
-        a1 = abs(centre + radius)
-        a2 = abs(centre - radius)
-        hi = max(a1, a2)
-        if hi - min(a1, a2) < 0.1 * hi:
-            continue  # also radius = 0: no direction
-        sgn = -1.0 / radius if a2 > a1 else 1.0 / radius
-        best = vm
-        rx = hx * sgn
-        ry = sxy[i] * sgn
+        ok, dx, dy = _direction(sxx[i], syy[i], sxy[i])
+        if ok:
+            best = vm
+            rx = dx
+            ry = dy
     if vmax == 0.0:
         return 0.0
     floor = significance * vmax
@@ -102,17 +113,9 @@ def plane_rotation(sxx, syy, sxy, significance):
                        + 3.0 * sxy[i] * sxy[i])
         if vm < floor:
             continue
-        centre = 0.5 * (sxx[i] + syy[i])
-        hx = 0.5 * (sxx[i] - syy[i])
-        radius = math.sqrt(hx * hx + sxy[i] * sxy[i])
-        a1 = abs(centre + radius)
-        a2 = abs(centre - radius)
-        hi = max(a1, a2)
-        if hi - min(a1, a2) < 0.1 * hi:
-            continue
-        sgn = -1.0 / radius if a2 > a1 else 1.0 / radius
-        d = hx * sgn * rx + sxy[i] * sgn * ry
-        if d < lowest:
+        ok, dx, dy = _direction(sxx[i], syy[i], sxy[i])
+        d = dx * rx + dy * ry
+        if ok and d < lowest:
             lowest = d
     return 0.5 * math.degrees(math.acos(max(-1.0, min(1.0, lowest))))
 

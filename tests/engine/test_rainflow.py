@@ -311,6 +311,16 @@ def test_output_is_finite_and_typed():
     assert table.start_index.dtype == np.int64 and table.count.dtype == np.float64
 
 
+def _continued(values, cut: int, carry: bool):
+    """``(samples, state)``: the history, or with ``carry`` its part after
+    sample ``cut`` and the state of counting the part before (None)."""
+    x = np.asarray(values, dtype=float)
+    if carry and cut < len(x) - 1:
+        _, state = count_block(x[:cut + 1])
+        return x[cut + 1:], state
+    return x, None
+
+
 @settings(max_examples=300, deadline=None)
 @given(values=st.lists(st.integers(-3, 3), min_size=2, max_size=60),
        cut=st.integers(0, 60), carry=st.booleans())
@@ -321,11 +331,7 @@ def test_two_thread_turning_point_pass_equals_one_thread(values, cut, carry):
     # whole history and for a continued block (regression pin of the split).
     from service.engine import rainflow as rf
 
-    x = np.asarray(values, dtype=float)
-    state = None
-    if carry and cut < len(x) - 1:
-        _, state = count_block(x[:cut + 1])
-        x = x[cut + 1:]
+    x, state = _continued(values, cut, carry)
     if len(x) < 2:
         return
     saved = rf._SPLIT_SAMPLES
@@ -375,11 +381,7 @@ def test_pipelined_count_equals_one_pass(values, cut, carry, final):
     # caller's. Plateaus and equal values across chunk seams are the hard
     # cases; continued blocks start from a carried state (regression pin:
     # the pipeline must give the one-pass rows and state exactly).
-    x = np.asarray(values, dtype=float)
-    state = None
-    if carry and cut < len(x) - 1:
-        _, state = count_block(x[:cut + 1])
-        x = x[cut + 1:]
+    x, state = _continued(values, cut, carry)
     if len(x) < 2:
         return
     with _pipelined():
