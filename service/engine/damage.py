@@ -269,7 +269,7 @@ class _Evaluator:
         rows = _NO_ROWS if per_cycle is None else per_cycle
         n = self.cols[0].shape[0]
         if extras and n >= _SPLIT_CYCLES:
-            out = self._halves(s, rows, n)
+            out = self._stretched(s, rows, n)
         else:
             out = _dk.damage_pass(*self.cols, s * self.load_factor, *self.args, rows, extras)
         return self.finish(out, extras)
@@ -298,7 +298,7 @@ class _Evaluator:
                                                False) for lo, hi in _stretches(n)]))
         return out[0], out[1], out[2]
 
-    def _halves(self, s: float, rows, n: int):
+    def _stretched(self, s: float, rows, n: int):
         """The first (extras) pass over stretches of rows on two threads (the
         kernel releases the GIL), combined in row order, so the result
         depends on the cycles alone."""
@@ -426,8 +426,10 @@ class _FirstPassAlong:
             return per_cycle, _dk.damage_pass(*cols, self.scale, *self.args, per_cycle, True)
         jobs, started = list(self.jobs), list(self.started)
         for lo, hi in _stretches(n)[len(jobs):]:
+            # The rest go to the helper too; the caller takes back from the
+            # end whatever it has not begun.
             jobs.append(_job(cols, lo, hi, self.scale, self.args, self.per_cycle, True))
-            started.append(None)
+            started.append(beside(_dk.damage_pass, *jobs[-1]))
         return per_cycle, _combine_all(_run_jobs(jobs, started))
 
 
