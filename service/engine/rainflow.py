@@ -401,7 +401,6 @@ class _Pipeline:
         self.results: list = [None] * chunks  # (k, d, bad) or an exception
         self.cv = threading.Condition(threading.Lock())
         self.front, self.back = 1, chunks - 1  # the caller takes chunk 0 now
-
         # Waking the helper takes 0.1-0.2 ms on this kind of machine: ask first.
         self.future = helper().submit(self._helper_loop)
         self.offset = 0 if state is None else state.samples_seen
