@@ -2,7 +2,7 @@
 
 Fresh pages are dear on the virtual machines this service runs on: the first
 write to each 4 KiB page costs about 2 us (a page fault, measured on the
-project's 2-core machine; see DEVELOPERS.md, "Performance notes"), so a
+project's 2-core machine; see DEVELOPERS.md, "Benchmarks"), so a
 cycle table of 300,000 rows (12 MB) spent 6 ms of a 10 ms count just
 faulting its pages in. Two kinds of memory are therefore kept:
 
