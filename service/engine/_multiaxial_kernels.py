@@ -204,6 +204,9 @@ def warm_up() -> None:
     for code in REDUCTION_CODES.values():
         superposed_reduction(np.ones((1, 2, 6)), np.ones((2, 3)), code, np.empty((1, 3)))
     plane_rotation(x, x * 0.5, x * 0.2, 0.1)
+    for k in (3, 6):
+        comps = np.ones((2, k))
+        split_columns(comps, comps.view(np.int64), tuple(np.empty(2) for _ in range(k)))
 
 
 @kernel

@@ -836,6 +836,11 @@ def warm_up() -> None:
                                  walker_exponent=0.5)
         assess_history(x, curve, opts)
     assess_many(np.tile(x, (2, 1)).T.copy(), curve)  # the batch kernels
+    from . import _batch_kernels as _bk
+
+    # Steps of the reserve search as long tables drive them from Python.
+    st = _bk.reserve_begin(1.0, 0.5, 3.0, math.inf)
+    _bk.reserve_step(st, 0.5, 3.0)
 
 
 __all__ = ["AssessmentOptions", "PointAssessment", "CAUTIONS", "palmgren_miner",

@@ -764,3 +764,7 @@ def warm_up() -> None:
     _, st = count_block(x[:3])
     count_block(x[3:], st)
     close_residue(st)
+    # What long blocks add: the state a chunk or half starts from, and the
+    # move of a second half's codes after the first's.
+    _k.direction_before(x, 3, True, 0.0, 0)
+    _k.shift_codes(codes_buffer(8), 4, 0, 2, 0)
