@@ -142,11 +142,6 @@ class ColumnPool:
         with self._lock:
             return sum(self._bytes(e) for e in self._sets)
 
-    def clear(self) -> None:
-        """Forget every kept set (those in use stay alive with their users)."""
-        with self._lock:
-            self._sets.clear()
-
 
 #: The pool the counting draws its cycle tables from.
 POOL = ColumnPool()
