@@ -144,6 +144,19 @@ def components_of(point: PlannedPoint) -> tuple:
     return tuple(cols)
 
 
+
+def _merged_settings(own, defaults: dict, lookup, what: str, field: str) -> dict:
+    """A point's own settings over the request's defaults, user references
+    resolved, validated now (nothing is counted if any point is wrong)."""
+    if not isinstance(own, dict):
+        raise InvalidParameter(f"settings of {what} must be an object", field=field)
+    merged = {**defaults, **own}
+    if lookup is not None:
+        merged = resolve(merged, lookup)
+    point_from_dict(merged)
+    return merged
+
+
 def plan(request: dict, channels: dict[str, np.ndarray], lookup=None,
          units: dict | None = None) -> list[PlannedPoint]:
     """Which channels to assess with which settings; every error before any work.
@@ -183,23 +196,12 @@ def plan(request: dict, channels: dict[str, np.ndarray], lookup=None,
     for name, own in points.items():
         if name not in channels:
             raise unknown("points", name, channels)
-        if not isinstance(own, dict):
-            raise InvalidParameter(f"settings of point {name!r} must be an object",
-                                   field="points")
-        merged = {**defaults, **own}
-        if lookup is not None:
-            merged = resolve(merged, lookup)
-        point_from_dict(merged)  # validate now: nothing is counted if any point is wrong
+        merged = _merged_settings(own, defaults, lookup, f"point {name!r}", "points")
         out.append(PlannedPoint(name, channels[name], merged))
     for name, spec in specs.items():
         own = declared[name].get("settings") or {}
-        if not isinstance(own, dict):
-            raise InvalidParameter(f"settings of multiaxial point {name!r} must be an object",
-                                   field="multiaxial")
-        merged = {**defaults, **own}
-        if lookup is not None:
-            merged = resolve(merged, lookup)
-        point_from_dict(merged)
+        merged = _merged_settings(own, defaults, lookup, f"multiaxial point {name!r}",
+                                  "multiaxial")
         shear = declared[name].get("shear_settings")
         if "critical_plane_shear" in spec["reductions"]:
             if not isinstance(shear, dict):
