@@ -144,7 +144,6 @@ def components_of(point: PlannedPoint) -> tuple:
     return tuple(cols)
 
 
-
 def _merged_settings(own, defaults: dict, lookup, what: str, field: str) -> dict:
     """A point's own settings over the request's defaults, user references
     resolved, validated now (nothing is counted if any point is wrong)."""
