@@ -28,7 +28,7 @@ from ._numba import kernel, njit
 
 #: Codes of the mean-stress methods inside the kernel.
 METHOD_CODES = {"none": 0, "goodman": 1, "gerber": 2, "soderberg": 3, "morrow": 4,
-                "smith_watson_topper": 5, "walker": 6}
+                "smith_watson_topper": 5, "walker": 6, "asme_elliptic": 7}
 
 #: Cycles per chunk: the scratch row of equivalent ranges stays in L1.
 _CHUNK = 1024
@@ -63,7 +63,8 @@ def _equivalent_ranges(frm, to, lo, hi, scale, method, param, clip, ultimate,
     """``sr[i - lo]`` = corrected range ``2 sigma_ar range_factor`` of cycle i,
     and ``gr[i - lo]`` = d log sr / d log scale (1 where the range scales
     with the load; 1/den for Goodman-type corrections, (1 + r^2)/(1 - r^2)
-    for Gerber), for the reserve search's slope.
+    for Gerber, 1/(1 - r^2) for the ASME ellipse), for the reserve search's
+    slope.
 
     Static overloads (breakdown of the correction, or a peak above
     ``ultimate``) get ``inf``. Returns the number of overloads.
@@ -106,6 +107,24 @@ def _equivalent_ranges(frm, to, lo, hi, scale, method, param, clip, ultimate,
                 v = two * math.pow(smax, 1.0 - param) * math.pow(a, param)
             v = inf if smax > ultimate else v
             sr[j] = v
+            acc += v
+    elif method == 7:
+        # ASME ellipse: den = sqrt(1 - r^2), d log sr / d log s = 1 / (1 - r^2).
+        inv = 1.0 / param
+        for j in range(n):
+            f = frm[lo + j]
+            t = to[lo + j]
+            a = abs(f - t) * half
+            mean = (f + t) * half
+            mu = max(mean, 0.0) if clip else mean
+            r = mu * inv
+            q = 1.0 - r * r
+            den = math.sqrt(q) if q > 0.0 else 0.0
+            v = two * a / den if den > 0.0 else inf
+            v = 0.0 if a == 0.0 else v
+            v = inf if mean + a > ultimate else v
+            sr[j] = v
+            gr[j] = 1.0 / q if q > 0.0 else 1.0
             acc += v
     else:
         inv = 1.0 / param
@@ -256,7 +275,8 @@ def _onset_and_range(frm, to, lo, hi, method, param, clip, ultimate):
     stresses at which one becomes a static overload (inf if none does),
     mirroring ``_equivalent_ranges`` (peak strictly above ``ultimate``, or
     the correction's denominator reaching zero: Goodman-type at mu >= param,
-    Gerber at |mu| >= param), and the largest unscaled range.
+    Gerber and the ASME ellipse at |mu| >= param), and the largest unscaled
+    range.
 
     The smallest of ``ultimate / peak`` over the cycles is ``ultimate`` over
     the largest peak (a correctly rounded quotient falls as the divisor
@@ -265,8 +285,8 @@ def _onset_and_range(frm, to, lo, hi, method, param, clip, ultimate):
     max_peak = 0.0
     max_mu = 0.0
     max_range = 0.0
-    ratio = 1 <= method <= 4
-    gerber = method == 2
+    ratio = (1 <= method <= 4) | (method == 7)
+    gerber = (method == 2) | (method == 7)  # even in the mean: |mu| breaks down
     for i in range(lo, hi):
         rng = abs(frm[i] - to[i])
         a = 0.5 * rng
@@ -357,6 +377,55 @@ def damage_pass(frm, to, cnt, scale, model, segments, per_cycle, extras):
     if over:
         total = math.inf
     return total, over, weight, max_sr, eq_sum, max_range, onset, counted
+
+
+@kernel
+def split_at_limit(frm, to, cnt, scale, model, segments, limit):
+    """How much of a spectrum lies below a fatigue limit.
+
+    Returns ``(count_below, count_total, damage_below, damage_total)``: the
+    counts of cycles whose corrected range (as :func:`damage_pass` forms it)
+    is below ``limit`` [MPa] and of all cycles, and their Miner damage on
+    ``segments`` (the curve continued below the limit, e.g. by Haibach's
+    slope, so that cycles under the limit have a damage to compare). Static
+    overloads are left out of both damages (they are reported on their own).
+    """
+    method = int(model[0])
+    param = model[1]
+    clip = model[2] != 0.0
+    ultimate = model[3]
+    range_factor = model[4]
+    n = frm.shape[0]
+    nseg = segments.shape[1]
+    sr = np.empty(_CHUNK)
+    gr = np.empty(_CHUNK)
+    d = np.empty(_CHUNK)
+    w = np.empty(_CHUNK)
+    c_below = 0.0
+    c_total = 0.0
+    d_below = 0.0
+    d_total = 0.0
+    for lo in range(0, n, _CHUNK):
+        hi = min(lo + _CHUNK, n)
+        k = hi - lo
+        _equivalent_ranges(frm, to, lo, hi, scale, method, param, clip, ultimate,
+                           range_factor, sr, gr)
+        d[:k] = 0.0
+        w[:k] = 0.0
+        for g in range(nseg):
+            _segment_damage(sr, gr, k, cnt, lo, segments[0, g], segments[1, g],
+                            segments[2, g], int(segments[3, g]), segments[4, g],
+                            segments[5, g], d, w)
+        for j in range(k):
+            s = sr[j]
+            c = cnt[lo + j]
+            c_total += c
+            if s < limit:
+                c_below += c
+                d_below += d[j]
+            if s < math.inf:
+                d_total += d[j]
+    return c_below, c_total, d_below, d_total
 
 
 @functools.lru_cache(maxsize=256)

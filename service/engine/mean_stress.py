@@ -133,6 +133,31 @@ def morrow(stress_amplitude, stress_mean, fatigue_strength_coefficient):
     return _divide(stress_amplitude, _ratio_denominator(ratio))
 
 
+def asme_elliptic(stress_amplitude, stress_mean, yield_strength):
+    r"""
+    Equivalent fully reversed amplitude by the ASME elliptic locus.
+
+    Returns :math:`\sigma_{ar} = \sigma_a / \sqrt{1 - (\sigma_m / S_y)^2}`,
+    ``inf`` where :math:`|\sigma_m| \ge S_y`. [MPa]
+
+    Notes
+    -----
+    The locus :math:`(\sigma_a/S_e)^2 + (\sigma_m/S_y)^2 = 1` solved for the
+    zero-mean amplitude of the same life. Like Gerber it is even in
+    :math:`\sigma_m`; the compressive-mean policy decides what a compressive
+    mean does.
+
+    References
+    ----------
+    .. [1] R. G. Budynas and J. K. Nisbett, *Shigley's Mechanical Engineering
+       Design*, 10th ed. New York, NY, USA: McGraw-Hill, 2015, sec. 6-12,
+       Table 6-8 (ASME-elliptic failure criterion).
+    """
+    ratio = np.asarray(stress_mean, dtype=np.float64) / yield_strength
+    q = _ratio_denominator(ratio * ratio)
+    return _divide(stress_amplitude, np.sqrt(q))
+
+
 def smith_watson_topper(stress_amplitude, stress_mean):
     r"""
     Equivalent fully reversed amplitude by Smith, Watson and Topper.
@@ -189,12 +214,23 @@ MEAN_STRESS_METHODS = {
     "morrow": (morrow, "fatigue_strength_coefficient"),
     "smith_watson_topper": (smith_watson_topper, None),
     "walker": (walker, "walker_exponent"),
+    "asme_elliptic": (asme_elliptic, "yield_strength"),
 }
 
-# Methods whose formula rewards a compressive mean (a lower amplitude).
-_REWARDS_COMPRESSION = {"goodman", "soderberg", "morrow"}
-# Methods that take a compressive mean through the policy at all.
-_MEAN_BASED = _REWARDS_COMPRESSION | {"gerber"}
+# Methods that take a compressive mean through the policy (their formula
+# is written in the mean itself; SWT and Walker work on the peak).
+MEAN_BASED_METHODS = ("goodman", "gerber", "soderberg", "morrow", "asme_elliptic")
+
+
+def clips_compressive_mean(method: str, compressive_mean: str) -> bool:
+    """Whether a compressive mean counts as zero under the policy.
+
+    ``no_benefit`` and ``zero`` both do, for every mean-based method: a
+    compressive mean neither lowers the amplitude (Goodman, Soderberg,
+    Morrow as written) nor raises it (Gerber and the ASME ellipse are even
+    in the mean, and would penalise compression as much as tension).
+    """
+    return method in MEAN_BASED_METHODS and compressive_mean in ("no_benefit", "zero")
 
 
 def check_strengths(ultimate_strength=None, yield_strength=None,
@@ -238,12 +274,13 @@ def equivalent_amplitude(stress_amplitude, stress_mean, method: str = "goodman",
     walker_exponent : float
         Walker's gamma, for ``walker``. [-]
     compressive_mean : {"no_benefit", "zero", "formula"}
-        ``no_benefit`` (default, common practice): Goodman, Soderberg and
-        Morrow take no credit for a compressive mean (it counts as zero);
-        Gerber keeps its symmetric form. ``zero``: every mean-based method
-        counts a compressive mean as zero. ``formula``: the equations as
-        written. Smith-Watson-Topper and Walker work on the peak stress and
-        are not affected.
+        ``no_benefit`` (default, common practice): a compressive mean
+        counts as zero for every mean-based method, so it neither helps
+        (Goodman, Soderberg, Morrow as written) nor hurts (Gerber and the
+        ASME ellipse, which are even in the mean). ``zero`` is the same
+        rule under its older name. ``formula``: the equations as written.
+        Smith-Watson-Topper and Walker work on the peak stress and are not
+        affected.
 
     Returns
     -------
@@ -276,9 +313,7 @@ def equivalent_amplitude(stress_amplitude, stress_mean, method: str = "goodman",
     amp = np.asarray(stress_amplitude, dtype=np.float64)
     mean = np.asarray(stress_mean, dtype=np.float64)
     used_mean = mean
-    if method in _MEAN_BASED and (
-            compressive_mean == "zero"
-            or (compressive_mean == "no_benefit" and method in _REWARDS_COMPRESSION)):
+    if clips_compressive_mean(method, compressive_mean):
         used_mean = np.maximum(mean, 0.0)
     out = func(amp, used_mean, params[needs]) if needs else func(amp, used_mean)
     overload = ~np.isfinite(out)

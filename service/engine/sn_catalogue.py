@@ -15,13 +15,18 @@ import numpy as np
 from .errors import InvalidParameter, unknown
 from .sn_curve import SNCurve
 
+#: Said beside every value entered without the published text at hand.
+CHECK_EDITION = "check against the edition in use"
+
 _EN = ("EN 1993-1-9:2005, Eurocode 3: Design of steel structures - Part 1-9: "
-       "Fatigue, sec. 7.1 and Fig. 7.1 (normal stress) / Fig. 7.2 (shear)")
+       "Fatigue, sec. 7.1, eq. (7.1)-(7.2), Fig. 7.1 (normal stress) / Fig. 7.2 (shear)")
 _IIW = ("A. Hobbacher, Recommendations for Fatigue Design of Welded Joints and "
-        "Components, IIW document XIII-2460-13, 2nd ed. Springer, 2016, sec. 3.2 "
-        "(slopes and knee point from memory)")
-_DNV = ("DNV-RP-C203, Fatigue design of offshore steel structures, DNV, 2016, "
-        "Table 2-1 (S-N curves in air; values from memory)")
+        "Components, IIW document XIII-2460-13, 2nd ed. Cham, Switzerland: Springer, "
+        f"2016, sec. 3.2.1 (S-N curves) and 4.3 (variable amplitude); slopes and knee "
+        f"points entered without the text at hand, {CHECK_EDITION}")
+_DNV = ("DNV-RP-C203, Fatigue design of offshore steel structures, DNV GL, 2016, "
+        f"sec. 2.4.4, Table 2-1 (S-N curves in air); log a1, log a2 and k entered "
+        f"without the text at hand, {CHECK_EDITION}")
 
 #: EN 1993-1-9 detail categories for normal stress, Delta sigma_C at 2e6. [MPa]
 EN1993_NORMAL = (160, 140, 125, 112, 100, 90, 80, 71, 63, 56, 50, 45, 40, 36)
@@ -71,8 +76,10 @@ def en1993_normal(category: float) -> SNCurve:
     """
     return SNCurve((3.0, 5.0), (5e6,), float(category), 2e6, cutoff_cycles=1e8,
                    name=f"EN1993-1-9:{category:g}", source=_EN, fatigue_limit_cycles=5e6,
-                   notes=("assess as-welded details on stress range without mean-stress "
-                          "correction",))
+                   family="welded",
+                   notes=("EN 1993-1-9:2005 assesses welded details on stress range without "
+                          "mean-stress correction; its reduced compressive part for non-welded "
+                          f"and stress-relieved details is sec. 7.2.1 ({CHECK_EDITION})",))
 
 
 def en1993_shear(category: float) -> SNCurve:
@@ -85,25 +92,55 @@ def en1993_shear(category: float) -> SNCurve:
     .. [1] EN 1993-1-9:2005, sec. 7.1, Fig. 7.2.
     """
     return SNCurve((5.0,), (), float(category), 2e6, cutoff_cycles=1e8,
-                   name=f"EN1993-1-9:shear-{category:g}", source=_EN)
+                   name=f"EN1993-1-9:shear-{category:g}", source=_EN, family="welded_shear")
 
 
-def iiw_normal(fat: float) -> SNCurve:
-    """IIW curve for normal stress: m = 3 to the knee at 1e7, m = 5 beyond.
+#: IIW's slope beyond the knee under constant amplitude (a 1 % fall in
+#: strength a decade), for normal and shear stress alike.
+IIW_CONSTANT_AMPLITUDE_SLOPE = 22.0
+_IIW_DAMAGE_SUM = (f"IIW recommends an allowable damage sum of 0.5 for variable amplitude "
+                   f"(sec. 4.3; {CHECK_EDITION})")
 
-    The knee is the constant-amplitude limit; the slope 5 below it is the
-    recommendation for variable-amplitude loading (from memory).
+
+def iiw_normal(fat: float, constant_amplitude: bool = False) -> SNCurve:
+    r"""IIW curve for normal stress: m = 3 to the knee at 1e7 cycles.
+
+    Below the knee: under variable amplitude (default) the curve continues
+    with Haibach's :math:`m_2 = 2m - 1 = 5`; with ``constant_amplitude`` it
+    continues with :math:`m = 22` (the designation ends in ``-CA``).
+
+    References
+    ----------
+    .. [1] A. Hobbacher, IIW document XIII-2460-13, 2016, sec. 3.2.1, 4.3.
     """
-    return SNCurve((3.0, 5.0), (1e7,), float(fat), 2e6, name=f"IIW:FAT{fat:g}",
-                   source=_IIW, fatigue_limit_cycles=1e7,
-                   notes=("IIW recommends an allowable damage sum of 0.5 for variable "
-                          "amplitude (from memory)",))
+    m2 = IIW_CONSTANT_AMPLITUDE_SLOPE if constant_amplitude else 5.0
+    suffix = "-CA" if constant_amplitude else ""
+    note = ("constant-amplitude variant: slope 22 below the knee; for spectra use the "
+            "variable-amplitude curve" if constant_amplitude else _IIW_DAMAGE_SUM)
+    return SNCurve((3.0, m2), (1e7,), float(fat), 2e6, name=f"IIW:FAT{fat:g}{suffix}",
+                   source=_IIW, fatigue_limit_cycles=1e7, family="welded", notes=(note,))
 
 
-def iiw_shear(fat: float) -> SNCurve:
-    """IIW curve for shear stress: m = 5 to the knee at 1e8, m = 22 beyond."""
-    return SNCurve((5.0, 22.0), (1e8,), float(fat), 2e6, name=f"IIW:shear-FAT{fat:g}",
-                   source=_IIW, fatigue_limit_cycles=1e8)
+def iiw_shear(fat: float, constant_amplitude: bool = False) -> SNCurve:
+    r"""IIW curve for shear stress: m = 5 to the knee at 1e8 cycles.
+
+    Below the knee: under variable amplitude (default) Haibach's
+    :math:`m_2 = 2m - 1 = 9`, consistent with 5 for normal stress; with
+    ``constant_amplitude`` :math:`m = 22` (designation ending in ``-CA``).
+
+    References
+    ----------
+    .. [1] A. Hobbacher, IIW document XIII-2460-13, 2016, sec. 3.2.1, 4.3.
+    .. [2] E. Haibach, *Betriebsfestigkeit*, 3rd ed. Berlin, Germany:
+       Springer, 2006, sec. 3.2 (slope 2m - 1 below the fatigue limit).
+    """
+    m2 = IIW_CONSTANT_AMPLITUDE_SLOPE if constant_amplitude else 9.0
+    suffix = "-CA" if constant_amplitude else ""
+    note = ("constant-amplitude variant: slope 22 below the knee; for spectra use the "
+            "variable-amplitude curve" if constant_amplitude else _IIW_DAMAGE_SUM)
+    return SNCurve((5.0, m2), (1e8,), float(fat), 2e6, name=f"IIW:shear-FAT{fat:g}{suffix}",
+                   source=_IIW, fatigue_limit_cycles=1e8, family="welded_shear",
+                   notes=(note,))
 
 
 def dnv_air(designation: str) -> SNCurve:
@@ -113,18 +150,20 @@ def dnv_air(designation: str) -> SNCurve:
     Notes
     -----
     :math:`\log N = \log \bar a_1 - m_1 \log \Delta\sigma` for
-    :math:`N \le 10^7`, :math:`\log \bar a_2 - m_2 \log \Delta\sigma` beyond;
-    no cut-off.
+    :math:`N \le 10^7`, :math:`\log \bar a_2 - m_2 \log \Delta\sigma` beyond,
+    each with the standard's tabulated intercept (the two segments meet at the
+    knee only to the rounding of the table); no cut-off.
 
     References
     ----------
     .. [1] DNV-RP-C203, 2016, Table 2-1.
     """
-    m1, loga1, m2, _loga2, k = DNV_AIR[designation]
+    m1, loga1, m2, loga2, k = DNV_AIR[designation]
     s_knee = 10 ** ((loga1 - np.log10(DNV_KNEE_CYCLES)) / m1)
     return SNCurve((m1, m2), (DNV_KNEE_CYCLES,), float(s_knee), DNV_KNEE_CYCLES,
                    name=f"DNV-RP-C203:{designation}", source=_DNV,
-                   fatigue_limit_cycles=DNV_KNEE_CYCLES,
+                   fatigue_limit_cycles=DNV_KNEE_CYCLES, segment_log_a=(loga1, loga2),
+                   family="welded",
                    notes=(f"thickness exponent k = {k:g} above "
                           f"{DNV_REFERENCE_THICKNESS_MM:g} mm",))
 
@@ -137,9 +176,13 @@ def _catalogue() -> dict:
     for c in EN1993_SHEAR:
         entries[f"EN1993-1-9:shear-{c}"] = (en1993_shear, c)
     for c in IIW_NORMAL:
-        entries[f"IIW:FAT{c}"] = (iiw_normal, c)
+        entries[f"IIW:FAT{c}"] = (iiw_normal, (c, False))
     for c in IIW_SHEAR:
-        entries[f"IIW:shear-FAT{c}"] = (iiw_shear, c)
+        entries[f"IIW:shear-FAT{c}"] = (iiw_shear, (c, False))
+    for c in IIW_NORMAL:
+        entries[f"IIW:FAT{c}-CA"] = (iiw_normal, (c, True))
+    for c in IIW_SHEAR:
+        entries[f"IIW:shear-FAT{c}-CA"] = (iiw_shear, (c, True))
     for d in DNV_AIR:
         entries[f"DNV-RP-C203:{d}"] = (dnv_air, d)
     return entries
@@ -162,7 +205,7 @@ def catalogue_curve(designation: str) -> SNCurve:
     if entry is None:
         raise unknown("curve", designation, designations())
     builder, arg = entry
-    return builder(arg)
+    return builder(*arg) if isinstance(arg, tuple) else builder(arg)
 
 
 def thickness_factor(designation: str, thickness_mm: float,

@@ -23,10 +23,13 @@ from .errors import InvalidParameter, unknown
 #: with the first slope and no cut-off (elementary Miner, conservative).
 BELOW_LIMIT_TREATMENTS = ("curve", "ignore", "haibach", "first_slope")
 
+#: What a curve stands for (see ``SNCurve.family``).
+CURVE_FAMILIES = ("welded", "welded_shear", "estimate", "material", "user")
+
 
 @dataclass(frozen=True)
 class SNCurve:
-    """A piecewise power-law S-N curve on stress range.
+    r"""A piecewise power-law S-N curve on stress range.
 
     Attributes
     ----------
@@ -47,6 +50,22 @@ class SNCurve:
         (used by the below-limit treatments). [cycles]
     notes : tuple of str
         Anything a reader of a result should know about this curve.
+    segment_log_a : tuple or None
+        Per segment, the tabulated :math:`\log_{10} a` of
+        :math:`N = a\,\Delta\sigma^{-m}`, for codes that tabulate each
+        segment on its own (DNV-RP-C203's log a2): that segment then starts at
+        the range where the one above reaches its knee and follows its own
+        intercept, so a small step at the knee is kept as published. ``None``
+        (or a ``None`` entry): the segment continues the one above. The
+        first entry is ignored (the reference point fixes the first segment).
+    family : str
+        What the curve stands for, which decides the checks made with it:
+        ``welded`` (a code's curve for welded details, as-welded: assessed on
+        range), ``welded_shear`` (a code's shear curve), ``estimate`` (from
+        tensile data), ``material`` (a material's Basquin curve) or ``user``.
+    stress_ratio : float or None
+        R of the tests behind the curve when it is known (-1: fully
+        reversed); ``None``: not stated. [-]
     """
 
     slopes: tuple
@@ -58,6 +77,9 @@ class SNCurve:
     source: str = "user"
     fatigue_limit_cycles: float | None = None
     notes: tuple = field(default=())
+    segment_log_a: tuple | None = None
+    family: str = "user"
+    stress_ratio: float | None = None
 
     def __post_init__(self):
         slopes = tuple(float(m) for m in self.slopes)
@@ -80,6 +102,16 @@ class SNCurve:
             if not np.isfinite(v) or v <= 0:
                 raise InvalidParameter(f"{name} {v} must be positive", field=name, value=v,
                                        limit=0.0)
+        if self.family not in CURVE_FAMILIES:
+            raise unknown("family", self.family, CURVE_FAMILIES)
+        if self.segment_log_a is not None:
+            log_a = tuple(None if v is None else float(v) for v in self.segment_log_a)
+            if len(log_a) != len(slopes) or any(v is not None and not np.isfinite(v)
+                                                for v in log_a):
+                raise InvalidParameter(
+                    f"segment_log_a needs one finite value (or None) per segment, "
+                    f"got {list(log_a)} for {len(slopes)} segments", field="segment_log_a")
+            object.__setattr__(self, "segment_log_a", log_a)
         if self.cutoff_cycles is not None and (
                 not self.cutoff_cycles > 0 or (knees and self.cutoff_cycles < knees[-1])):
             raise InvalidParameter(
@@ -97,12 +129,19 @@ class SNCurve:
         return anchors_s[seg] * (anchors_n[seg] / n) ** (1.0 / m)
 
     def _anchors(self):
-        """Point (N, S) on each segment: the reference, then each knee."""
+        """Point (N, S) on each segment: the reference, then each knee.
+
+        A segment with a tabulated intercept (``segment_log_a``) is anchored
+        at the knee range with its own N there.
+        """
         ns = [self.reference_cycles]
         ss = [self.reference_range]
+        log_a = self.segment_log_a or ()
         for i, nk in enumerate(self.knee_cycles):
             sk = ss[-1] * (ns[-1] / nk) ** (1.0 / self.slopes[i])
-            ns.append(nk)
+            own = log_a[i + 1] if i + 1 < len(log_a) else None
+            ns.append(nk if own is None else
+                      10.0 ** (own - self.slopes[i + 1] * np.log10(sk)))
             ss.append(sk)
         return np.asarray(ns), np.asarray(ss)
 
@@ -169,7 +208,13 @@ class SNCurve:
             raise InvalidParameter(f"curve scale factor {factor} must be positive",
                                    field="factor", value=factor, limit=0.0)
         notes = self.notes + ((note,) if note else ())
-        return replace(self, reference_range=self.reference_range * factor, notes=notes)
+        log_a = self.segment_log_a
+        if log_a is not None:
+            # N = a S^-m with every S times factor: log a grows by m log factor.
+            log_a = tuple(None if la is None else la + m * np.log10(factor)
+                          for la, m in zip(log_a, self.slopes))
+        return replace(self, reference_range=self.reference_range * factor, notes=notes,
+                       segment_log_a=log_a)
 
     def below_limit(self, treatment: str) -> "SNCurve":
         """The curve with cycles below its fatigue limit treated as chosen.
@@ -189,6 +234,7 @@ class SNCurve:
         m1 = self.slopes[0]
         if treatment == "first_slope":
             return replace(self, slopes=(m1,), knee_cycles=(), cutoff_cycles=None,
+                           segment_log_a=None,
                            notes=self.notes + ("first slope continued below the limit",))
         nd = self.fatigue_limit_cycles
         if nd is None:
@@ -197,13 +243,21 @@ class SNCurve:
         keep = [i for i, nk in enumerate(self.knee_cycles) if nk < nd]
         slopes = self.slopes[:len(keep) + 1]
         knees = tuple(self.knee_cycles[i] for i in keep)
+        log_a = None if self.segment_log_a is None else tuple(self.segment_log_a[:len(slopes)])
         if treatment == "ignore":
             return replace(self, slopes=slopes, knee_cycles=knees, cutoff_cycles=nd,
+                           segment_log_a=log_a,
                            notes=self.notes + ("no damage below the fatigue limit",))
         m_last = slopes[-1]
         return replace(self, slopes=slopes + (2.0 * m_last - 1.0,), knee_cycles=knees + (nd,),
                        cutoff_cycles=None,
+                       segment_log_a=None if log_a is None else log_a + (None,),
                        notes=self.notes + (f"Haibach slope {2 * m_last - 1:g} below the limit",))
+
+    def slope_at(self, cycles: float) -> float:
+        """Inverse slope m of the segment that holds ``cycles``. [-]"""
+        seg = int(np.searchsorted(np.asarray(self.knee_cycles), float(cycles), side="right"))
+        return float(self.slopes[seg])
 
     @cached_property
     def description(self) -> dict:
@@ -223,6 +277,8 @@ class SNCurve:
             "fatigue_limit_range": self.fatigue_limit_range,
             "cutoff_cycles": self.cutoff_cycles,
             "cutoff_range": self.cutoff_range if self.cutoff_cycles else None,
+            "segment_log_a": None if self.segment_log_a is None else list(self.segment_log_a),
+            "family": self.family, "stress_ratio": self.stress_ratio,
             "notes": list(self.notes),
         }
 
@@ -290,11 +346,12 @@ def basquin_amplitude(fatigue_strength_coefficient: float, fatigue_strength_expo
     if not np.isfinite(b) or b >= 0:
         raise InvalidParameter(f"fatigue_strength_exponent {b} must be negative",
                                field="fatigue_strength_exponent", value=b, limit=0.0)
-    return SNCurve((-1.0 / b,), (), 2.0 * sf, 0.5, name=name, source=source)
+    return SNCurve((-1.0 / b,), (), 2.0 * sf, 0.5, name=name, source=source,
+                   family="material", stress_ratio=-1.0)
 
 
 def from_points(cycles, stress, *, quantity: str = "stress_range", name: str = "user",
-                source: str = "user", below_last: str = "ignore") -> SNCurve:
+                source: str = "user", below_last: str = "haibach") -> SNCurve:
     """
     Curve through user points, straight between them in log-log.
 
@@ -306,9 +363,12 @@ def from_points(cycles, stress, *, quantity: str = "stress_range", name: str = "
         Stress range (or amplitude) at each point, strictly decreasing. [MPa]
     quantity : {"stress_range", "stress_amplitude"}
         What ``stress`` holds; amplitudes are doubled to ranges.
-    below_last : {"ignore", "continue"}
-        Below the last point: no damage (its stress is taken as the fatigue
-        limit), or the last segment's slope goes on. Above the first point
+    below_last : {"haibach", "ignore", "continue"}
+        Below the last point, whose stress is taken as the fatigue limit:
+        ``haibach`` (default) continues with slope 2m - 1 of the last
+        segment's m, the conservative choice for a spectrum when the curve's
+        own behaviour there is not known; ``ignore``: no damage below it;
+        ``continue``: the last segment's slope goes on. Above the first point
         the first segment's slope is extended.
 
     Raises
@@ -321,8 +381,8 @@ def from_points(cycles, stress, *, quantity: str = "stress_range", name: str = "
     s = np.asarray(stress, dtype=np.float64)
     if quantity not in ("stress_range", "stress_amplitude"):
         raise unknown("quantity", quantity, ("stress_range", "stress_amplitude"))
-    if below_last not in ("ignore", "continue"):
-        raise unknown("below_last", below_last, ("ignore", "continue"))
+    if below_last not in ("haibach", "ignore", "continue"):
+        raise unknown("below_last", below_last, ("haibach", "ignore", "continue"))
     if n.ndim != 1 or n.shape != s.shape or n.size < 2:
         raise InvalidParameter("an S-N curve needs at least two (cycles, stress) points "
                                "of equal count", field="points")
@@ -346,5 +406,7 @@ def from_points(cycles, stress, *, quantity: str = "stress_range", name: str = "
     slopes = -np.diff(np.log10(n)) / np.diff(np.log10(s))
     knees = tuple(n[1:-1])
     cutoff = float(n[-1]) if below_last == "ignore" else None
-    return SNCurve(tuple(slopes), knees, float(s[0]), float(n[0]), cutoff_cycles=cutoff,
-                   name=name, source=source, fatigue_limit_cycles=cutoff)
+    limit = float(n[-1]) if below_last != "continue" else None
+    curve = SNCurve(tuple(slopes), knees, float(s[0]), float(n[0]), cutoff_cycles=cutoff,
+                    name=name, source=source, fatigue_limit_cycles=limit)
+    return curve.below_limit("haibach") if below_last == "haibach" else curve

@@ -6,8 +6,11 @@ temperature and reliability, and a straight line in log-log from a fraction
 of the ultimate strength at 1e3 cycles to that limit at 1e6. Every factor
 is returned with its value and source so a reader can check it.
 
-Factor values are recalled from the textbook cited (from memory); check the
-edition you rely on.
+The method holds for wrought steels. Aluminium alloys and cast irons have
+no true endurance limit: for them the line is continued below 1e6 cycles
+with its own slope (no cut-off) and the result carries a caution.
+Factor values were entered without the textbook at hand; every source
+string says to check them against the edition in use.
 """
 
 from __future__ import annotations
@@ -21,8 +24,25 @@ from .errors import InvalidParameter, unknown
 from .mean_stress import check_strengths
 from .sn_curve import SNCurve
 
-_SHIGLEY = ("R. G. Budynas and J. K. Nisbett, Shigley's Mechanical Engineering Design, "
-            "10th ed. New York, NY, USA: McGraw-Hill, 2015, sec. 6-7 to 6-9")
+_BOOK = ("R. G. Budynas and J. K. Nisbett, Shigley's Mechanical Engineering Design, "
+         "10th ed. New York, NY, USA: McGraw-Hill, 2015")
+_CHECK = "check against the edition in use"
+_SHIGLEY = f"{_BOOK}, sec. 6-7 to 6-10 ({_CHECK})"
+
+
+def _src(clause: str) -> str:
+    return f"{_BOOK}, {clause} ({_CHECK})"
+
+#: Material classes the estimate is made for; only steels have the endurance
+#: limit the method assumes.
+MATERIAL_CLASSES = ("steel", "aluminium", "cast_iron")
+
+#: Shear ultimate strength over tensile ultimate strength, S_su = 0.67 S_ut
+#: (Shigley eq. (6-54)), the torsion curve's amplitude at 1e3 cycles.
+SHEAR_ULTIMATE_RATIO = 0.67
+
+#: Below this S_ut [MPa] (70 kpsi) the fraction f at 1e3 cycles is 0.9.
+_F_LOW_STRENGTH_MPA = 70.0 * 6.894757
 
 #: Surface factor k_a = a * Su^b, Su in MPa: (a, b). Shigley Table 6-2.
 SURFACE_FINISH = {
@@ -79,11 +99,16 @@ class EstimatedCurve:
     unmodified_endurance_limit: float
     strength_at_1e3: float
     factors: tuple
+    material_class: str = "steel"
+    load_type: str = "bending"
+    reliability: float = 0.5
 
     def as_dict(self) -> dict:
         return {"curve": self.curve.describe(), "endurance_limit": self.endurance_limit,
                 "unmodified_endurance_limit": self.unmodified_endurance_limit,
                 "strength_at_1e3": self.strength_at_1e3,
+                "material_class": self.material_class, "load_type": self.load_type,
+                "reliability": self.reliability,
                 "factors": [f.as_dict() for f in self.factors]}
 
 
@@ -99,7 +124,8 @@ def size_factor(diameter_mm: float | None, load_type: str) -> float:
     r"""
     Size factor :math:`k_b` for a round section in bending or torsion.
 
-    :math:`k_b = 1.24 d^{-0.107}` for 2.79 <= d <= 51 mm,
+    :math:`k_b = (d/7.62)^{-0.107}` for 2.79 <= d <= 51 mm (the exact form;
+    the textbook also prints it rounded as :math:`1.24 d^{-0.107}`),
     :math:`1.51 d^{-0.157}` for 51 < d <= 254 mm; 1 for axial load or no
     diameter (Shigley eq. 6-20). [-]
     """
@@ -112,7 +138,7 @@ def size_factor(diameter_mm: float | None, load_type: str) -> float:
     if d < 2.79:
         return 1.0
     if d <= 51.0:
-        return float(1.24 * d ** -0.107)
+        return float((d / 7.62) ** -0.107)
     if d <= 254.0:
         return float(1.51 * d ** -0.157)
     raise InvalidParameter(f"diameter_mm {d} is beyond the 254 mm the size factor covers",
@@ -144,11 +170,32 @@ def reliability_factor(reliability: float) -> float:
     return float(1.0 - 0.08 * norm.ppf(r))
 
 
+def fatigue_strength_fraction(ultimate_strength: float) -> float:
+    r"""
+    Fraction :math:`f` of :math:`S_{ut}` at 1e3 cycles (Shigley eq. (6-10)).
+
+    :math:`f = \sigma'_F / S_{ut}\,(2\cdot10^3)^b` with
+    :math:`\sigma'_F = S_{ut} + 345` MPa and
+    :math:`b = -\log(\sigma'_F / S'_e) / \log(2\cdot10^6)`, :math:`S'_e` the
+    unmodified endurance limit; 0.9 below 70 kpsi (483 MPa), where the
+    textbook's figure 6-18 stops. Falls with strength: about 0.9 at 500 MPa,
+    0.8 at 1000 MPa, 0.77 at 1380 MPa. [-]
+    """
+    su = float(ultimate_strength)
+    if su < _F_LOW_STRENGTH_MPA:
+        return 0.9
+    se_prime = 0.5 * su if su <= 1400.0 else 700.0
+    sigma_f = su + 345.0
+    b = -np.log10(sigma_f / se_prime) / np.log10(2e6)
+    return float(sigma_f / su * 2e3 ** b)
+
+
 def shigley(ultimate_strength: float, *, surface_finish: str = "machined",
             diameter_mm: float | None = None, load_type: str = "bending",
             temperature_c: float = 20.0, reliability: float = 0.5,
-            strength_fraction_1e3: float = 0.9,
-            yield_strength: float | None = None) -> EstimatedCurve:
+            strength_fraction_1e3: float | None = None,
+            yield_strength: float | None = None,
+            material_class: str = "steel") -> EstimatedCurve:
     r"""
     Estimate a fully reversed S-N curve of a steel from its tensile strength.
 
@@ -165,10 +212,17 @@ def shigley(ultimate_strength: float, *, surface_finish: str = "machined",
         Operating temperature. [deg C]
     reliability : float
         Probability of survival the curve stands for, e.g. 0.5, 0.9, 0.99. [-]
-    strength_fraction_1e3 : float
-        :math:`f`: the amplitude at 1e3 cycles is :math:`f S_u`. [-]
+    strength_fraction_1e3 : float, optional
+        :math:`f`: the amplitude at 1e3 cycles is :math:`f S_u` (bending and
+        axial). Default: :func:`fatigue_strength_fraction`. Not used in
+        torsion, where the 1e3 point is the shear ultimate strength. [-]
     yield_strength : float, optional
         Only checked against :math:`S_u`. [MPa]
+    material_class : {"steel", "aluminium", "cast_iron"}
+        Steels have an endurance limit. For the others the method's
+        :math:`S_e` is only a point of the line at 1e6 cycles: the line goes
+        on below it with its own slope (no cut-off), and a caution says the
+        estimate is outside what the method was made for.
 
     Returns
     -------
@@ -179,8 +233,14 @@ def shigley(ultimate_strength: float, *, surface_finish: str = "machined",
     :math:`S_e' = 0.5 S_u` for :math:`S_u \le 1400` MPa, else 700 MPa;
     :math:`S_e = k_a k_b k_c k_d k_e S_e'`. The line :math:`S = a N^b` with
     :math:`a = (f S_u)^2 / S_e` and :math:`b = -\tfrac13 \log_{10}(f S_u / S_e)`
-    runs from 1e3 to 1e6 cycles; below :math:`S_e` the estimate assumes an
-    endurance limit (no damage) unless a below-limit treatment is chosen.
+    runs from 1e3 to 1e6 cycles. In torsion the amplitude at 1e3 cycles is
+    the shear ultimate strength :math:`S_{su} = 0.67 S_u` (eq. (6-54)) and
+    the curve is one of shear stress. The default reliability 0.5 gives a
+    median curve. For steels, :math:`S_e` is the endurance limit of constant
+    amplitude; under a spectrum the curve continues below it with Haibach's
+    slope :math:`2m - 1` (conservative: cycles under the limit still
+    damage once larger ones have started a crack); ``below_limit: "ignore"``
+    in a point's settings restores the textbook's infinite life.
 
     References
     ----------
@@ -192,6 +252,11 @@ def shigley(ultimate_strength: float, *, surface_finish: str = "machined",
     check_strengths(ultimate_strength=su, yield_strength=yield_strength)
     if load_type not in LOAD_TYPE:
         raise unknown("load_type", load_type, LOAD_TYPE)
+    if material_class not in MATERIAL_CLASSES:
+        raise unknown("material_class", material_class, MATERIAL_CLASSES)
+    f_given = strength_fraction_1e3 is not None
+    if not f_given:
+        strength_fraction_1e3 = fatigue_strength_fraction(su)
     if not (0.5 <= strength_fraction_1e3 <= 1.0):
         raise InvalidParameter(
             f"strength_fraction_1e3 {strength_fraction_1e3} must be in [0.5, 1]",
@@ -199,26 +264,50 @@ def shigley(ultimate_strength: float, *, surface_finish: str = "machined",
     se_prime = 0.5 * su if su <= 1400.0 else 700.0
     factors = (
         Factor("k_a", surface_factor(su, surface_finish), f"surface {surface_finish}",
-               _SHIGLEY + ", Table 6-2"),
+               _src("Table 6-2")),
         Factor("k_b", size_factor(diameter_mm, load_type),
                f"diameter {diameter_mm} mm, {load_type}" if diameter_mm else "no diameter given",
-               _SHIGLEY + ", eq. (6-20)"),
-        Factor("k_c", LOAD_TYPE[load_type], f"load {load_type}", _SHIGLEY + ", eq. (6-26)"),
+               _src("eq. (6-20)")),
+        Factor("k_c", LOAD_TYPE[load_type], f"load {load_type}", _src("eq. (6-26)")),
         Factor("k_d", temperature_factor(temperature_c), f"{temperature_c:g} deg C",
-               _SHIGLEY + ", Table 6-4"),
+               _src("Table 6-4")),
         Factor("k_e", reliability_factor(reliability), f"reliability {reliability:g}",
-               _SHIGLEY + ", eq. (6-29), Table 6-5"),
+               _src("eq. (6-29), Table 6-5")),
     )
     se = se_prime * float(np.prod([f.value for f in factors]))
-    s1e3 = strength_fraction_1e3 * su
+    if load_type == "torsion":
+        s1e3 = SHEAR_ULTIMATE_RATIO * su
+        at_1e3 = f"shear ultimate strength 0.67 Su = {s1e3:.4g} MPa (eq. (6-54))"
+    else:
+        s1e3 = strength_fraction_1e3 * su
+        at_1e3 = (f"f = {strength_fraction_1e3:.3f}"
+                  + (" (given)" if f_given else " (eq. (6-10))") + f", f Su = {s1e3:.4g} MPa")
     if se >= s1e3:
         raise InvalidParameter(
-            f"endurance limit {se:.1f} MPa is not below f*Su = {s1e3:.1f} MPa; "
-            f"check the factors", field="strength_fraction_1e3", value=strength_fraction_1e3)
+            f"endurance limit {se:.1f} MPa is not below the amplitude at 1e3 cycles "
+            f"{s1e3:.1f} MPa; check the factors", field="strength_fraction_1e3",
+            value=strength_fraction_1e3)
     b = -np.log10(s1e3 / se) / 3.0
-    curve = SNCurve((-1.0 / b,), (), 2.0 * se, 1e6, cutoff_cycles=1e6,
-                    name=f"estimate Su={su:g} MPa", source=_SHIGLEY,
-                    fatigue_limit_cycles=1e6,
-                    notes=("estimated from tensile data; confirm with fatigue tests",
-                           "valid from 1e3 cycles; fully reversed amplitudes doubled to ranges"))
-    return EstimatedCurve(curve, float(se), float(se_prime), float(s1e3), factors)
+    m = -1.0 / b
+    quantity = "shear stress" if load_type == "torsion" else "normal stress"
+    notes = [f"estimated from tensile data ({quantity}, fully reversed); confirm with "
+             f"fatigue tests",
+             f"amplitude at 1e3 cycles: {at_1e3}; valid from 1e3 cycles",
+             "median curve (reliability 0.5): half of such parts are expected to fail "
+             "sooner" if reliability == 0.5 else
+             f"curve for a reliability of {reliability:g} (k_e on an 8 % scatter of S_e)"]
+    if material_class == "steel":
+        notes.append(f"below the endurance limit {se:.4g} MPa (amplitude) the line "
+                     f"continues with Haibach's slope {2 * m - 1:.3g}")
+        curve = SNCurve((m, 2.0 * m - 1.0), (1e6,), 2.0 * se, 1e6,
+                        name=f"estimate Su={su:g} MPa", source=_SHIGLEY,
+                        fatigue_limit_cycles=1e6, family="estimate", stress_ratio=-1.0,
+                        notes=tuple(notes))
+    else:
+        notes.append("no endurance limit for this material class: the line is continued "
+                     "below 1e6 cycles without a cut-off")
+        curve = SNCurve((m,), (), 2.0 * se, 1e6, name=f"estimate Su={su:g} MPa",
+                        source=_SHIGLEY, family="estimate", stress_ratio=-1.0,
+                        notes=tuple(notes))
+    return EstimatedCurve(curve, float(se), float(se_prime), float(s1e3), factors,
+                          material_class, load_type, float(reliability))

@@ -44,7 +44,11 @@ def test_constant_amplitude_on_en1993_71():
     n_f = 2e6 * (71 / 100) ** 3
     # rel 1e-9: a sum of 1e5 equal terms carries ~1e-11 of rounding.
     assert r.damage == pytest.approx(100_000.5 / n_f, rel=1e-9)
-    assert r.life_repeats == pytest.approx(n_f / 100_000.5, rel=1e-9)
+    # Repeated, the recording's 1e5 + 1 rises and falls close into 1e5 + 1
+    # full cycles (the last peak falls to the first valley of the next
+    # repeat): ASTM E1049-85 sec. 5.4.4.1, repeating history.
+    assert r.damage_per_repeat == pytest.approx(100_001 / n_f, rel=1e-9)
+    assert r.life_repeats == pytest.approx(n_f / 100_001, rel=1e-9)
     assert r.life_cycles == pytest.approx(n_f, rel=1e-9)
 
 
@@ -52,7 +56,7 @@ def test_life_in_hours_and_allowable_damage():
     x = constant_amplitude(100.0, 1000)
     r = assess_history(x, EN71, AssessmentOptions(allowable_damage=0.5), duration_s=3600.0)
     assert r.life_hours == pytest.approx(r.life_repeats)
-    assert r.life_repeats == pytest.approx(0.5 / r.damage)
+    assert r.life_repeats == pytest.approx(0.5 / r.damage_per_repeat)
 
 
 def test_partial_factors():
@@ -195,7 +199,10 @@ def test_no_cycles():
 
 def test_cautions_always_present():
     r = assess_history(constant_amplitude(100.0, 10), EN71)
-    assert any("qualified engineer" in c for c in r.cautions)
+    assert any("qualified engineer" in c.text for c in r.cautions)
+    codes = [c.code for c in r.cautions]
+    assert codes[:3] == ["estimate_scatter", "method_choice", "engineer_sign_off"]
+    assert len(codes) == len(set((c.code, c.text) for c in r.cautions))  # no repeats
 
 
 def test_assess_many_equals_one_by_one():
@@ -300,7 +307,7 @@ def test_long_tables_split_the_first_pass_without_changing_the_numbers():
     # per-cycle damage is the same bitwise and the sums agree with the
     # one-thread pass to rounding (regression pin of the split, common practice).
     from service.engine import _damage_kernels as dk
-    from service.engine.damage import _SPLIT_CYCLES, _Evaluator
+    from service.engine._passes import _SPLIT_CYCLES, _Evaluator
 
     x = np.random.default_rng(5).standard_normal(600_000) * 60 + 15
     table = astm_e1049(x)
@@ -328,7 +335,7 @@ def test_long_tables_search_the_reserve_on_two_threads(method, mean, sd, allowab
     # or, when the static overload comes first (small cycles about a high
     # mean), is the overload onset.
     from service.engine import _batch_kernels as bk
-    from service.engine.damage import _SPLIT_CYCLES, _Evaluator
+    from service.engine._passes import _SPLIT_CYCLES, _Evaluator
 
     x = np.random.default_rng(9).standard_normal(400_000) * sd + mean
     table = astm_e1049(x)
@@ -357,7 +364,7 @@ def test_top_cycles_of_a_long_table_equal_one_search():
     # Long tables search the most damaging cycles in two halves; ties must
     # still go to the earliest row (equal ranges repeat in a block history).
     from service.engine import _damage_kernels as dk
-    from service.engine.damage import _SPLIT_CYCLES, _top_rows
+    from service.engine._passes import _SPLIT_CYCLES, _top_rows
 
     rng = np.random.default_rng(3)
     values = np.round(rng.exponential(1.0, 3 * _SPLIT_CYCLES), 1)  # many ties
@@ -420,7 +427,7 @@ def _identical(a, b):
 def small_stretches(monkeypatch):
     """Long-count paths on short histories: the pipeline in chunks of a few
     samples, stretches of a few rows, two-thread passes from 16 rows."""
-    from service.engine import damage as dm
+    from service.engine import _passes as dm
     from service.engine import rainflow as rf
 
     monkeypatch.setattr(rf, "_PIPELINE_SAMPLES", 2)

@@ -96,9 +96,13 @@ def test_compressive_mean_policies():
     assert g("no_benefit") == 100.0                       # no credit taken
     assert g("formula") == pytest.approx(100.0 / 1.5)     # credit as written
     assert g("zero") == 100.0
-    # Gerber is even in the mean: penalised under the default policy.
-    assert g("no_benefit", "gerber") == pytest.approx(100.0 / (1 - 0.25))
+    # Gerber is even in the mean: "no benefit" must not turn into a penalty
+    # (issue 15, defect 7): a compressive mean counts as zero; only the
+    # formula as written penalises it (Dowling, 4th ed., sec. 9.7: Gerber
+    # is not meant for compressive means).
+    assert g("no_benefit", "gerber") == 100.0
     assert g("zero", "gerber") == 100.0
+    assert g("formula", "gerber") == pytest.approx(100.0 / (1 - 0.25))
 
 
 def test_swt_no_damage_when_peak_is_compressive():

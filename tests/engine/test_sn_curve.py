@@ -108,7 +108,14 @@ def test_user_points_interpolate_in_log_log():
     c = from_points([1e4, 1e6, 1e7], [400.0, 200.0, 150.0])
     assert c.cycles_to_failure([300.0])[0] == pytest.approx(
         10 ** (4 + 2 * math.log10(400 / 300) / math.log10(2)), rel=1e-10)
-    assert math.isinf(c.cycles_to_failure([149.0])[0])           # below the last point
+    # Below the last point: Haibach's slope 2m - 1 of the last segment by
+    # default (Haibach, Betriebsfestigkeit, 3rd ed., sec. 3.2), no damage
+    # with below_last="ignore".
+    m_last = math.log10(10) / math.log10(200 / 150)
+    assert c.cycles_to_failure([140.0])[0] == pytest.approx(
+        1e7 * (150 / 140) ** (2 * m_last - 1), rel=1e-10)
+    ignore = from_points([1e4, 1e6, 1e7], [400.0, 200.0, 150.0], below_last="ignore")
+    assert math.isinf(ignore.cycles_to_failure([149.0])[0])
     # First slope m = 2 / log10(2) extended above the first point.
     assert c.cycles_to_failure([800.0])[0] == pytest.approx(1e4 * 0.5 ** (2 / math.log10(2)))
     amp = from_points([1e4, 1e6], [200.0, 100.0], quantity="stress_amplitude")

@@ -22,8 +22,10 @@ def test_reliability_factor_table(reliability, expected):
 
 
 def test_size_temperature_factors():
-    # Source: Shigley's MED, 10th ed., eq. (6-20) and Table 6-4 (from memory).
-    assert size_factor(30.0, "bending") == pytest.approx(1.24 * 30 ** -0.107)
+    # Source: Shigley's MED, 10th ed., eq. (6-20) and Table 6-4 (from memory):
+    # the exact form (d / 7.62)^-0.107; the printed 1.24 d^-0.107 is its rounding.
+    assert size_factor(30.0, "bending") == pytest.approx((30 / 7.62) ** -0.107, rel=1e-12)
+    assert size_factor(30.0, "bending") == pytest.approx(1.24 * 30 ** -0.107, rel=3e-3)
     assert size_factor(100.0, "torsion") == pytest.approx(1.51 * 100 ** -0.157)
     assert size_factor(30.0, "axial") == 1.0
     assert temperature_factor(300.0) == pytest.approx(0.975)
@@ -37,10 +39,16 @@ def test_estimated_curve_passes_its_two_points():
     ka = 1.58 * 690 ** -0.085
     assert est.unmodified_endurance_limit == 345.0
     assert est.endurance_limit == pytest.approx(345.0 * ka)
-    n = est.curve.cycles_to_failure([2 * 0.9 * 690.0, 2 * est.endurance_limit * 1.000001])
+    f = est.strength_at_1e3 / 690.0
+    n = est.curve.cycles_to_failure([2 * f * 690.0, 2 * est.endurance_limit * 1.000001])
     assert n[0] == pytest.approx(1e3, rel=1e-9)
     assert n[1] == pytest.approx(1e6, rel=1e-4)
-    assert est.curve.cycles_to_failure([2 * est.endurance_limit * 0.99])[0] == float("inf")
+    # Below S_e a steel's curve goes on with Haibach's slope 2m - 1 (a
+    # spectrum's small cycles are not free), not an infinite life.
+    m = est.curve.slopes[0]
+    assert est.curve.slopes == pytest.approx((m, 2 * m - 1))
+    below = est.curve.cycles_to_failure([2 * est.endurance_limit * 0.9])[0]
+    assert below == pytest.approx(1e6 * 0.9 ** -(2 * m - 1), rel=1e-9)
     assert [f.symbol for f in est.factors] == ["k_a", "k_b", "k_c", "k_d", "k_e"]
     assert all(f.source for f in est.factors)
 

@@ -1,0 +1,135 @@
+"""Cautions: a stable machine code and a sentence for people.
+
+Every caution a result can carry is listed in :data:`CAUTION_TEXTS` under a
+code that never changes meaning (clients may match on it); the sentence may
+be reworded. :func:`caution` fills a template with this occurrence's
+numbers. :func:`merge` gathers the cautions of many points into one list,
+each once, naming the points it concerns.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from .errors import unknown
+
+_CHECK = "check against the edition in use"
+
+#: code -> sentence template (``str.format`` fields are this occurrence's values).
+CAUTION_TEXTS = {
+    # Shown with every result.
+    "estimate_scatter": "Fatigue lives scatter by a factor of several; this is an estimate, to "
+                        "be confirmed by test.",
+    "method_choice": "The result depends on the chosen S-N curve, mean-stress method and "
+                     "factors; check them against the applicable code.",
+    "engineer_sign_off": "Decisions on safety need the judgment and sign-off of a qualified "
+                         "engineer.",
+    # From flags.
+    "static_overload": "At least one cycle reaches the static strength: this is not a fatigue "
+                       "problem; damage is infinite and life zero.",
+    "below_fatigue_limit": "Every cycle is below the curve's limit or cut-off: no damage is "
+                           "predicted, which holds only if the curve's limit holds for this "
+                           "detail and loading.",
+    "no_cycles": "The history has no cycles (constant, or everything under the gate).",
+    "low_cycle_regime": "Some cycles fail in under 1e4 cycles, where stress-based life "
+                        "estimates lose accuracy (plasticity); consider a strain-life method.",
+    # Static strength.
+    "above_yield": "The largest peak stress, {peak:.4g} MPa (load factor included), exceeds the "
+                   "yield strength {yield_strength:.4g} MPa: the point yields, and elastic "
+                   "stress-life results do not hold there.",
+    "range_above_static_limit": "The largest stress range, {range:.4g} MPa (load factor "
+                                "included), exceeds {limit:.4g} MPa ({rule}), the limit "
+                                "EN 1993-1-9:2005 sec. 8(1) sets before its fatigue curves "
+                                "apply ({check}).",
+    "yield_not_checked": "yield_strength was not given: peak stresses were not checked against "
+                         "yield{extra}.",
+    "reserve_limited_by_static_strength": "The reserve factor {reserve:.4g} is set by static "
+                                          "strength (a peak reaches the ultimate strength or "
+                                          "the mean-stress correction breaks down), not by "
+                                          "fatigue.",
+    # Method and curve.
+    "mean_stress_on_welded_curve": "A mean-stress correction ({method}) is applied to a code's "
+                                   "curve for welded details, which already contains high "
+                                   "residual stress; the codes assess as-welded joints on "
+                                   "stress range alone (mean_stress_method none).",
+    "tensile_mean_uncorrected": "{share:.0%} of the damage comes from cycles with a tensile "
+                                "mean, but the curve is for fully reversed loading (R = -1) "
+                                "and no mean-stress correction is applied: life may be "
+                                "overestimated.",
+    "below_limit_damage": "{share:.0%} of the damage, with the curve continued below its "
+                          "fatigue limit ({limit:.4g} MPa) by Haibach's slope, comes from "
+                          "{cycles_share:.0%} of the cycles that lie below that limit; the curve "
+                          "in use gives them {kept:.0%} of it.",
+    "residue_share": "The open residue (the half cycles left at the end) carries {share:.0%} of "
+                     "the damage of one pass: the recording is short for its largest cycles; "
+                     "life in repeats closes the residue as the repetition would.",
+    "estimate_not_steel": "The tensile-data estimate is made for steels; this material class "
+                          "has no true endurance limit, so the line is continued without a "
+                          "cut-off. Use fatigue test data for this material.",
+    "curve_note": "{note}",
+    # Multiaxial.
+    "non_proportional": "The principal directions turn by {rotation:.0f} deg (above {limit:g}): "
+                        "the loading is non-proportional and a scalar equivalent stress may be "
+                        "unconservative; the critical-plane result is the better guide.",
+    "sign_ambiguous": "For {share:.0%} of the damage of the {reduction} history the sign of "
+                      "the equivalent stress is ambiguous (the stress state has little "
+                      "normal stress along the reference direction): the counted ranges "
+                      "there depend on the sign rule; compare with the critical plane.",
+    # Inputs.
+    "implausible_value": "{field} = {value:.6g} {unit} is unusual for {what}; {hint}.",
+}
+
+#: The three cautions every result carries.
+GENERAL_CODES = ("estimate_scatter", "method_choice", "engineer_sign_off")
+
+
+@dataclass(frozen=True)
+class Caution:
+    """One caution: its stable ``code`` and the sentence ``text``."""
+
+    code: str
+    text: str
+
+    def as_dict(self) -> dict:
+        return {"code": self.code, "text": self.text}
+
+
+def caution(code: str, **values) -> Caution:
+    """The caution ``code`` with its sentence filled from ``values``."""
+    if code not in CAUTION_TEXTS:
+        raise unknown("caution", code, CAUTION_TEXTS)
+    values.setdefault("check", _CHECK)
+    return Caution(code, CAUTION_TEXTS[code].format(**values))
+
+
+#: The general cautions, as objects.
+GENERAL = tuple(caution(c) for c in GENERAL_CODES)
+
+
+def unique(cautions) -> tuple:
+    """``cautions`` with repeats (same code and text) removed, first kept."""
+    seen = set()
+    out = []
+    for c in cautions:
+        key = (c.code, c.text)
+        if key not in seen:
+            seen.add(key)
+            out.append(c)
+    return tuple(out)
+
+
+def merge(per_point: dict) -> list[dict]:
+    """One list for many points: ``{point: [caution dicts]}`` in, each
+    caution once (by code and text) with the sorted ``points`` it concerns,
+    the general ones first (they concern every point: ``points`` empty)."""
+    out: dict = {}
+    for c in GENERAL:
+        out[(c.code, c.text)] = {**c.as_dict(), "points": []}
+    for name in sorted(per_point):
+        for c in per_point[name]:
+            key = (c["code"], c["text"])
+            if key in out and not out[key]["points"] and c["code"] in GENERAL_CODES:
+                continue
+            out.setdefault(key, {"code": c["code"], "text": c["text"], "points": []})
+            out[key]["points"].append(name)
+    return list(out.values())
