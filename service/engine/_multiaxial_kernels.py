@@ -125,38 +125,51 @@ REDUCTION_CODES = {"signed_von_mises": 0, "signed_von_mises_hydrostatic": 1,
                    "abs_max_principal": 2, "signed_tresca": 3}
 
 
-@kernel
-def _reduce_one(sxx, syy, szz, sxy, syz, szx, code):
-    """One sample's scalar by reduction ``code`` (closed-form principals)."""
+@njit(cache=True, nogil=True, inline="always")
+def _tensile_by_invariants(sxx, syy, szz, sxy, syz, szx):
+    """Whether the principal of larger magnitude is tensile (ties: yes).
+
+    |p1| >= |p3| iff p1 + p3 >= 0 iff p2 <= I1. The roots of h' bracket p2
+    (p3 <= l- <= p2 <= l+ <= p1), and h is decreasing between them, where
+    h(I1) = I1 I2 - I3 = (p1 + p2)(p2 + p3)(p1 + p3). No trigonometry.
+    """
+    i1 = sxx + syy + szz
+    i2 = sxx * syy + syy * szz + szz * sxx - sxy * sxy - syz * syz - szx * szx
+    i3 = (sxx * (syy * szz - syz * syz) - sxy * (sxy * szz - syz * szx)
+          + szx * (sxy * syz - syy * szx))
+    disc = i1 * i1 - 3.0 * i2
+    if disc <= 0.0:
+        return i1 >= 0.0  # all three equal
+    root = math.sqrt(disc)
+    if i1 >= (i1 + root) / 3.0:
+        return True
+    if i1 < (i1 - root) / 3.0:
+        return False
+    return i1 * i2 - i3 <= 0.0
+
+
+@njit(cache=True, nogil=True, inline="always")
+def _reduce_one(sxx, syy, szz, sxy, syz, szx, code, n0, n1, n2):
+    """One sample's scalar by reduction ``code``, signed by the normal stress
+    along the reference direction (n0, n1, n2) (``equivalents.py``; the
+    larger-magnitude principal decides where that stress is exactly zero,
+    and for a zero reference)."""
     mean = (sxx + syy + szz) / 3.0
     dx = sxx - mean
     dy = syy - mean
     dz = szz - mean
     j2 = (dx * dx + dy * dy + dz * dz) / 2.0 + sxy * sxy + syz * syz + szx * szx
     vm = math.sqrt(3.0 * j2)
-    i1 = sxx + syy + szz
     if code == 1:
-        return -vm if i1 < 0.0 else vm
+        return -vm if sxx + syy + szz < 0.0 else vm
+    along = (n0 * n0 * sxx + n1 * n1 * syy + n2 * n2 * szz
+             + 2.0 * (n0 * n1 * sxy + n1 * n2 * syz + n2 * n0 * szx))
     if code == 0:
-        # Only the sign of the larger-magnitude principal is needed:
-        # |p1| >= |p3| iff p1 + p3 >= 0 iff p2 <= I1. The roots of h' bracket
-        # p2 (p3 <= l- <= p2 <= l+ <= p1), and h is decreasing between them,
-        # where h(I1) = I1 I2 - I3 = (p1 + p2)(p2 + p3)(p1 + p3). No trig.
-        i2 = sxx * syy + syy * szz + szz * sxx - sxy * sxy - syz * syz - szx * szx
-        i3 = (sxx * (syy * szz - syz * syz) - sxy * (sxy * szz - syz * szx)
-              + szx * (sxy * syz - syy * szx))
-        disc = i1 * i1 - 3.0 * i2
-        if disc <= 0.0:
-            tensile = i1 >= 0.0  # all three equal
-        else:
-            root = math.sqrt(disc)
-            if i1 >= (i1 + root) / 3.0:
-                tensile = True
-            elif i1 < (i1 - root) / 3.0:
-                tensile = False
-            else:
-                tensile = i1 * i2 - i3 <= 0.0
-        return vm if tensile else -vm
+        if along > 0.0:
+            return vm
+        if along < 0.0:
+            return -vm
+        return vm if _tensile_by_invariants(sxx, syy, szz, sxy, syz, szx) else -vm
     if j2 <= 0.0:
         p1 = mean
         p3 = mean
@@ -170,29 +183,68 @@ def _reduce_one(sxx, syy, szz, sxy, syz, szx, code):
         p1 = mean + r * math.cos(theta)
         p3 = mean + r * math.cos(theta + 2.0 * math.pi / 3.0)
     big = p1 if abs(p1) >= abs(p3) else p3
-    if code == 0:
-        return -vm if big < 0.0 else vm
-    if code == 2:
-        return big
-    t = p1 - p3
-    return -t if big < 0.0 else t
+    negative = along < 0.0 if along != 0.0 else big < 0.0
+    value = abs(big) if code == 2 else p1 - p3
+    return -value if negative else value
+
+
+@kernel
+def _reference(s, vm_of):
+    """The sign reference of one node's samples ``s`` (n x 6): the unit
+    principal direction of the largest-magnitude principal stress (ties:
+    tensile) at the first sample of largest von Mises; zeros if none."""
+    n = s.shape[0]
+    best = -1.0
+    k = 0
+    for i in range(n):
+        v = vm_of[i]
+        if v > best:
+            best = v
+            k = i
+    out = np.zeros(3)
+    if not best > 0.0:
+        return out
+    m = np.empty((3, 3))
+    m[0, 0] = s[k, 0]
+    m[1, 1] = s[k, 1]
+    m[2, 2] = s[k, 2]
+    m[0, 1] = m[1, 0] = s[k, 3]
+    m[1, 2] = m[2, 1] = s[k, 4]
+    m[0, 2] = m[2, 0] = s[k, 5]
+    vals, vecs = np.linalg.eigh(m)
+    j = 2 if abs(vals[2]) >= abs(vals[0]) else 0
+    for r in range(3):
+        out[r] = vecs[r, j]
+    return out
 
 
 @kernel
 def superposed_reduction(unit, loads, code, out):
     """out[j, i]: node j's reduced stress at sample i, from its unit stresses
-    ``unit[j, case, component]`` times ``loads[case, i]`` (6 components)."""
+    ``unit[j, case, component]`` times ``loads[case, i]`` (6 components).
+
+    Two passes a node: the superposed components (and von Mises, which
+    picks the sign reference) into a scratch array, then the reduction.
+    """
     cases = loads.shape[0]
-    s = np.empty(6)
+    n = loads.shape[1]
+    s = np.empty((n, 6))
+    vm = np.empty(n)
     for j in range(unit.shape[0]):
-        for i in range(loads.shape[1]):
+        for i in range(n):
             for m in range(6):
-                s[m] = 0.0
+                s[i, m] = 0.0
             for c in range(cases):
                 x = loads[c, i]
                 for m in range(6):
-                    s[m] += unit[j, c, m] * x
-            out[j, i] = _reduce_one(s[0], s[1], s[2], s[3], s[4], s[5], code)
+                    s[i, m] += unit[j, c, m] * x
+            a, b, z, xy, yz, zx = s[i, 0], s[i, 1], s[i, 2], s[i, 3], s[i, 4], s[i, 5]
+            vm[i] = math.sqrt(0.5 * ((a - b) ** 2 + (b - z) ** 2 + (z - a) ** 2)
+                              + 3.0 * (xy * xy + yz * yz + zx * zx))
+        ref = _reference(s, vm) if code != 1 else np.zeros(3)
+        for i in range(n):
+            out[j, i] = _reduce_one(s[i, 0], s[i, 1], s[i, 2], s[i, 3], s[i, 4], s[i, 5],
+                                    code, ref[0], ref[1], ref[2])
 
 
 def warm_up() -> None:

@@ -238,7 +238,7 @@ def test_critical_plane_governs_where_the_principal_direction_rotates():
     assert principal_rotation(c) > 40.0
     m = assess_multiaxial(c, EN71, reductions=("signed_von_mises", "critical_plane"),
                           plane_step_deg=5)
-    assert m.non_proportional and m.cautions and "Non-proportional" in m.cautions[0]
+    assert m.non_proportional and m.cautions and m.cautions[0].code == "non_proportional"
     assert set(m.damages) == {"signed_von_mises", "critical_plane"}
     assert m.plane_damage.shape == (36,)
     worst = max(m.damages.values())
@@ -365,7 +365,7 @@ def test_node_damage_equals_each_node_assessed_alone_whatever_the_chunking():
     assert r.top[0][1].damage == pytest.approx(r.damage.max(), rel=1e-12)
     assert r.top[0][1].reserve_factor is not None
     with pytest.raises(UnknownMethod):
-        assess_superposition(u, loads, EN71, reduction="critical_plane")
+        assess_superposition(u, loads, EN71, reduction="octahedral_guess")
     with pytest.raises(InvalidLoadHistory):
         assess_superposition(u, loads[:2], EN71)
     with pytest.raises(InvalidParameter):
@@ -399,8 +399,8 @@ def test_compiled_paths_equal_the_numpy_definitions():
 
 
 def test_compiled_superposed_reduction_equals_superpose_then_reduce():
-    # The fused kernel (superposition + reduction; signed von Mises decides
-    # the sign from the invariants, without trigonometry) against superpose()
+    # The fused kernel (superposition + reduction, signed along the node's
+    # reference direction) against superpose()
     # and reduce() in numpy, on random tensors and on hand-made sign cases.
     from service.engine._multiaxial_kernels import REDUCTION_CODES, superposed_reduction
     from service.engine.multiaxial import superpose

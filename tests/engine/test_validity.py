@@ -299,3 +299,105 @@ def test_short_history_life_no_longer_exceeds_repetition():
     assert one.life_repeats == pytest.approx(block.life_repeats, rel=1e-12)
     assert one.residue_damage_share > 0.95   # all but the small 40-120 cycle is residue
     assert "residue_share" in codes(one)
+
+
+# ---------------------------------------------------------------- defect 1
+
+
+def _reversed_shear(n_cycles=200, tau=80.0, samples=40):
+    t = np.linspace(0.0, 2 * np.pi * n_cycles, n_cycles * samples + 1)
+    return tau * np.sin(t)
+
+
+@pytest.mark.parametrize("m_curve", ["EN1993-1-9:71", "EN1993-1-9:shear-80"])
+def test_reversed_pure_shear_keeps_its_reversals(m_curve):
+    # Closed form (von Mises): a fully reversed pure-shear sine of amplitude
+    # tau has the signed von Mises history sqrt(3) tau(t), i.e. the range
+    # sqrt(3) * 2 tau per cycle; losing the reversals would give twice the
+    # cycles at half the range, damage 2^(m-1) times too low.
+    from service.engine.multiaxial import assess_multiaxial, reduce
+
+    curve = catalogue_curve(m_curve)
+    tau = _reversed_shear()
+    plane = np.stack([np.zeros_like(tau), np.zeros_like(tau), tau], 1)
+    space = np.zeros((tau.size, 6))
+    space[:, 4] = tau                      # torsion about x in 3-D: syz
+    for comps in (plane, space):
+        for name in ("signed_von_mises", "signed_tresca", "abs_max_principal"):
+            factor = {"signed_von_mises": math.sqrt(3), "signed_tresca": 2.0,
+                      "abs_max_principal": 1.0}[name]
+            assert reduce(comps, name) == pytest.approx(factor * tau, abs=1e-9), name
+        r = assess_multiaxial(comps, curve, reductions=("signed_von_mises",))
+        ref = assess_history(math.sqrt(3) * tau, curve)
+        assert r.governing.damage == pytest.approx(ref.damage, rel=1e-12)
+        one_sided = assess_history(np.abs(math.sqrt(3) * tau), curve).damage
+        assert ref.damage > 3.9 * one_sided
+        assert r.sign_ambiguous_share == 0.0 and not any(
+            c.code == "sign_ambiguous" for c in r.cautions)
+
+
+def test_dominant_shear_with_a_small_normal_stress_keeps_its_reversals():
+    # A shaft in reversed torsion with a small steady axial stress: the
+    # counted range must stay near the reversed one (2 sqrt(sigma^2/4 ...)),
+    # not collapse to the small swing of a one-sided signal (regression pin
+    # against the closed form of the largest von Mises: sqrt(s^2 + 3 tau^2)).
+    from service.engine.multiaxial import reduce
+
+    tau = _reversed_shear(n_cycles=10)
+    comps = np.stack([np.full_like(tau, 20.0), np.zeros_like(tau), tau], 1)
+    h = reduce(comps, "signed_von_mises")
+    peak = math.sqrt(20.0 ** 2 + 3 * 80.0 ** 2)
+    assert h.max() == pytest.approx(peak, rel=1e-6)
+    assert h.min() == pytest.approx(-peak, rel=1e-6)
+
+
+def test_proportional_loading_of_any_direction_equals_its_uniaxial_history():
+    # sigma(t) = lambda(t) S for a fixed S: every signed reduction is
+    # lambda(t) times its value for S (closed form), whatever S's direction.
+    from service.engine.multiaxial import reduce
+
+    lam = np.cumsum(np.random.default_rng(3).normal(0, 1, 500))
+    for s in ([60.0, -20.0, 45.0], [0.0, 0.0, 50.0], [-80.0, 10.0, 5.0]):
+        comps = lam[:, None] * np.array(s)
+        for name in ("signed_von_mises", "signed_tresca", "abs_max_principal"):
+            h = reduce(comps, name)
+            k = int(np.argmax(np.abs(lam)))
+            assert h / h[k] == pytest.approx(lam / lam[k], rel=1e-9, abs=1e-12), (s, name)
+
+
+def test_hydrostatic_sign_under_shear_is_cautioned():
+    # The first invariant of pure shear is zero: its sign says nothing, and
+    # the result says so (issue 15, defect 1).
+    from service.engine.multiaxial import assess_multiaxial
+
+    tau = _reversed_shear(n_cycles=20)
+    comps = np.stack([np.zeros_like(tau), np.zeros_like(tau), tau], 1)
+    r = assess_multiaxial(comps, EN71, reductions=("signed_von_mises_hydrostatic",))
+    assert r.sign_ambiguous_share == pytest.approx(1.0)
+    assert any(c.code == "sign_ambiguous" for c in r.cautions)
+
+
+def test_superposition_of_reversed_torsion_and_its_plane_scans():
+    # One node under one load case of unit shear (torsion), reversed: the
+    # signed von Mises node history is sqrt(3) L(t) (closed form); the
+    # critical plane scan finds the 45 deg plane, where the normal stress is
+    # the shear stress (Mohr's circle), and the shear scan the 0 deg plane.
+    from service.engine.multiaxial import assess_superposition
+
+    load = _reversed_shear(n_cycles=100, tau=1.0)[None, :]
+    for unit in (np.array([[[0.0, 0.0, 80.0]]]), np.array([[[0, 0, 0, 80.0, 0, 0]]])):
+        r = assess_superposition(unit, load, EN71, top=1)
+        ref = assess_history(math.sqrt(3) * 80.0 * load[0], EN71).damage
+        assert r.damage[0] == pytest.approx(ref, rel=1e-9)
+        assert r.sign_ambiguous_share[0] == 0.0
+        cp = assess_superposition(unit, load, EN71, reduction="critical_plane",
+                                  plane_step_deg=15, top=1)
+        assert cp.damage[0] == pytest.approx(assess_history(80.0 * load[0], EN71).damage,
+                                             rel=1e-9)
+        shear = catalogue_curve("EN1993-1-9:shear-80")
+        cs = assess_superposition(unit, load, EN71, reduction="critical_plane_shear",
+                                  shear_curve=shear, plane_step_deg=15, top=1)
+        assert cs.damage[0] == pytest.approx(assess_history(80.0 * load[0], shear).damage,
+                                             rel=1e-9)
+        assert cs.planes[int(cs.plane_index[0])]["kind"] == "shear"
+        assert cs.top[0][1].damage == pytest.approx(cs.damage[0], rel=1e-12)
