@@ -15,10 +15,10 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from service.engine import histograms, multiaxial
+from service.engine import cautions, histograms, multiaxial
 from service.engine import units as engine_units
 from service.engine._threads import in_one_thread
-from service.engine.damage import CAUTIONS, assess, assess_history
+from service.engine.damage import assess, assess_history
 from service.engine.errors import InvalidParameter, unknown
 from service.engine.rainflow import RESIDUE_TREATMENTS, CycleTable, astm_e1049, resolve_gate
 from service.engine.settings import USER_CURVE_PREFIX, point_from_dict, resolve
@@ -307,7 +307,7 @@ def assess_point(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
         estimate=estimate.as_dict() if estimate is not None else None,
         settings={**r.options, "residue": residue},
         settings_used=settings_used,
-        cautions=[c for c in r.cautions if c not in CAUTIONS] + list(extra_cautions),
+        cautions=r.caution_dicts() + [c.as_dict() for c in extra_cautions],
     )
     if block is not None:
         out["multiaxial"] = block
@@ -367,7 +367,8 @@ def _store(con, request, results, points, duration_s, history_id, samples_file,
            "result": {"points": results, "duration_s": json_safe(duration_s),
                       "units": {"stress": "MPa", "damage": "-", "life_hours": "h",
                                 "life_cycles": "cycles"},
-                      "cautions": list(CAUTIONS)},
+                      "cautions": cautions.merge(
+                          {name: r["cautions"] for name, r in results.items()})},
            "samples_file": samples_file}
     with sqlite.write(con):
         sqlite.insert_assessment(con, row)

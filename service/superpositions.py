@@ -15,7 +15,7 @@ import numpy as np
 import pyarrow as pa
 
 from service.engine import multiaxial
-from service.engine.damage import CAUTIONS
+from service.engine import cautions as _cautions
 from service.engine.errors import InvalidLoadHistory, InvalidParameter, unknown
 from service.engine.settings import point_from_dict
 from service.runs import json_safe
@@ -24,7 +24,7 @@ from service.store import parquet, sqlite
 PLANE = ("sxx", "syy", "sxy")
 SOLID = ("sxx", "syy", "szz", "sxy", "syz", "szx")
 REQUEST_KEYS = {"unit_stresses_id", "loads", "sample_rate_hz", "settings", "reduction", "top",
-                "gate"}
+                "gate", "plane_step_deg", "shear_settings"}
 MAX_TOP = 1000
 
 
@@ -125,8 +125,18 @@ def check_request(body: dict, unit_set: dict) -> dict:
         raise InvalidParameter("settings must be an object", field="settings")
     point_from_dict(settings)
     reduction = body.get("reduction", "signed_von_mises")
-    if reduction not in multiaxial.SCALAR_REDUCTIONS:
-        raise unknown("reduction", reduction, multiaxial.SCALAR_REDUCTIONS)
+    if reduction not in multiaxial.REDUCTION_NAMES:
+        raise unknown("reduction", reduction, multiaxial.REDUCTION_NAMES)
+    step = body.get("plane_step_deg", 15.0)
+    multiaxial.plane_normals(np.zeros((1, 3)), step)  # checks the step
+    shear_settings = body.get("shear_settings")
+    if shear_settings is not None:
+        if not isinstance(shear_settings, dict):
+            raise InvalidParameter("shear_settings must be an object", field="shear_settings")
+        point_from_dict(shear_settings)
+    if reduction == "critical_plane_shear" and shear_settings is None:
+        raise InvalidParameter("critical_plane_shear needs shear_settings (a shear S-N curve)",
+                               field="shear_settings")
     top = body.get("top", 10)
     if isinstance(top, bool) or not isinstance(top, int) or not 0 <= top <= MAX_TOP:
         raise InvalidParameter(f"top must be a whole number 0..{MAX_TOP}", field="top")
@@ -135,7 +145,8 @@ def check_request(body: dict, unit_set: dict) -> dict:
             math.isfinite(gate) and gate >= 0):
         raise InvalidParameter("gate must be a number >= 0 (MPa)", field="gate")
     return {"loads": np.stack(arrays), "sample_rate_hz": rate, "settings": settings,
-            "reduction": reduction, "top": top, "gate": float(gate)}
+            "reduction": reduction, "top": top, "gate": float(gate),
+            "plane_step_deg": float(step), "shear_settings": shear_settings}
 
 
 def run(con, data_dir, project: str, unit_set: dict, checked: dict, progress=None,
@@ -150,7 +161,11 @@ def run(con, data_dir, project: str, unit_set: dict, checked: dict, progress=Non
     rate = checked["sample_rate_hz"]
     duration = loads.shape[1] / rate if rate else None
     kwargs = dict(reduction=checked["reduction"], top=checked["top"], gate=checked["gate"],
-                  duration_s=duration)
+                  duration_s=duration, plane_step_deg=checked.get("plane_step_deg", 15.0))
+    if checked.get("shear_settings") is not None and checked["reduction"] in (
+            "critical_plane", "critical_plane_shear"):
+        shear_curve, shear_opts, _ = point_from_dict(checked["shear_settings"])
+        kwargs.update(shear_curve=shear_curve, shear_options=shear_opts)
     if client is not None:
         from service.batch.run import superpose_on_cluster
 
@@ -174,11 +189,10 @@ def run(con, data_dir, project: str, unit_set: dict, checked: dict, progress=Non
         "nodes_over_allowable": int((nd.damage >= allowable).sum()),
         "damage_median": float(np.median(finite)) if finite.size else None,
         "top": [{"node": _plain(n), **json_safe(r.summary()), "top_cycles": r.top_cycles,
-                 "runout": math.isinf(r.life_repeats)} for n, r in nd.top],
+                 "runout": math.isinf(r.life_repeats), **_node_extras(nd, n)}
+                for n, r in nd.top],
         "units": {"stress": "MPa", "damage": "-", "life_hours": "h"},
-        "cautions": list(CAUTIONS) + [
-            "Superposition assumes the structure responds linearly to each load case (no "
-            "contact, plasticity or large deflection); check the unit-load model."],
+        "cautions": superposition_cautions(nd),
     }
     row = {"id": sid, "project": project, "unit_stress_id": unit_set["id"],
            "created_at": sqlite.now(),
@@ -191,3 +205,27 @@ def run(con, data_dir, project: str, unit_set: dict, checked: dict, progress=Non
 
 def _plain(v):
     return v.item() if hasattr(v, "item") else v
+
+
+def superposition_cautions(nd) -> list[dict]:
+    """The cautions of a superposition: the general ones, linearity, and one
+    for the top nodes whose signed equivalent's sign is ambiguous for a
+    noticeable share of their damage (naming them, with the largest share)."""
+    out = _cautions.general() + [{**_cautions.caution("superposition_linear").as_dict(),
+                                  "points": []}]
+    shares = {str(n): v for n, v in (nd.sign_ambiguous_share or {}).items() if v > 0.05}
+    if shares:
+        c = _cautions.caution("sign_ambiguous", share=max(shares.values()),
+                              reduction=nd.reduction)
+        out.append({**c.as_dict(), "points": sorted(shares)})
+    return out
+
+
+def _node_extras(nd, node) -> dict:
+    """What a top node's entry adds for its reduction: the governing plane of
+    a scan, or the share of damage whose sign is ambiguous."""
+    if nd.planes is not None:
+        k = list(nd.node_ids).index(node)
+        return {"plane": nd.planes[int(nd.plane_index[k])]}
+    share = (nd.sign_ambiguous_share or {}).get(node)
+    return {"sign_ambiguous_share": None if share is None else float(share)}

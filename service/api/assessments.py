@@ -19,9 +19,9 @@ from .problems import ApiProblem, NotAcceptable, NotFound, TooManyJobs
 bp = Blueprint("assessments", __name__)
 
 #: Columns of the per-point summary table (JSON fields and CSV header alike).
-SUMMARY_COLUMNS = ("point", "damage", "life_repeats", "life_hours", "life_cycles",
-                   "reserve_factor", "equivalent_range", "cycles_counted", "max_range",
-                   "overload_cycles", "runout", "flags", "curve")
+SUMMARY_COLUMNS = ("point", "damage", "damage_per_repeat", "life_repeats", "life_hours",
+                   "life_cycles", "reserve_factor", "reserve_limited_by", "equivalent_range",
+                   "cycles_counted", "max_range", "overload_cycles", "runout", "flags", "curve")
 CYCLE_COLUMNS = ("stress_from", "stress_to", "count", "start_index", "end_index", "damage")
 
 

@@ -10,7 +10,10 @@ import service
 from service.engine import units
 from service.engine.mean_stress import COMPRESSIVE_MEAN_POLICIES, MEAN_STRESS_METHODS
 from service.engine.rainflow import RESIDUE_TREATMENTS
+from service.engine.cautions import CAUTION_TEXTS
+from service.engine.equivalents import REDUCTION_NAMES
 from service.engine.sn_curve import BELOW_LIMIT_TREATMENTS
+from service.engine.sn_estimate import MATERIAL_CLASSES
 
 from . import data_dir, db
 from .problems import NotFound
@@ -47,7 +50,10 @@ def methods():
                    compressive_mean=list(COMPRESSIVE_MEAN_POLICIES),
                    residue=list(RESIDUE_TREATMENTS),
                    below_limit=list(BELOW_LIMIT_TREATMENTS),
-                   units=list(units.UNITS))
+                   units=list(units.UNITS),
+                   reductions=list(REDUCTION_NAMES),
+                   material_classes=list(MATERIAL_CLASSES),
+                   cautions=sorted(CAUTION_TEXTS))
 
 
 @bp.get("/openapi.yaml")

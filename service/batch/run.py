@@ -16,7 +16,7 @@ from pathlib import Path
 import pyarrow as pa
 import pyarrow.parquet as pq
 
-from service.engine.damage import CAUTIONS
+from service.engine import cautions as _cautions
 from service.runs import json_safe
 from service.engine.settings import point_from_dict
 
@@ -54,7 +54,7 @@ class BatchResult:
             "worst": [{k: r[k] for k in ("point", "damage", "life_hours", "reserve_factor",
                                          "flags")} for r in worst],
             "units": {"stress": "MPa", "damage": "-", "life_hours": "h"},
-            "cautions": list(CAUTIONS),
+            "cautions": _cautions.general(),
         })
 
 
@@ -147,7 +147,7 @@ def point_runner(client):
 
 def superpose_on_cluster(client, unit, loads, curve, options, *, node_ids, reduction: str,
                          top: int, gate: float = 0.0, duration_s=None, progress=None,
-                         chunk_nodes: int = 2000):
+                         chunk_nodes: int = 2000, **scan):
     """:func:`service.engine.multiaxial.assess_superposition` over node chunks
     as Dask tasks; the same numbers, node for node, as one process."""
     import numpy as np
@@ -161,10 +161,12 @@ def superpose_on_cluster(client, unit, loads, curve, options, *, node_ids, reduc
     for lo in range(0, unit.shape[0], chunk_nodes):
         hi = min(lo + chunk_nodes, unit.shape[0])
         fut = client.submit(_superpose_chunk, unit[lo:hi], loads_f, curve, options, reduction,
-                            ids[lo:hi], top, gate, duration_s, pure=False)
+                            ids[lo:hi], top, gate, duration_s, scan, pure=False)
         futures[fut] = (lo, hi)
     damage = np.empty(unit.shape[0])
     peak = np.empty(unit.shape[0])
+    index = np.empty(unit.shape[0], np.int64)
+    planes, shares = None, {}
     tops = []
     done = 0
     try:
@@ -173,6 +175,10 @@ def superpose_on_cluster(client, unit, loads, curve, options, *, node_ids, reduc
             nd = fut.result()
             damage[lo:hi] = nd.damage
             peak[lo:hi] = nd.max_abs_equivalent
+            if nd.planes is not None:
+                planes = nd.planes
+                index[lo:hi] = nd.plane_index
+            shares.update(nd.sign_ambiguous_share or {})
             tops += nd.top
             done += hi - lo
             if progress is not None:
@@ -183,13 +189,17 @@ def superpose_on_cluster(client, unit, loads, curve, options, *, node_ids, reduc
     # one process (damage descending, then node order).
     order = {n: i for i, n in enumerate(node_ids)}
     tops.sort(key=lambda t: (-t[1].damage, order[t[0]]))
+    kept = [n for n, _ in tops[:top]]
     return NodeDamage(node_ids=ids, damage=damage, max_abs_equivalent=peak,
-                      reduction=reduction, top=tops[:top])
+                      reduction=reduction, top=tops[:top], planes=planes,
+                      plane_index=index if planes is not None else None,
+                      sign_ambiguous_share={n: shares[n] for n in kept if n in shares})
 
 
-def _superpose_chunk(unit, loads, curve, options, reduction, ids, top, gate, duration_s):
+def _superpose_chunk(unit, loads, curve, options, reduction, ids, top, gate, duration_s,
+                     scan=None):
     from service.engine.multiaxial import assess_superposition
 
     return assess_superposition(unit, loads, curve, options, reduction=reduction,
                                 node_ids=ids, top=top, gate=gate, duration_s=duration_s,
-                                workers=1)
+                                workers=1, **(scan or {}))

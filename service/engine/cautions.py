@@ -75,6 +75,12 @@ CAUTION_TEXTS = {
                       "the equivalent stress is ambiguous (the stress state has little "
                       "normal stress along the reference direction): the counted ranges "
                       "there depend on the sign rule; compare with the critical plane.",
+    # Superposition and ledger.
+    "superposition_linear": "Superposition assumes the structure responds linearly to each load "
+                            "case (no contact, plasticity or large deflection); check the "
+                            "unit-load model.",
+    "projection_assumes_same_loads": "Projections assume the future loads like the recorded "
+                                     "ones.",
     # Inputs.
     "implausible_value": "{field} = {value:.6g} {unit} is unusual for {what}; {hint}.",
 }
@@ -104,6 +110,21 @@ def caution(code: str, **values) -> Caution:
 
 #: The general cautions, as objects.
 GENERAL = tuple(caution(c) for c in GENERAL_CODES)
+
+
+def general() -> list[dict]:
+    """The general cautions as plain dicts (``points`` empty: every point)."""
+    return [{**c.as_dict(), "points": []} for c in GENERAL]
+
+
+def as_dict(value) -> dict:
+    """A caution as a dict: a :class:`Caution`, a dict already, or the plain
+    sentence stored by an older version (code ``note``)."""
+    if isinstance(value, Caution):
+        return value.as_dict()
+    if isinstance(value, dict):
+        return value
+    return {"code": "note", "text": str(value)}
 
 
 def unique(cautions) -> tuple:

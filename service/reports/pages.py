@@ -10,7 +10,9 @@ from __future__ import annotations
 import html
 import math
 
-from service.engine.damage import CAUTIONS
+from service.engine.cautions import as_dict as caution_dict
+from service.engine.cautions import caution
+from service.engine.cautions import general as general_cautions
 
 _CSS = """
 :root { --ink:#23313b; --teal:#17707f; --amber:#d48a0b; --rose:#b0384f; --ground:#eef3f4; }
@@ -60,7 +62,14 @@ def _svg(svg: bytes) -> str:
 
 
 def _page(title: str, subtitle: str, body: list[str], cautions) -> str:
-    items = "".join(f"<li>{html.escape(c)}</li>" for c in cautions)
+    def item(c) -> str:
+        c = caution_dict(c)
+        where = (f" <span class='points'>({html.escape(', '.join(c['points']))})</span>"
+                 if c.get("points") else "")
+        return (f"<li data-code='{html.escape(c['code'])}'>{html.escape(c['text'])}{where}"
+                "</li>")
+
+    items = "".join(item(c) for c in cautions)
     return (
         "<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'>"
         f"<meta name='viewport' content='width=device-width, initial-scale=1'>"
@@ -138,7 +147,14 @@ def assessment_page(resource: dict, plots: dict[str, bytes]) -> str:
             "<section id='settings'><h2>Settings and sources</h2>" + "".join(settings)
             + "<p>Stresses in MPa. Cycles counted by ASTM E1049-85; damage by the "
             "Palmgren-Miner rule.</p></section>"]
-    cautions = list(CAUTIONS) + sorted({c for p in points.values() for c in p["cautions"]})
+    stored = resource.get("cautions")
+    if stored and isinstance(stored[0], dict) and "points" in stored[0]:
+        cautions = stored
+    else:  # an assessment stored before cautions had codes
+        cautions = general_cautions() + [
+            caution_dict(c) for c in dict.fromkeys(
+                c if isinstance(c, str) else c["text"]
+                for p in points.values() for c in p["cautions"])]
     sub = f"assessment {resource['id']} - {resource['created_at']}"
     if resource.get("history_id"):
         sub += f" - history {resource['history_id']}"
@@ -165,5 +181,4 @@ def asset_page(asset: dict, points: list[dict], plots: dict[str, bytes]) -> str:
             f"<section id='plots'><h2>Running damage</h2><div class='plots'>{figs}</div>"
             "</section>"]
     return _page(f"Asset {asset['name']}", asset.get("description") or "running damage",
-                 body, list(CAUTIONS) + ["Projections assume the future loads like the "
-                                         "recorded ones."])
+                 body, general_cautions() + [caution("projection_assumes_same_loads")])

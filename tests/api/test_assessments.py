@@ -39,12 +39,22 @@ def test_constant_amplitude_damage_matches_en1993(client):
     p = a["points"]["weld"]
     n_f = 2e6 * (71 / 100) ** 3
     assert p["damage"] == pytest.approx(2000.5 / n_f, rel=1e-9)
-    assert p["life_repeats"] == pytest.approx(n_f / 2000.5, rel=1e-9)
+    # Repeated, the recording closes into 2001 full cycles (ASTM E1049-85
+    # sec. 5.4.4.1): life in repeats is that of the repetition.
+    assert p["damage_per_repeat"] == pytest.approx(2001 / n_f, rel=1e-9)
+    assert p["life_repeats"] == pytest.approx(n_f / 2001, rel=1e-9)
     duration_h = 4002 / 10.0 / 3600
-    assert p["life_hours"] == pytest.approx(n_f / 2000.5 * duration_h, rel=1e-9)
+    assert p["life_hours"] == pytest.approx(n_f / 2001 * duration_h, rel=1e-9)
+    # EN 1993-1-9 Annex A: Delta sigma_E,2 = Delta sigma_C D^(1/3) on m = 3.
+    assert p["equivalent_range"] == pytest.approx(71 * p["damage"] ** (1 / 3), rel=1e-9)
+    assert (p["equivalent_slope"], p["equivalent_cycles"]) == (3.0, 2e6)
     assert p["curve"]["name"] == "EN1993-1-9:71" and "EN 1993-1-9" in p["curve"]["source"]
     assert p["runout"] is False and p["flags"] == []
-    assert a["cautions"] and a["units"]["stress"] == "MPa"
+    assert a["units"]["stress"] == "MPa"
+    codes = {c["code"]: c for c in a["cautions"]}
+    assert {"estimate_scatter", "method_choice", "engineer_sign_off"} <= set(codes)
+    assert codes["yield_not_checked"]["points"] == ["weld"]  # said, not skipped
+    assert len(a["cautions"]) == len({(c["code"], c["text"]) for c in a["cautions"]})
     assert client.get(r.headers["Location"]).get_json()["points"] == a["points"]
 
 

@@ -1,0 +1,125 @@
+"""The ``cycleledger`` command.
+
+Subcommands
+-----------
+assess   count and assess the channels of a CSV or Parquet file, print a table
+demo     start the service, post the bundled demo, print the table, keep serving
+post     upload a recording to a running service, assess it, print the table
+report   write an assessment's or an asset's HTML page (plots, tables, cautions)
+curves   list the published S-N curves the catalogue holds
+serve    run the HTTP service on embedded storage
+
+One module a subcommand (``assess``, ``remote`` for post and report, ``demo``,
+``serve``, ``keys``, ``batch`` with curves); ``main`` builds the parser.
+"""
+
+from __future__ import annotations
+
+import argparse
+import sys
+
+from ._shared import _recording_args
+from .assess import _cmd_assess
+from .batch import _cmd_batch, _cmd_curves
+from .demo import _cmd_demo
+from .keys import _keys_parser
+from .remote import _cmd_post, _cmd_report
+from .serve import _cmd_serve
+# The functions scripts and tests import from ``service.cli``.
+from .assess import assess_file
+from ._shared import print_report
+from .remote import post_file
+from .serve import is_loopback, stop_waitress, waitress_options
+
+__all__ = ["main", "assess_file", "print_report", "post_file", "is_loopback", "stop_waitress",
+           "waitress_options"]
+
+
+def main(argv=None) -> int:
+    parser = argparse.ArgumentParser(prog="cycleledger", description=__doc__.splitlines()[0])
+    sub = parser.add_subparsers(dest="command", required=True)
+    p = sub.add_parser("assess", help="assess the channels of a recording")
+    _recording_args(p, "unit of the samples (default MPa)")
+    p.set_defaults(func=_cmd_assess)
+    p = sub.add_parser("demo", help="start the service, post the bundled demo, keep serving")
+    p.add_argument("--out", help="where to write the demo CSV")
+    p.add_argument("--port", type=int, default=8350, help="port on 127.0.0.1 (0: any free)")
+    p.add_argument("--data-dir", dest="data_dir",
+                   help="data directory (default: $CYCLELEDGER_DATA_DIR or ./cycleledger-data)")
+    p.add_argument("--no-wait", dest="no_wait", action="store_true",
+                   help="stop the service after printing the table")
+    p.add_argument("--offline", action="store_true",
+                   help="assess in this process without the service")
+    p.set_defaults(func=_cmd_demo)
+    p = sub.add_parser("post", help="upload a recording to a running service and assess it")
+    _recording_args(p, "unit of the samples (required by the service)")
+    p.add_argument("--url", default="http://127.0.0.1:8350", help="the service")
+    p.set_defaults(func=_cmd_post)
+    p = sub.add_parser("report", help="write an assessment's or an asset's HTML page")
+    who = p.add_mutually_exclusive_group(required=True)
+    who.add_argument("assessment", nargs="?", help="assessment id (a_...)")
+    who.add_argument("--asset", help="a ledger asset instead")
+    p.add_argument("--url", default="http://127.0.0.1:8350", help="the service")
+    p.add_argument("--out", help="file to write (default: <id>.html)")
+    p.set_defaults(func=_cmd_report)
+    p = sub.add_parser("batch", help="assess every point of a Parquet dataset on Dask")
+    p.add_argument("dataset", help="a Parquet file or a folder of them (successive stretches)")
+    p.add_argument("--out", required=True, help="folder for points.parquet and summary.json")
+    p.add_argument("--settings", help="JSON file: settings for every point")
+    p.add_argument("--points", help="JSON file: settings per point over --settings")
+    p.add_argument("--curve", help="catalogue designation for every point")
+    p.add_argument("--mean-stress-method", dest="mean_stress_method")
+    p.add_argument("--unit", default="MPa", help="unit of the samples (default MPa)")
+    p.add_argument("--youngs-modulus", dest="youngs_modulus", type=float,
+                   help="E in MPa, for strain units")
+    p.add_argument("--sample-rate-hz", dest="sample_rate_hz", type=float,
+                   help="when there is no time_s column")
+    p.add_argument("--gate", type=float, help="hysteresis gate in MPa")
+    p.add_argument("--partition-points", dest="partition_points", type=int, default=64,
+                   help="points a task holds (memory per task: one file of them)")
+    p.add_argument("--scheduler", help="Dask scheduler address (default: "
+                   "$CYCLELEDGER_DASK_SCHEDULER, else a local cluster in this process)")
+    p.add_argument("--threads", type=int, help="threads of the local cluster (default: cores)")
+    p.add_argument("--json", action="store_true", help="print the summary as JSON")
+    p.set_defaults(func=_cmd_batch)
+    p = sub.add_parser("curves", help="list the catalogue of published S-N curves")
+    p.set_defaults(func=_cmd_curves)
+    p = sub.add_parser("serve", help="run the HTTP service (gunicorn, one process, threads)")
+    p.add_argument("--host", default="127.0.0.1", help="address to listen on")
+    p.add_argument("--port", type=int, default=8350)
+    p.add_argument("--data-dir", dest="data_dir",
+                   help="data directory (default: $CYCLELEDGER_DATA_DIR or ./cycleledger-data)")
+    p.add_argument("--threads", type=int, default=8, help="request threads")
+    p.add_argument("--job-workers", dest="job_workers", type=int,
+                   help="threads running large assessments (default 1)")
+    p.add_argument("--max-upload-mb", dest="max_upload_mb", type=float,
+                   help="largest request body; larger ones get 413 (default 512)")
+    p.add_argument("--async-samples", dest="async_samples", type=int,
+                   help="samples x points above which an assessment becomes a job "
+                        "(default 2000000)")
+    p.add_argument("--scheduler", help="Dask scheduler address: jobs' points run on that "
+                   "cluster (default: $CYCLELEDGER_DASK_SCHEDULER, else in this process)")
+    p.add_argument("--max-channels", dest="max_channels", type=int,
+                   help="channels in one request; more get 413 (default 256)")
+    p.add_argument("--max-samples-per-channel", dest="max_samples_per_channel", type=int,
+                   help="samples in one channel of a request; more get 413 (default 2e8)")
+    p.add_argument("--max-queued-jobs", dest="max_queued_jobs", type=int,
+                   help="jobs queued or running before new ones get 429 (default 16)")
+    p.add_argument("--rate-per-s", dest="rate_per_s", type=float,
+                   help="requests a second per API key before 429 (default 50; 0: no limit)")
+    p.add_argument("--rate-burst", dest="rate_burst", type=float,
+                   help="requests a key may send at once above its rate (default 100)")
+    p.set_defaults(func=_cmd_serve)
+    _keys_parser(sub)
+    args = parser.parse_args(argv)
+    from service.engine.errors import EngineError
+
+    try:
+        return args.func(args)
+    except (EngineError, FileNotFoundError) as exc:
+        print(f"error: {exc}", file=sys.stderr)
+        return 2
+
+
+if __name__ == "__main__":
+    sys.exit(main())

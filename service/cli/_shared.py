@@ -1,0 +1,101 @@
+"""What the subcommands share: number formatting, the recording options, the printed table."""
+
+from __future__ import annotations
+
+import json
+import math
+import sys
+from pathlib import Path
+
+
+def _fmt(v, digits=3) -> str:
+    if v is None:
+        return "-"
+    if isinstance(v, float):
+        if math.isinf(v):
+            return "inf"
+        if v == 0:
+            return "0"
+        if abs(v) >= 1e5 or abs(v) < 1e-3:
+            return f"{v:.{digits}e}"
+        return f"{v:.{digits}g}" if abs(v) < 1 else f"{v:,.{max(digits - 2, 1)}f}"
+    return str(v)
+
+
+def _json_default(v):
+    if isinstance(v, float) and not math.isfinite(v):
+        return None
+    return str(v)
+
+
+def _version() -> str:
+    import service
+
+    return service.__version__
+
+
+def _recording_args(p, unit_help: str) -> None:
+    """The options shared by ``assess`` and ``post``: a recording and its settings."""
+    p.add_argument("file", help="CSV (header row; optional time_s column) or Parquet")
+    p.add_argument("--points", help="JSON file with settings per channel")
+    p.add_argument("--curve", help="catalogue designation for every channel")
+    p.add_argument("--mean-stress-method", dest="mean_stress_method")
+    p.add_argument("--unit", help=unit_help)
+    p.add_argument("--youngs-modulus", dest="youngs_modulus", type=float,
+                   help="E in MPa, for strain units")
+    p.add_argument("--gate-fraction", dest="gate_fraction", type=float)
+    p.add_argument("--sample-rate-hz", dest="sample_rate_hz", type=float)
+    p.add_argument("--json", action="store_true", help="machine-readable output")
+
+
+def _recording_config(args) -> dict:
+    """The points file (if any) with the command-line options over it."""
+    config = json.loads(Path(args.points).read_text()) if args.points else {}
+    for key in ("unit", "youngs_modulus", "curve", "mean_stress_method", "gate_fraction",
+                "sample_rate_hz"):
+        value = getattr(args, key, None)
+        if value is not None:
+            config[key] = value
+    return config
+
+
+def print_report(report: dict, out=None) -> None:
+    """The per-point table and the cautions, for people."""
+    out = out or sys.stdout
+    cols = [("point", 16), ("curve", 22), ("cycles", 9), ("max range", 10),
+            ("damage", 10), ("life rep.", 10), ("life h", 10), ("reserve", 8),
+            ("eq. range", 10), ("flags", 20)]
+    print(f"{report['file']}  (duration {_fmt(report['duration_s'])} s; stresses in MPa)",
+          file=out)
+    print("".join(f"{c:<{w}}" for c, w in cols), file=out)
+    for name, p in report["points"].items():
+        row = [name, p["curve"], _fmt(p["cycles_counted"]), _fmt(p["max_range"]),
+               _fmt(p["damage"]), _fmt(p["life_repeats"]), _fmt(p["life_hours"]),
+               _fmt(p["reserve_factor"]), _fmt(p["equivalent_range"]),
+               ",".join(p["flags"]) or "-"]
+        print("".join(f"{str(v):<{w}}" for v, (_, w) in zip(row, cols)), file=out)
+    print("\nCautions:", file=out)
+    for c in gathered_cautions(report):
+        where = f" ({', '.join(c['points'])})" if c["points"] else ""
+        print(f"  - [{c['code']}] {c['text']}{where}", file=out)
+
+
+def gathered_cautions(report: dict) -> list[dict]:
+    """Every caution of a report once, with the points it concerns: the
+    report's own list when it has one (from the service), else merged from
+    its points (the general ones first, concerning every point)."""
+    from service.engine.cautions import as_dict, merge
+
+    if report.get("cautions"):
+        return [as_dict(c) | {"points": c.get("points", [])} if isinstance(c, dict)
+                else as_dict(c) | {"points": []} for c in report["cautions"]]
+    return merge({name: [as_dict(c) for c in p["cautions"]]
+                  for name, p in report["points"].items()})
+
+
+def _read_table(path: Path):
+    import pandas as pd
+
+    if path.suffix.lower() in (".parquet", ".pq"):
+        return pd.read_parquet(path)
+    return pd.read_csv(path)

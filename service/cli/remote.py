@@ -1,0 +1,88 @@
+"""``cycleledger post`` and ``report``: a recording to a running service, and its pages back."""
+
+from __future__ import annotations
+
+import json
+import math
+import sys
+from pathlib import Path
+
+from ._shared import _json_default, _recording_config, print_report
+
+
+def post_file(client, path: Path, config: dict, progress=None) -> dict:
+    """Upload a recording and assess it through the service; returns the report dict
+    that :func:`print_report` prints (plus ``assessment_id``)."""
+    time_col = config.get("time_column", "time_s")
+    h = client.upload(path, unit=config.get("unit"), units=config.get("units"),
+                      youngs_modulus=config.get("youngs_modulus"),
+                      sample_rate_hz=config.get("sample_rate_hz"), time_column=time_col,
+                      name=Path(path).name)
+    settings = {k: v for k, v in config.items() if k in ("curve", "mean_stress_method")}
+    request = {"history_id": h["id"], "settings": settings}
+    if config.get("points"):
+        request["points"] = config["points"]
+    for key in ("gate", "gate_fraction", "residue"):
+        if config.get(key) is not None:
+            request[key] = config[key]
+    a = client.assess(progress=progress, **request)
+    points = {}
+    for name, p in a["points"].items():
+        points[name] = {**p, "curve": p["curve"]["name"], "curve_source": p["curve"]["source"]}
+        points[name] = {k: (math.inf if v is None and k in ("life_repeats", "life_cycles")
+                            and p["runout"] else v) for k, v in points[name].items()}
+        if points[name]["damage"] is None:
+            points[name]["damage"] = math.inf
+    return {"file": str(path), "duration_s": a["duration_s"], "points": points,
+            "assessment_id": a["id"], "history_id": h["id"], "cautions": a["cautions"]}
+
+
+def _progress_bar(job) -> None:
+    p = job["progress"]
+    width = 30
+    done = int(round(p["fraction"] * width))
+    print(f"\r[{'#' * done}{'.' * (width - done)}] {p['points_done']}/{p['points_total']} "
+          f"points ({job['state']})", end="" if job["state"] not in ("done", "failed") else "\n",
+          file=sys.stderr, flush=True)
+
+
+def _cmd_post(args) -> int:
+    from service.client import Client, ServiceError
+
+    config = _recording_config(args)
+    client = Client(args.url)
+    try:
+        report = post_file(client, Path(args.file), config,
+                           progress=None if args.json else _progress_bar)
+    except ServiceError as exc:
+        print(f"error: {exc}", file=sys.stderr)
+        for k in ("field", "channel", "sample_index", "valid"):
+            if k in exc.problem:
+                print(f"  {k}: {exc.problem[k]}", file=sys.stderr)
+        return 2 if 400 <= exc.status < 500 else 3
+    if args.json:
+        json.dump(report, sys.stdout, indent=2, default=_json_default)
+        print()
+    else:
+        print_report(report)
+        print(f"\n{args.url.rstrip('/')}/v1/assessments/{report['assessment_id']}")
+    failed = any("static_overload" in p["flags"] for p in report["points"].values())
+    return 1 if failed else 0
+
+
+def _cmd_report(args) -> int:
+    """Fetch an assessment's (or an asset's) HTML page from the service into a file."""
+    from service.client import Client, ServiceError
+
+    client = Client(args.url)
+    path = (f"/v1/assets/{args.asset}/report" if args.asset
+            else f"/v1/assessments/{args.assessment}/report")
+    try:
+        _, _, body = client.request("GET", path, accept="text/html")
+    except ServiceError as exc:
+        print(f"error: {exc}", file=sys.stderr)
+        return 2 if 400 <= exc.status < 500 else 3
+    out = Path(args.out or (f"{args.asset or args.assessment}.html"))
+    out.write_bytes(body)
+    print(f"wrote {out} ({len(body) / 1024:.0f} kB; open it in a browser, it needs no network)")
+    return 0
