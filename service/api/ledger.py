@@ -11,6 +11,7 @@ from flask import Blueprint, jsonify, request, url_for
 from service import ledger, runs
 from service.engine import units as engine_units
 from service.engine.errors import InvalidParameter, unknown
+from service.engine.plausibility import check_modulus
 from service.store import ledger as sql
 from service.store import sqlite
 
@@ -117,6 +118,7 @@ def create_point(asset: str):
                 math.isfinite(e) and e > 0):
             raise InvalidParameter(f"unit {unit!r} is a strain: youngs_modulus (MPa) must be "
                                    f"a positive number", field="youngs_modulus")
+        check_modulus(e)
     elif e is not None:
         raise InvalidParameter("youngs_modulus applies to strain units only",
                                field="youngs_modulus")

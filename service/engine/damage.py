@@ -30,6 +30,7 @@ from .mean_stress import (COMPRESSIVE_MEAN_POLICIES, MEAN_STRESS_METHODS,
                           check_strengths)
 from .miner import (equivalent_range, equivalent_range_from_damage, palmgren_miner,
                     residue_sequence)
+from .plausibility import strength_note
 from .rainflow import CycleTable, as_history, astm_e1049, resolve_gate
 from .sn_curve import SNCurve
 
@@ -221,6 +222,10 @@ def _method_checks(table, per_cycle, damage, curve, opts):
     """Cautions for a curve and a method that do not belong together."""
     notes = []
     method = opts.mean_stress_method
+    for name in ("ultimate_strength", "yield_strength"):
+        unusual = strength_note(getattr(opts, name), name)
+        if unusual is not None:
+            notes.append(caution("implausible_value", **unusual))
     if curve.family == "estimate" and curve.fatigue_limit_cycles is None:
         # sn_estimate builds a limit for steels only.
         notes.append(caution("estimate_not_steel"))

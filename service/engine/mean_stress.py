@@ -12,6 +12,7 @@ from __future__ import annotations
 import numpy as np
 
 from .errors import InvalidParameter, unknown
+from .plausibility import check_strength
 
 #: How compressive means (sigma_m < 0) are treated, see equivalent_amplitude.
 COMPRESSIVE_MEAN_POLICIES = ("no_benefit", "zero", "formula")
@@ -242,6 +243,8 @@ def check_strengths(ultimate_strength=None, yield_strength=None,
         if value is not None and (not np.isfinite(value) or value <= 0):
             raise InvalidParameter(f"{name} {value} MPa must be positive and finite",
                                    field=name, value=value, limit=0.0)
+        if value is not None:
+            check_strength(value, name)
     if (ultimate_strength is not None and yield_strength is not None
             and yield_strength > ultimate_strength):
         raise InvalidParameter(

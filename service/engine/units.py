@@ -11,6 +11,7 @@ from __future__ import annotations
 import numpy as np
 
 from .errors import InvalidParameter, unknown
+from .plausibility import check_modulus
 
 #: MPa per unit, for every stress unit accepted. 1 ksi = 6.894757 MPa
 #: (1 lbf/in^2 = 6894.757 Pa, NIST SP 811, Appendix B.8).
@@ -87,6 +88,7 @@ def to_mpa(values, unit: str, youngs_modulus: float | None = None) -> np.ndarray
         if not np.isfinite(e) or e <= 0:
             raise InvalidParameter(f"youngs_modulus {e} MPa must be positive",
                                    field="youngs_modulus", value=e, limit=0.0)
+        check_modulus(e)
         return x * (STRAIN_UNITS[unit] * e)
     raise unknown("unit", unit, UNITS)
 

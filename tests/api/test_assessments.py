@@ -256,3 +256,17 @@ def test_limits_answer_413_and_429_with_retry_after(tmp_path):
     assert c.get("/v1/assessments").get_json()["items"] == []
     app.extensions["cycleledger.jobs"].shutdown()
     assert not app.config["contract_errors"], app.config["contract_errors"]
+
+
+def test_unit_slips_are_refused_with_the_value_meant(client):
+    # Issue 15, defect 9: E in GPa, a strength in psi (1 psi = 6.894757e-3
+    # MPa, NIST SP 811 appendix B) answer 422 naming the probable value.
+    r = client.post("/v1/histories?unit=microstrain&youngs_modulus=206",
+                    data=b"g1\n0\n100\n-50\n", content_type="text/csv")
+    assert_problem(r, 422, "invalid-parameter", field="youngs_modulus",
+                   probable_value=206000.0, probable_unit="GPa")
+    hid = upload(client, {"g": constant_amplitude(100.0, 10)})
+    r = client.post("/v1/assessments", json={"history_id": hid, "settings": {
+        "curve": "EN1993-1-9:71", "yield_strength": 51000}})
+    assert_problem(r, 422, "invalid-parameter", field="yield_strength", probable_unit="psi")
+    assert r.get_json()["probable_value"] == pytest.approx(51000 * 6.894757e-3)

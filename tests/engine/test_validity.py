@@ -401,3 +401,35 @@ def test_superposition_of_reversed_torsion_and_its_plane_scans():
                                              rel=1e-9)
         assert cs.planes[int(cs.plane_index[0])]["kind"] == "shear"
         assert cs.top[0][1].damage == pytest.approx(cs.damage[0], rel=1e-12)
+
+
+# ---------------------------------------------------------------- defect 9
+
+
+@pytest.mark.parametrize("value, meant, unit", [
+    (206.0, 206000.0, "GPa"), (2.06e11, 206000.0, "Pa"), (29.0e6, 29.0e6 * 6.894757e-3, "psi")])
+def test_modulus_in_the_wrong_unit_is_refused_with_the_value_meant(value, meant, unit):
+    # 1 psi = 6.894757e-3 MPa (NIST SP 811, appendix B); steel's E is about
+    # 206 GPa = 29e6 psi (common practice).
+    from service.engine import units
+    from service.engine.plausibility import ImplausibleValue
+
+    with pytest.raises(ImplausibleValue) as err:
+        units.to_mpa([1.0, 2.0], "microstrain", value)
+    assert err.value.field == "youngs_modulus"
+    assert err.value.details["probable_value"] == pytest.approx(meant, rel=1e-9)
+    assert err.value.details["probable_unit"] == unit
+    assert f"{meant:.6g}" in str(err.value)
+    assert units.to_mpa([100.0], "microstrain", 206000.0)[0] == pytest.approx(20.6)
+
+
+def test_strength_in_psi_is_refused_and_a_low_one_cautioned():
+    from service.engine.plausibility import ImplausibleValue
+
+    with pytest.raises(ImplausibleValue) as err:
+        AssessmentOptions(mean_stress_method="goodman", ultimate_strength=75000.0)
+    assert err.value.details["probable_value"] == pytest.approx(75000 * 6.894757e-3)
+    assert err.value.field == "ultimate_strength"
+    r = assess(spectrum([20.0], [10]), EN71, AssessmentOptions(yield_strength=40.0))
+    note = [c for c in r.cautions if c.code == "implausible_value"]
+    assert note and "275.8 MPa" in note[0].text        # 40 ksi
