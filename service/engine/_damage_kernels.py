@@ -379,6 +379,18 @@ def damage_pass(frm, to, cnt, scale, model, segments, per_cycle, extras):
     return total, over, weight, max_sr, eq_sum, max_range, onset, counted
 
 
+@_simd
+def _below_terms(sr, d, cnt, lo, n, limit, cb, db, dt):
+    """Per cycle: its count and damage if its range is below ``limit``, and
+    its damage if finite (selects, so the loop vectorises)."""
+    for j in range(n):
+        s = sr[j]
+        below = s < limit
+        cb[j] = cnt[lo + j] if below else 0.0
+        db[j] = d[j] if below else 0.0
+        dt[j] = d[j] if s < math.inf else 0.0
+
+
 @kernel
 def split_at_limit(frm, to, cnt, scale, model, segments, limit):
     """How much of a spectrum lies below a fatigue limit.
@@ -389,6 +401,7 @@ def split_at_limit(frm, to, cnt, scale, model, segments, limit):
     ``segments`` (the curve continued below the limit, e.g. by Haibach's
     slope, so that cycles under the limit have a damage to compare). Static
     overloads are left out of both damages (they are reported on their own).
+    Sums in the fixed order of :func:`_sum8`.
     """
     method = int(model[0])
     param = model[1]
@@ -401,6 +414,9 @@ def split_at_limit(frm, to, cnt, scale, model, segments, limit):
     gr = np.empty(_CHUNK)
     d = np.empty(_CHUNK)
     w = np.empty(_CHUNK)
+    cb = np.empty(_CHUNK)
+    db = np.empty(_CHUNK)
+    dt = np.empty(_CHUNK)
     c_below = 0.0
     c_total = 0.0
     d_below = 0.0
@@ -416,15 +432,11 @@ def split_at_limit(frm, to, cnt, scale, model, segments, limit):
             _segment_damage(sr, gr, k, cnt, lo, segments[0, g], segments[1, g],
                             segments[2, g], int(segments[3, g]), segments[4, g],
                             segments[5, g], d, w)
-        for j in range(k):
-            s = sr[j]
-            c = cnt[lo + j]
-            c_total += c
-            if s < limit:
-                c_below += c
-                d_below += d[j]
-            if s < math.inf:
-                d_total += d[j]
+        _below_terms(sr, d, cnt, lo, k, limit, cb, db, dt)
+        c_below += _sum8(cb, k)
+        c_total += _sum8(cnt[lo:hi], k)
+        d_below += _sum8(db, k)
+        d_total += _sum8(dt, k)
     return c_below, c_total, d_below, d_total
 
 
@@ -494,3 +506,84 @@ def top_k(values, k):
         bval[j] = v
         best[j] = i
     return best[:filled]
+
+
+@kernel
+def residue_parts(frm, to, cnt, per_cycle):
+    """The open residue of a one-pass count and the damage on either side.
+
+    Returns ``(sequence, half_damage, closed_damage, half_rows)``: the
+    residue's turning points (the chain of the half cycles in row order:
+    each ends where the next begins), the summed damage of the half cycles
+    and of the full ones (left to right: a fixed order), and how many half
+    cycles there are. ``per_cycle`` holds each row's damage.
+    """
+    n = cnt.shape[0]
+    half_rows = 0
+    for i in range(n):
+        if cnt[i] == 0.5:
+            half_rows += 1
+    seq = np.empty(half_rows + 1 if half_rows else 0)
+    half_d = 0.0
+    closed_d = 0.0
+    k = 0
+    for i in range(n):
+        if cnt[i] == 0.5:
+            if k == 0:
+                seq[0] = frm[i]
+            k += 1
+            seq[k] = to[i]
+            half_d += per_cycle[i]
+        else:
+            closed_d += per_cycle[i]
+    return seq, half_d, closed_d, half_rows
+
+
+@kernel
+def repeating_closure(seq):
+    """Cycles of ``seq`` (turning points) counted as a repeating block.
+
+    ASTM E1049-85 sec. 5.4.4.1: the sequence is started at its largest
+    absolute point and closed on that point again; reversals lost or made at
+    the junction are re-read; then while the newest range X is at least the
+    one before, Y, Y is one full cycle and its two points are dropped.
+    Returns ``(stress_from, stress_to)`` of the cycles, all full, in the
+    order they close.
+    """
+    n = seq.shape[0]
+    j = 0
+    for i in range(n):
+        if abs(seq[i]) > abs(seq[j]):
+            j = i
+    # The rotated sequence with its first point repeated at the end, read
+    # as turning points (plateaus and monotone runs collapse).
+    pts = np.empty(n + 1)
+    m = 0
+    for r in range(n + 1):
+        v = seq[(j + r) % n]
+        if m >= 1 and v == pts[m - 1]:
+            continue
+        if m >= 2 and (pts[m - 1] - pts[m - 2]) * (v - pts[m - 1]) > 0.0:
+            pts[m - 1] = v  # still rising (or falling): not a reversal
+            continue
+        pts[m] = v
+        m += 1
+    frm = np.empty(m)
+    to = np.empty(m)
+    stack = np.empty(m)
+    sp = 0
+    c = 0
+    for r in range(m):
+        stack[sp] = pts[r]
+        sp += 1
+        while sp >= 3:
+            x = abs(stack[sp - 1] - stack[sp - 2])
+            y = abs(stack[sp - 2] - stack[sp - 3])
+            if x < y:
+                break
+            frm[c] = stack[sp - 3]
+            to[c] = stack[sp - 2]
+            c += 1
+            stack[sp - 3] = stack[sp - 1]
+            sp -= 2
+    return frm[:c], to[:c]

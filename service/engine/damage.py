@@ -13,7 +13,9 @@ run (threads, stretches, the reserve search) is behind ``_passes.py``.
 
 from __future__ import annotations
 
+import functools
 import math
+from dataclasses import replace
 
 import numpy as np
 
@@ -22,14 +24,13 @@ from . import _passes
 from . import rainflow as _rf
 from ._buffers import FLOATS, POOL
 from ._passes import _FirstPassAlong, _Evaluator, _NO_ROWS, _reserve_factor, _top_rows
-from ._threads import helper_allowed
+from ._threads import beside, helper_allowed, take_back
 from .assessment import AssessmentOptions, PointAssessment
 from .cautions import GENERAL, Caution, caution, unique
 from .errors import InvalidParameter
 from .mean_stress import (COMPRESSIVE_MEAN_POLICIES, MEAN_STRESS_METHODS,
                           check_strengths)
-from .miner import (equivalent_range, equivalent_range_from_damage, palmgren_miner,
-                    residue_sequence)
+from .miner import equivalent_range, equivalent_range_from_damage, palmgren_miner
 from .plausibility import strength_note
 from .rainflow import CycleTable, as_history, astm_e1049, resolve_gate
 from .sn_curve import SNCurve
@@ -112,12 +113,18 @@ def _complete(table, evaluate, per_cycle, first, curve, opts, duration_s) -> Poi
     """Reserve factor, top cycles and the result, after the first pass."""
     n = len(table)
     damage, overloads, _, max_inv_life, eq_sum, max_range, total_count = first
+    below_args = (table, curve, evaluate.args, opts.load_factor, damage)
+    # A long table's below-limit pass goes to the helper thread while the
+    # reserve search runs here (whose own passes then take their halves back).
+    pending = (beside(_below_limit, *below_args) if n >= _passes._SPLIT_CYCLES else None)
     reserve = None
     if opts.reserve_factor and n and max_range > 0:
         reserve = _reserve_factor(evaluate, opts.allowable_damage, first)
     top_rows = _top_rows(per_cycle, opts.top_cycles) if opts.top_cycles and n else ()
+    below = take_back(pending, _below_limit, *below_args) if pending is not None else None
     return _assemble(table, per_cycle, top_rows, damage, overloads, max_inv_life, max_range,
-                     total_count, reserve, curve, opts, duration_s, evaluate.args)
+                     total_count, reserve, curve, opts, duration_s, evaluate.args,
+                     onset=evaluate.overload_scale, below=below)
 
 
 def _damage_only(table: CycleTable, args, scale: float) -> float:
@@ -137,17 +144,32 @@ def _per_repeat(table, per_cycle, damage, total_count, args, load_factor):
     history). Equals counting the recording with ``residue="repeating_block"``
     (tested), so the life in repeats cannot exceed what repetition gives.
     """
-    seq = residue_sequence(table.stress_from, table.stress_to, table.count)
-    if seq.shape[0] < 2 or not math.isfinite(damage):
-        return damage, total_count, (0.0 if seq.shape[0] < 2 else None)
-    half = table.count == 0.5
-    half_damage = float(np.sum(per_cycle[half]))
-    closed = float(np.sum(per_cycle[~half]))
-    closure = astm_e1049(seq, residue="repeating_block")
-    per_repeat = closed + _damage_only(closure, args, load_factor)
-    cycles = float(total_count) - 0.5 * float(np.count_nonzero(half)) + closure.total_count
+    seq, half_damage, closed, half_rows = _dk.residue_parts(
+        table.stress_from, table.stress_to, table.count, per_cycle)
+    if seq.shape[0] < 2:
+        return damage, total_count, 0.0
+    if not math.isfinite(damage):
+        return damage, total_count, None
+    frm, to = _dk.repeating_closure(seq)
+    ones = np.ones(frm.shape[0])
+    closure = 0.0
+    if frm.shape[0]:
+        closure = float(_dk.damage_pass(frm, to, ones, load_factor, *args, _NO_ROWS,
+                                        False)[0])
+    cycles = float(total_count) - 0.5 * half_rows + frm.shape[0]
     share = half_damage / damage if damage > 0 else 0.0
-    return per_repeat, cycles, share
+    return closed + closure, cycles, share
+
+
+@functools.lru_cache(maxsize=256)
+def _haibach_continuation(curve: SNCurve):
+    """``(limit cycles, limit range, segments)`` of ``curve`` continued below
+    its fatigue limit (or cut-off) by Haibach's slope; None without one."""
+    limit_n = curve.fatigue_limit_cycles or curve.cutoff_cycles
+    if limit_n is None:
+        return None
+    haibach = replace(curve, fatigue_limit_cycles=limit_n).below_limit("haibach")
+    return float(limit_n), float(curve.range_at(limit_n)), _dk.curve_segments(haibach)
 
 
 def _below_limit(table, curve, args, load_factor, damage):
@@ -158,17 +180,13 @@ def _below_limit(table, curve, args, load_factor, damage):
     continued below the limit by Haibach's slope 2m - 1, so that a curve
     which ignores those cycles still shows what they would do.
     """
-    limit_n = curve.fatigue_limit_cycles or curve.cutoff_cycles
-    if limit_n is None or len(table) == 0:
+    continued = _haibach_continuation(curve)
+    if continued is None or len(table) == 0:
         return None, None
-    from dataclasses import replace
-
-    limit = float(curve.range_at(limit_n))
-    haibach = replace(curve, fatigue_limit_cycles=limit_n).below_limit("haibach")
+    limit_n, limit, segments = continued
     model, _ = args
     cb, ct, db, dt = _dk.split_at_limit(table.stress_from, table.stress_to, table.count,
-                                        load_factor, model, _dk.curve_segments(haibach),
-                                        limit)
+                                        load_factor, model, segments, limit)
     report = {"limit_range": limit, "limit_cycles": float(limit_n),
               "cycles_share": cb / ct if ct > 0 else 0.0,
               "damage_share": db / dt if dt > 0 else 0.0}
@@ -182,7 +200,7 @@ def _below_limit(table, curve, args, load_factor, damage):
     return report, note
 
 
-def _static_checks(table, curve, opts, max_range, reserve, args):
+def _static_checks(table, curve, opts, max_range, reserve, args, onset=None):
     """Flags and cautions of static strength, and what limits the reserve."""
     flags, notes = [], []
     n = len(table)
@@ -207,10 +225,12 @@ def _static_checks(table, curve, opts, max_range, reserve, args):
                                      rule="1.5 f_y / sqrt(3) in shear" if shear else "1.5 f_y"))
     limited = None
     if reserve is not None:
-        model, _ = args
-        onset, _ = _dk._onset_and_range(table.stress_from, table.stress_to, 0, n,
-                                        int(model[0]), model[1], model[2] != 0.0, model[3])
-        onset /= lf
+        if onset is None:  # the batch path: not kept from its first pass
+            model, _ = args
+            onset, _ = _dk._onset_and_range(table.stress_from, table.stress_to, 0, n,
+                                            int(model[0]), model[1], model[2] != 0.0,
+                                            model[3])
+            onset /= lf
         limited = ("static_strength" if math.isfinite(onset) and reserve >= onset * (1 - 1e-9)
                    else "fatigue")
         if limited == "static_strength":
@@ -242,10 +262,13 @@ def _method_checks(table, per_cycle, damage, curve, opts):
 
 def _assemble(table, per_cycle, top_rows, damage, overloads, max_inv_life, max_range,
               total_count, reserve, curve, opts, duration_s, args, echo=None,
-              description=None):
+              description=None, onset=None, below=None):
     """The :class:`PointAssessment` from the computed figures (shared by the
     one-point and the batch path). ``table`` gives the rows of ``top_rows``;
-    ``args`` are the kernel's ``(model, segments)`` for the checks' passes."""
+    ``args`` are the kernel's ``(model, segments)`` for the checks' passes;
+    ``onset`` the scale at which the first cycle becomes a static overload,
+    when the first pass kept it; ``below`` the result of :func:`_below_limit`
+    when it was computed beside the reserve search."""
     n = per_cycle.shape[0]
     flags = []
     if n == 0:
@@ -281,9 +304,9 @@ def _assemble(table, per_cycle, top_rows, damage, overloads, max_inv_life, max_r
     eq_range, eq_slope = equivalent_range_from_damage(
         damage, curve, opts.equivalent_cycles, opts.equivalent_slope, range_factor)
     static_flags, static_notes, limited = _static_checks(table, curve, opts, max_range,
-                                                         reserve, args)
+                                                         reserve, args, onset)
     flags += static_flags
-    below, below_note = _below_limit(table, curve, args, opts.load_factor, damage)
+    below, below_note = below or _below_limit(table, curve, args, opts.load_factor, damage)
     notes: list[Caution] = list(GENERAL)
     notes += [caution(f) for f in flags if f in FLAG_CAUTIONS and f not in static_flags]
     notes += static_notes
@@ -366,6 +389,7 @@ def warm_up() -> None:
     assess_many(np.tile(x, (2, 1)).T.copy(), curve)  # the batch kernels
     _dk.split_at_limit(x[:2], x[1:3], np.ones(2), 1.0, _passes._model_args(
         curve, AssessmentOptions())[0], _dk.curve_segments(curve), 100.0)
+    _dk.repeating_closure(_dk.residue_parts(x[:3], x[1:4], np.full(3, 0.5), np.zeros(3))[0])
     from . import _batch_kernels as _bk
 
     # Steps of the reserve search as long tables drive them from Python.

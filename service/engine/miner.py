@@ -111,18 +111,3 @@ def equivalent_range_from_damage(damage: float, curve, reference_cycles: float =
     s_ref = float(curve.range_at(reference_cycles))
     return s_ref * damage ** (1.0 / m) / range_factor, m
 
-
-def residue_sequence(stress_from, stress_to, count) -> np.ndarray:
-    """The open residue of a one-pass count: the chain of its half cycles.
-
-    In a rainflow count whose residue is counted as half cycles, the half
-    cycles in row order run from turning point to turning point without a
-    gap (each ends where the next begins): the points left open at the end.
-    Returns those points (empty if there are no half cycles). [MPa]
-    """
-    half = np.flatnonzero(np.asarray(count) == 0.5)
-    if half.shape[0] == 0:
-        return np.empty(0)
-    frm = np.asarray(stress_from)[half]
-    to = np.asarray(stress_to)[half]
-    return np.concatenate([frm[:1], to])
