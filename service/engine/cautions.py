@@ -9,6 +9,7 @@ each once, naming the points it concerns.
 
 from __future__ import annotations
 
+import functools
 from dataclasses import dataclass
 
 from .errors import unknown
@@ -102,6 +103,19 @@ class Caution:
 
 def caution(code: str, **values) -> Caution:
     """The caution ``code`` with its sentence filled from ``values``."""
+    try:
+        return _cached(code, tuple(sorted(values.items())))
+    except TypeError:  # a value that cannot be a cache key
+        return _make(code, values)
+
+
+@functools.lru_cache(maxsize=1024)
+def _cached(code: str, items: tuple) -> Caution:
+    # Most cautions repeat with the same values point after point.
+    return _make(code, dict(items))
+
+
+def _make(code: str, values: dict) -> Caution:
     if code not in CAUTION_TEXTS:
         raise unknown("caution", code, CAUTION_TEXTS)
     values.setdefault("check", _CHECK)

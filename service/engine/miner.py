@@ -6,6 +6,8 @@ the same formulas and ``tests/engine/test_damage.py`` holds them equal.
 
 from __future__ import annotations
 
+import functools
+
 import numpy as np
 
 def palmgren_miner(count, cycles_to_failure):
@@ -103,11 +105,17 @@ def equivalent_range_from_damage(damage: float, curve, reference_cycles: float =
     .. [1] EN 1993-1-9:2005, sec. 6.3, 8 and Annex A (damage-equivalent range
        at 2e6 cycles; verification with partial factors).
     """
-    m = float(curve.slope_at(reference_cycles)) if slope is None else float(slope)
+    s_ref, m_curve = _reference_point(curve, float(reference_cycles))
+    m = m_curve if slope is None else float(slope)
     if not damage > 0.0:
         return 0.0, m
     if damage == float("inf"):
         return float("inf"), m
-    s_ref = float(curve.range_at(reference_cycles))
     return s_ref * damage ** (1.0 / m) / range_factor, m
+
+
+@functools.lru_cache(maxsize=256)
+def _reference_point(curve, reference_cycles: float) -> tuple[float, float]:
+    """The curve's range and slope at ``reference_cycles`` (once per curve)."""
+    return float(curve.range_at(reference_cycles)), float(curve.slope_at(reference_cycles))
 
