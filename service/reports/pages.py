@@ -84,8 +84,10 @@ def _figure(plot_id: str, svg: bytes, caption: str) -> str:
             f"<figcaption>{html.escape(caption)}</figcaption></figure>")
 
 
-SUMMARY_COLUMNS = (("damage", "damage [-]"), ("life_repeats", "life [repeats]"),
+SUMMARY_COLUMNS = (("damage", "damage [-]"), ("damage_per_repeat", "per repeat [-]"),
+                   ("life_repeats", "life [repeats]"),
                    ("life_hours", "life [h]"), ("reserve_factor", "reserve factor [-]"),
+                   ("reserve_limited_by", "reserve set by"),
                    ("equivalent_range", "eq. range [MPa]"), ("max_range", "max range [MPa]"),
                    ("cycles_counted", "cycles"))
 
@@ -106,9 +108,13 @@ def assessment_page(resource: dict, plots: dict[str, bytes]) -> str:
                     f"<td class='flag'>{html.escape(flags)}</td></tr>")
     summary = ("<section id='summary'><h2>Per point</h2><table><thead><tr><th>point</th>"
                f"{head}<th>flags</th></tr></thead><tbody>{''.join(rows)}</tbody></table>"
-               "<p>Damage is the Miner sum of one pass of the recording; life is how many "
-               "passes (and hours) reach the allowable damage sum; the reserve factor scales "
-               "the whole recording to reach it.</p></section>")
+               "<p>Damage is the Miner sum of one pass of the recording (what is left open at "
+               "the end counted as half cycles); per repeat, the open part is closed as the "
+               "repetition closes it, and life is how many repeats (and hours) reach the "
+               "allowable damage sum; the reserve factor scales the whole recording to reach "
+               "it, and says whether fatigue or static strength sets it. The equivalent range "
+               "gives the damage at its reference cycles on the curve's own slope.</p>"
+               "</section>")
     settings = []
     for name, p in points.items():
         s = p["settings"]
