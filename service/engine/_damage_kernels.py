@@ -302,6 +302,24 @@ def _onset_and_range(frm, to, lo, hi, method, param, clip, ultimate):
     return min(t_peak, t_den), max_range
 
 
+@njit(cache=True, nogil=True, inline="always")
+def _chunk_damage(frm, to, cnt, lo, hi, scale, method, param, clip, ultimate, range_factor,
+                  segments, sr, gr, d, w):
+    """One chunk (rows lo..hi) of a pass: corrected ranges into ``sr`` (and
+    their slopes into ``gr``), each cycle's damage on the curve's
+    ``segments`` into ``d`` (and its slope weight into ``w``). Returns the
+    chunk's static overloads."""
+    k = hi - lo
+    over = _equivalent_ranges(frm, to, lo, hi, scale, method, param, clip, ultimate,
+                              range_factor, sr, gr)
+    d[:k] = 0.0
+    w[:k] = 0.0
+    for g in range(segments.shape[1]):
+        _segment_damage(sr, gr, k, cnt, lo, segments[0, g], segments[1, g], segments[2, g],
+                        int(segments[3, g]), segments[4, g], segments[5, g], d, w)
+    return over
+
+
 @kernel
 def damage_pass(frm, to, cnt, scale, model, segments, per_cycle, extras):
     """Miner damage of cycles ``frm -> to`` with every stress times ``scale``.
@@ -330,14 +348,8 @@ def damage_pass(frm, to, cnt, scale, model, segments, per_cycle, extras):
     range_factor = model[4]
     eq_slope = model[5]
     eq_whole = int(model[6])
-    seg_inv_s = segments[0]
-    seg_c = segments[1]
-    seg_m = segments[2]
-    seg_lo = segments[4]
-    seg_hi = segments[5]
     n = frm.shape[0]
     write_d = per_cycle.shape[0] > 0
-    nseg = segments.shape[1]
     sr = np.empty(_CHUNK)
     gr = np.empty(_CHUNK)
     d = np.empty(_CHUNK)
@@ -355,13 +367,8 @@ def damage_pass(frm, to, cnt, scale, model, segments, per_cycle, extras):
     for lo in range(0, n, _CHUNK):
         hi = min(lo + _CHUNK, n)
         k = hi - lo
-        over += _equivalent_ranges(frm, to, lo, hi, scale, method, param, clip, ultimate,
-                                   range_factor, sr, gr)
-        d[:k] = 0.0
-        w[:k] = 0.0
-        for g in range(nseg):
-            _segment_damage(sr, gr, k, cnt, lo, seg_inv_s[g], seg_c[g], seg_m[g],
-                            int(segments[3, g]), seg_lo[g], seg_hi[g], d, w)
+        over += _chunk_damage(frm, to, cnt, lo, hi, scale, method, param, clip, ultimate,
+                              range_factor, segments, sr, gr, d, w)
         total += _sum8(d, k)
         weight += _sum8(w, k)
         if write_d:
@@ -409,7 +416,6 @@ def split_at_limit(frm, to, cnt, scale, model, segments, limit):
     ultimate = model[3]
     range_factor = model[4]
     n = frm.shape[0]
-    nseg = segments.shape[1]
     sr = np.empty(_CHUNK)
     gr = np.empty(_CHUNK)
     d = np.empty(_CHUNK)
@@ -424,14 +430,8 @@ def split_at_limit(frm, to, cnt, scale, model, segments, limit):
     for lo in range(0, n, _CHUNK):
         hi = min(lo + _CHUNK, n)
         k = hi - lo
-        _equivalent_ranges(frm, to, lo, hi, scale, method, param, clip, ultimate,
-                           range_factor, sr, gr)
-        d[:k] = 0.0
-        w[:k] = 0.0
-        for g in range(nseg):
-            _segment_damage(sr, gr, k, cnt, lo, segments[0, g], segments[1, g],
-                            segments[2, g], int(segments[3, g]), segments[4, g],
-                            segments[5, g], d, w)
+        _chunk_damage(frm, to, cnt, lo, hi, scale, method, param, clip, ultimate,
+                      range_factor, segments, sr, gr, d, w)
         _below_terms(sr, d, cnt, lo, k, limit, cb, db, dt)
         c_below += _sum8(cb, k)
         c_total += _sum8(cnt[lo:hi], k)

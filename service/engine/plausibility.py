@@ -61,10 +61,8 @@ def check_modulus(value, field: str = "youngs_modulus") -> float:
         meant, unit = e * _PSI_MPA, "psi"
     else:
         meant, unit = e / 1e6, "Pa"
-    raise ImplausibleValue(
-        f"{field} {e:g} MPa is outside the moduli of engineering materials "
-        f"({lo:g} to {hi:g} MPa); if it was given in {unit}, it is {meant:.6g} MPa",
-        field=field, value=e, probable_value=meant, probable_unit=unit)
+    raise _refused(field, e, f"outside the moduli of engineering materials ({lo:g} to {hi:g} "
+                   f"MPa)", meant, unit)
 
 
 def check_strength(value, field: str) -> float:
@@ -74,14 +72,14 @@ def check_strength(value, field: str) -> float:
     top = COEFFICIENT_MAX_MPA if field == "fatigue_strength_coefficient" else STRENGTH_MAX_MPA
     if not math.isfinite(s) or s <= top:
         return s
-    if s < 1e7:
-        meant, unit = s * _PSI_MPA, "psi"
-    else:
-        meant, unit = s / 1e6, "Pa"
-    raise ImplausibleValue(
-        f"{field} {s:g} MPa is above any engineering metal's ({top:g} MPa); if it was "
-        f"given in {unit}, it is {meant:.6g} MPa", field=field, value=s,
-        probable_value=meant, probable_unit=unit)
+    meant, unit = (s * _PSI_MPA, "psi") if s < 1e7 else (s / 1e6, "Pa")
+    raise _refused(field, s, f"above any engineering metal's ({top:g} MPa)", meant, unit)
+
+
+def _refused(field: str, value: float, why: str, meant: float, unit: str) -> ImplausibleValue:
+    return ImplausibleValue(
+        f"{field} {value:g} MPa is {why}; if it was given in {unit}, it is {meant:.6g} MPa",
+        field=field, value=value, probable_value=meant, probable_unit=unit)
 
 
 def strength_note(value: float, field: str) -> dict | None:
