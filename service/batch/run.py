@@ -113,6 +113,7 @@ def write_results(result: BatchResult, dataset: Dataset, settings: dict, out_dir
     out.mkdir(parents=True, exist_ok=True)
     cols = {c: [r[c] for r in result.rows] for c in RESULT_COLUMNS}
     types = {"point": pa.string(), "status": pa.string(), "flags": pa.string(),
+             "cautions": pa.string(), "reserve_limited_by": pa.string(),
              "error": pa.string(), "overload_cycles": pa.int64(), "samples": pa.int64()}
     table = pa.table({c: pa.array(v, type=types.get(c, pa.float64())) for c, v in cols.items()})
     tmp = out / ".points.parquet.tmp"

@@ -24,9 +24,10 @@ from service.engine.settings import point_from_dict
 from .dataset import read_group
 
 #: Columns of the per-point result table, in order.
-RESULT_COLUMNS = ("point", "status", "damage", "life_repeats", "life_hours", "life_cycles",
-                  "reserve_factor", "equivalent_range", "cycles_counted", "max_range",
-                  "overload_cycles", "samples", "flags", "error")
+RESULT_COLUMNS = ("point", "status", "damage", "damage_per_repeat", "life_repeats",
+                  "life_hours", "life_cycles", "reserve_factor", "reserve_limited_by",
+                  "equivalent_range", "cycles_counted", "max_range", "overload_cycles",
+                  "samples", "flags", "cautions", "error")
 
 
 def assess_group(files, layout: str, points: list[str], settings: dict, *,
@@ -82,10 +83,12 @@ def assess_group(files, layout: str, points: list[str], settings: dict, *,
             continue
         s = r.summary()
         rows[p] = {"point": p, "status": "ok", **{k: _num(s[k]) for k in (
-            "damage", "life_repeats", "life_hours", "life_cycles", "reserve_factor",
-            "equivalent_range", "cycles_counted", "max_range")},
+            "damage", "damage_per_repeat", "life_repeats", "life_hours", "life_cycles",
+            "reserve_factor", "equivalent_range", "cycles_counted", "max_range")},
+            "reserve_limited_by": s["reserve_limited_by"],
             "overload_cycles": int(s["overload_cycles"]), "samples": counts[p],
-            "flags": ";".join(s["flags"]), "error": None}
+            "flags": ";".join(s["flags"]),
+            "cautions": ";".join(c["code"] for c in r.caution_dicts()), "error": None}
     return {"rows": [rows[p] for p in points], "pid": os.getpid(),
             "peak_rss_kb": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss,
             "seconds": time.perf_counter() - t0,
@@ -125,7 +128,7 @@ def _num(v):
 
 def _failed(point: str, reason: str) -> dict:
     row = dict.fromkeys(RESULT_COLUMNS)
-    row.update(point=point, status="failed", error=reason, flags="")
+    row.update(point=point, status="failed", error=reason, flags="", cautions="")
     return row
 
 
