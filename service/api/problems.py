@@ -17,6 +17,7 @@ from werkzeug.exceptions import HTTPException
 
 from service.engine.errors import (EngineError, IncompatibleState, InvalidLoadHistory,
                                    InvalidParameter, UnknownMethod)
+from service.recordings import RecordingError, UnreadableRecording
 
 PROBLEM_BASE = "https://cycleledger.example/problems/"
 log = logging.getLogger("cycleledger.api")
@@ -87,6 +88,8 @@ ENGINE_PROBLEMS = {
     InvalidParameter: (422, "invalid-parameter", "Invalid parameter"),
     UnknownMethod: (422, "unknown-name", "Unknown name"),
     IncompatibleState: (409, "incompatible-state", "Incompatible continuation state"),
+    UnreadableRecording: (400, "malformed-body", "Body could not be read"),
+    RecordingError: (422, "invalid-upload", "Upload is not a valid load history"),
     EngineError: (422, "invalid-input", "Invalid input"),
 }
 

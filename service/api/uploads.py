@@ -1,16 +1,18 @@
 """Request bodies -> channels of samples in MPa.
 
-Three ways in, one result: CSV (header row, optional time column), Parquet or
-Arrow IPC (the fast path: columns arrive as float arrays, no text parsing),
-and JSON arrays. Every channel is checked (numbers, finite, same length, at
-least two samples) and converted to MPa with its unit before anything is
-stored.
+Files are read by ``service.recordings`` (the one reader of the service, the
+ledger and the command line): CSV in acquisition systems' dialects, Parquet
+and Arrow IPC (the fast path: columns arrive as float arrays), ASAM MDF 4,
+HDF5, any of them gzip-compressed; JSON arrays are read here. Every channel
+is checked (numbers, finite, same length, at least two samples), given its
+unit (the request's, or the file's own), its strain corrected for the gauge
+factor when asked, and converted to MPa before anything is stored.
 """
 
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -20,11 +22,16 @@ from service.engine.rainflow import as_history
 
 from .problems import InvalidUpload, MalformedBody, TooLarge, UnsupportedMediaType
 
-CSV_TYPES = ("text/csv",)
+CSV_TYPES = ("text/csv", "text/plain")
 PARQUET_TYPES = ("application/vnd.apache.parquet", "application/x-parquet")
 ARROW_TYPES = ("application/vnd.apache.arrow.stream", "application/vnd.apache.arrow.file")
 JSON_TYPES = ("application/json",)
-UPLOAD_TYPES = CSV_TYPES + PARQUET_TYPES + ARROW_TYPES + JSON_TYPES
+#: Files recognised by their first bytes (MDF 4, HDF5, gzip of any format).
+BINARY_TYPES = ("application/x-hdf5", "application/x-mdf", "application/gzip",
+                "application/octet-stream")
+UPLOAD_TYPES = CSV_TYPES + PARQUET_TYPES + ARROW_TYPES + JSON_TYPES + BINARY_TYPES
+#: Query parameters that tell the reader how to read a file.
+READER_OPTIONS = ("delimiter", "decimal", "header_row", "channels", "group", "time_column")
 DEFAULT_TIME_COLUMN = "time_s"
 
 
@@ -38,6 +45,9 @@ class Upload:
     name: str | None
     ranges: dict[str, tuple[float, float]]  # (min, max) of each channel [MPa]
     stored_as_sent: bool = False             # the uploaded Parquet file can be kept as is
+    format: str = "json"                     # how the body was read (recordings.FORMATS)
+    read_details: dict = field(default_factory=dict)  # the CSV dialect, MDF group ...
+    gauge_factors: list | None = None        # [set, gauge] when strain was corrected
 
     @property
     def sample_count(self) -> int:
@@ -62,24 +72,44 @@ def check_media_type(content_type: str | None) -> str:
 
 def parse(path, content_type: str, params: dict, registered: dict | None = None) -> Upload:
     """Parse and validate an upload spooled to ``path``; ``params`` are the
-    query parameters. Parquet and Arrow are memory-mapped, not read."""
+    query parameters. The format comes from the file's first bytes (a gzip
+    file is unpacked beside it first); Parquet and Arrow are memory-mapped."""
     import os
+
+    from service import recordings
 
     mime = check_media_type(content_type)
     if os.path.getsize(path) == 0:
         raise InvalidUpload("the upload is empty", field="body")
     params = dict(params)
-    if mime in JSON_TYPES:
-        with open(path, "rb") as f:
-            columns, params = _json(f.read(), params)
-    elif mime in CSV_TYPES:
-        columns = _csv(path)
-    else:
-        columns = _arrow(path, mime)
-    up = validated(columns, params, registered)
+    with open(path, "rb") as f:
+        head = f.read(16)
+    fmt = recordings.detect(head, mime)
+    source, unpacked = path, None
+    try:
+        if fmt == "gzip":
+            source = unpacked = recordings.unpacked(path)
+            with open(source, "rb") as f:
+                fmt = recordings.detect(f.read(16), mime)
+        if fmt == "json":
+            with open(source, "rb") as f:
+                columns, params = _json(f.read(), params)
+            up = validated(columns, params, registered)
+        else:
+            rec = recordings.read(source, mime, {k: params[k] for k in READER_OPTIONS
+                                                 if params.get(k) is not None})
+            columns = rec.columns
+            up = validated(columns, params, registered, file_units=rec.units,
+                           time_column=rec.time_column, file_rate=rec.sample_rate_hz)
+            up.format = rec.format
+            up.read_details = rec.details
+    finally:
+        if unpacked is not None:
+            unpacked.unlink(missing_ok=True)
     # Already float64 MPa with nothing to convert: keep the file as sent
     # (no second write, no re-encoding); readers select the channel columns.
-    up.stored_as_sent = mime in PARQUET_TYPES and _stored_as_sent(up, columns)
+    up.stored_as_sent = (fmt == "parquet" and unpacked is None
+                         and _stored_as_sent(up, columns))
     return up
 
 
@@ -112,84 +142,24 @@ def _json(body: bytes, params: dict):
     return columns, params
 
 
-def _csv(path) -> dict:
-    import pyarrow as pa
-    from pyarrow import csv as pacsv
-
-    with open(path, "rb") as f:
-        head = f.read(4096)
-    if head.startswith((b"\xff\xfe", b"\xfe\xff")) or b"\x00" in head:
-        raise MalformedBody("the CSV must be UTF-8 (or ASCII) text; this looks like UTF-16 or "
-                            "binary: save it as UTF-8 CSV")
-    try:
-        table = pacsv.read_csv(str(path))
-        return _table_columns(table)  # names are decoded here, lazily
-    except UnicodeDecodeError:
-        raise MalformedBody("the CSV must be UTF-8 (or ASCII) text: save it as UTF-8 CSV"
-                            ) from None
-    except pa.ArrowInvalid as exc:
-        raise MalformedBody(f"the CSV could not be read: {exc}") from None
-
-
-def _arrow(path, mime: str) -> dict:
-    import pyarrow as pa
-    import pyarrow.parquet as pq
-
-    try:
-        source = pa.memory_map(str(path))
-        if mime in PARQUET_TYPES:
-            table = pq.read_table(source)
-        elif mime.endswith("stream"):
-            table = pa.ipc.open_stream(source).read_all()
-        else:
-            table = pa.ipc.open_file(source).read_all()
-    except (pa.ArrowException, OSError) as exc:
-        raise MalformedBody(f"the {mime} body could not be read: {exc}") from None
-    return _table_columns(table)
-
-
-def _table_columns(table) -> dict:
-    import pyarrow as pa
-
-    out = {}
-    for name in table.column_names:
-        col = table.column(name)
-        if pa.types.is_floating(col.type) or pa.types.is_integer(col.type):
-            if col.null_count:
-                first = int(np.flatnonzero(col.is_null().to_numpy(zero_copy_only=False))[0])
-                raise InvalidLoadHistory(f"channel {name!r} sample {first} is empty",
-                                         sample_index=first, channel=name)
-            out[name] = col.to_numpy().astype(np.float64, copy=False)
-        else:
-            out[name] = _text_column(name, col.to_pylist())
-    return out
-
-
-def _text_column(name: str, cells: list) -> np.ndarray:
-    """A column the reader left as text: numbers if every cell is one, else
-    the first cell that is not (a formula such as ``=1+2``, a word, a blank)."""
-    out = np.empty(len(cells), dtype=np.float64)
-    for i, cell in enumerate(cells):
-        try:
-            out[i] = float(cell)
-        except (TypeError, ValueError):
-            raise InvalidLoadHistory(f"channel {name!r} must be numbers; sample {i} is "
-                                     f"{str(cell)[:40]!r}", sample_index=i, channel=name,
-                                     field=name) from None
-    return out
-
-
-def validated(columns: dict, params: dict, registered: dict | None = None) -> Upload:
+def validated(columns: dict, params: dict, registered: dict | None = None, *,
+              file_units: dict | None = None, time_column: str | None = None,
+              file_rate: float | None = None) -> Upload:
     """Check named columns (arrays or lists) and convert them to MPa.
 
     ``registered`` ({channel: (unit, youngs_modulus)}), when given, names the
     only channels allowed (the ledger's points) and gives a channel whose
     unit the request does not state its registered unit and modulus.
+    ``file_units`` are the units the file itself gives (spelt as the
+    acquisition system spells them), ``time_column`` the time column the
+    reader found, ``file_rate`` a rate from the file's metadata [Hz].
     """
-    time_col = params.get("time_column") or DEFAULT_TIME_COLUMN
+    time_col = params.get("time_column") or time_column or DEFAULT_TIME_COLUMN
     rate = params.get("sample_rate_hz")
     if rate is not None:
         rate = _positive(rate, "sample_rate_hz")
+    elif file_rate is not None:
+        rate = _positive(file_rate, "sample_rate_hz")
     time = columns.pop(time_col, None)
     if not columns:
         raise InvalidUpload("the upload has no channels besides the time column",
@@ -212,7 +182,8 @@ def validated(columns: dict, params: dict, registered: dict | None = None) -> Up
         for name in columns:
             if name not in registered:
                 raise unknown("point", name, sorted(registered))
-    unit_of = _units(params, list(columns), registered or {})
+    unit_of = _units(params, list(columns), registered or {}, file_units or {})
+    gauge = _gauge_factors(params, unit_of)
     e = params.get("youngs_modulus")
     if e is not None:
         e = _positive(e, "youngs_modulus")
@@ -232,6 +203,8 @@ def validated(columns: dict, params: dict, registered: dict | None = None) -> Up
         e_here = e
         if e_here is None and registered and name in registered:
             e_here = registered[name][1]
+        if gauge is not None and units.is_strain(unit_of[name]):
+            x = units.corrected_strain(x, *gauge)
         with np.errstate(over="ignore", invalid="ignore"):
             mpa = units.to_mpa(x, unit_of[name], e_here)
             # min and max carry NaN and inf through: two passes check
@@ -251,7 +224,8 @@ def validated(columns: dict, params: dict, registered: dict | None = None) -> Up
     if len(lengths) > 1:
         raise InvalidUpload(f"channels differ in length: {sorted(lengths)} samples",
                             field="channels")
-    return Upload(out, unit_of, rate, params.get("name"), ranges)
+    return Upload(out, unit_of, rate, params.get("name"), ranges,
+                  gauge_factors=None if gauge is None else list(gauge))
 
 
 #: Longest channel or history name. [characters]
@@ -289,10 +263,12 @@ def _check_limits(columns: dict) -> None:
                            channel=str(name), limit=cfg["MAX_SAMPLES_PER_CHANNEL"])
 
 
-def _units(params: dict, names: list, registered: dict) -> dict:
+def _units(params: dict, names: list, registered: dict, file_units: dict) -> dict:
     """Unit of each channel: ``units`` ({name: unit} or "a:MPa,b:microstrain"),
-    else ``unit`` for all, else the channel's registered unit. A channel
-    without a unit is refused."""
+    else the unit the file gives it (as the acquisition system spells it),
+    else ``unit`` for all, else the channel's registered unit. A file's unit
+    that contradicts ``unit`` is refused (say ``units`` to override it); a
+    channel without a unit is refused."""
     per = params.get("units") or {}
     if isinstance(per, str):
         try:
@@ -307,19 +283,43 @@ def _units(params: dict, names: list, registered: dict) -> dict:
         raise InvalidParameter(f"units names channel(s) not in the upload: "
                                f"{', '.join(sorted(map(str, extra)))}", field="units")
     default = params.get("unit")
+    if default:
+        default = units.unit_from_spelling(default)
     out = {}
     for name in names:
-        unit = per.get(name, default)
+        spelt = file_units.get(name)
+        from_file = units.unit_from_spelling(spelt) if spelt and name not in per else None
+        if from_file and default and from_file != default:
+            exc = InvalidParameter(
+                f"channel {name!r} is in {spelt!r} by the file, but unit says {default!r}; "
+                f"give units={name}:<unit> to override the file", field="unit")
+            exc.details["channel"] = str(name)
+            raise exc
+        unit = per.get(name) or from_file or default
         if not unit and name in registered:
             unit = registered[name][0]
         if not unit:
             raise InvalidParameter(
                 f"channel {name!r} has no unit; give unit (for all channels) or units "
                 f"(one of {', '.join(units.UNITS)})", field="unit")
-        if unit not in units.UNITS:
-            raise unknown("unit", unit, units.UNITS)
-        out[name] = unit
+        out[name] = units.unit_from_spelling(unit)
     return out
+
+
+def _gauge_factors(params: dict, unit_of: dict):
+    """``(gauge_factor_set, gauge_factor)`` when the request asks for the
+    correction (both given), else None."""
+    k_set, k = params.get("gauge_factor_set"), params.get("gauge_factor")
+    if k_set is None and k is None:
+        return None
+    if k_set is None or k is None:
+        raise InvalidParameter("give both gauge_factor_set (the amplifier's setting) and "
+                               "gauge_factor (the gauge's own) to correct strain",
+                               field="gauge_factor" if k is None else "gauge_factor_set")
+    if not any(units.is_strain(u) for u in unit_of.values()):
+        raise InvalidParameter("gauge factors correct strain channels; none is in a strain "
+                               "unit", field="gauge_factor")
+    return _positive(k_set, "gauge_factor_set"), _positive(k, "gauge_factor")
 
 
 def _positive(value, field: str) -> float:

@@ -98,3 +98,65 @@ def from_mpa(values, unit: str) -> np.ndarray:
     if unit not in STRESS_UNITS:
         raise unknown("unit", unit, STRESS_UNITS)
     return np.asarray(values, dtype=np.float64) / STRESS_UNITS[unit]
+
+
+#: How acquisition systems spell units (after :func:`_plain`: case ignored,
+#: since no export writes millipascals; micro signs, Greek mu and epsilon and
+#: superscripts folded) -> the engine's unit. Spellings seen in
+#: data-acquisition exports (common practice).
+_SPELLINGS = {
+    "mpa": "MPa", "n/mm2": "N/mm2", "n/mm^2": "N/mm2", "n mm-2": "N/mm2", "kpa": "kPa",
+    "pa": "Pa", "gpa": "GPa", "ksi": "ksi", "psi": "psi",
+    "strain": "strain", "m/m": "strain", "mm/mm": "strain", "in/in": "strain",
+    "microstrain": "microstrain", "um/m": "microstrain", "ue": "microstrain",
+    "ustrain": "microstrain", "u-strain": "microstrain", "micro-strain": "microstrain",
+    "um/m (strain)": "microstrain", "uin/in": "microstrain", "mm/m": "mm/m",
+}
+
+
+def _plain(spelling: str) -> str:
+    s = spelling.strip().replace("\u00b5", "u").replace("\u03bc", "u")  # micro sign, Greek mu
+    s = s.replace("\u03b5", "e").replace("\u00b2", "2").replace(" ", "")
+    return s.lower()
+
+
+def unit_from_spelling(spelling: str) -> str:
+    """The engine's unit for a unit as an acquisition system spells it.
+
+    ``µm/m``, ``um/m``, ``µε``, ``ue`` -> ``microstrain``; ``N/mm²`` ->
+    ``N/mm2``; ``MPa`` in any case; the engine's own names pass unchanged.
+
+    Raises
+    ------
+    UnknownMethod
+        For a spelling it does not know (the message lists the engine's units).
+    """
+    if spelling in UNITS:
+        return spelling
+    plain = _plain(str(spelling))
+    if plain in _SPELLINGS:
+        return _SPELLINGS[plain]
+    # Strain written with a Greek epsilon: "µε" folds to "ue" above.
+    raise unknown("unit", str(spelling), UNITS)
+
+
+def corrected_strain(values, gauge_factor_set: float, gauge_factor: float) -> np.ndarray:
+    r"""
+    Strain read with the amplifier set to one gauge factor, corrected to the
+    gauge's own.
+
+    :math:`\varepsilon = \varepsilon_{read}\,k_{set} / k_{gauge}`: the bridge
+    output is :math:`k_{gauge}\,\varepsilon/4` and the amplifier divides it
+    by :math:`k_{set}/4`. [same unit as ``values``]
+
+    References
+    ----------
+    .. [1] K. Hoffmann, *An Introduction to Measurements using Strain
+       Gages*. Darmstadt, Germany: Hottinger Baldwin Messtechnik, 1989
+       (the gauge factor and the amplifier's setting).
+    """
+    for name, k in (("gauge_factor_set", gauge_factor_set), ("gauge_factor", gauge_factor)):
+        if not np.isfinite(k) or not 0.5 <= k <= 10.0:
+            raise InvalidParameter(f"{name} {k} is not a strain gauge's (0.5 to 10)",
+                                   field=name, value=float(k), limit=[0.5, 10.0])
+    return np.asarray(values, dtype=np.float64) * (gauge_factor_set / gauge_factor)

@@ -87,7 +87,7 @@ def test_delete_removes_row_and_file(client, app):
 
 
 @pytest.mark.parametrize("query,body,ctype,status,slug,members", [
-    ("unit=MPa", "a\n1\n2\n", "text/plain", 415, "unsupported-media-type", {}),
+    ("unit=MPa", "a\n1\n2\n", "image/png", 415, "unsupported-media-type", {}),
     ("unit=MPa", "", "text/csv", 422, "invalid-upload", {}),
     ("unit=MPa", b"\xff\xfe\x00a,b\n1", "text/csv", 400, "malformed-body", {}),
     ("unit=MPa", "a,b\n1,2\n3\n", "text/csv", 400, "malformed-body", {}),
