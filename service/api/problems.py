@@ -125,7 +125,8 @@ def register(app: Flask) -> None:
         extra = exc.as_dict()
         if isinstance(exc, UnknownMethod):
             extra["valid"] = exc.valid
-        extra = {k: v for k, v in extra.items() if isinstance(v, (str, int, float, list, tuple))}
+        extra = {k: v for k, v in extra.items()
+                 if isinstance(v, (str, int, float, list, tuple, dict))}
         return problem(status, slug, title, exc.message, **extra)
 
     @app.errorhandler(ApiProblem)

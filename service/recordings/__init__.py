@@ -152,12 +152,10 @@ def _read_csv(path: Path, options: dict) -> Recording:
                              "or binary: save it as UTF-8 CSV")
     with open(path, "rb") as f:
         text, complete = csv_dialect.head_text(f)
-    header_row = options.get("header_row")
+    delimiter, decimal, header_row = _csv_options(options)
     try:
-        dialect = csv_dialect.sniff(
-            text, delimiter=_delimiter(options.get("delimiter")),
-            decimal=options.get("decimal"),
-            header_row=None if header_row is None else int(header_row), complete=complete)
+        dialect = csv_dialect.sniff(text, delimiter=delimiter, decimal=decimal,
+                                    header_row=header_row, complete=complete)
     except csv_dialect.DialectError as exc:
         raise UnreadableRecording(f"the CSV could not be read: {exc}") from None
     if len(set(dialect.names)) != len(dialect.names):
@@ -214,12 +212,33 @@ def _bad_cell(path: Path, dialect) -> tuple | None:
     return None
 
 
-def _delimiter(value):
-    """Spellings a query string can carry for the delimiter."""
-    if value is None:
-        return None
-    return {"tab": "\t", "\\t": "\t", "semicolon": ";", "comma": ",", "pipe": "|"}.get(
-        value, value)
+def _csv_options(options: dict):
+    """``(delimiter, decimal, header_row)`` given by the request, checked."""
+    from service.engine.errors import InvalidParameter
+
+    delimiter = options.get("delimiter")
+    if delimiter is not None:
+        delimiter = {"tab": "\t", "\\t": "\t", "semicolon": ";", "comma": ",",
+                     "pipe": "|"}.get(delimiter, delimiter)
+        if len(delimiter) != 1 or delimiter in "\r\n\"":
+            raise InvalidParameter(f"delimiter {options['delimiter']!r} must be one character "
+                                   "(or tab, semicolon, comma, pipe)", field="delimiter")
+    decimal = options.get("decimal")
+    if decimal is not None and decimal not in (".", ","):
+        raise InvalidParameter(f"decimal {decimal!r} must be '.' or ','", field="decimal")
+    if decimal == "," and delimiter == ",":
+        raise InvalidParameter("a comma cannot be both delimiter and decimal mark",
+                               field="decimal")
+    header_row = options.get("header_row")
+    if header_row is not None:
+        try:
+            header_row = int(header_row)
+        except (TypeError, ValueError):
+            header_row = -1
+        if header_row < 0:
+            raise InvalidParameter(f"header_row {options['header_row']!r} must be a line "
+                                   "number from 0", field="header_row")
+    return delimiter, decimal, header_row
 
 
 def _read_arrow(path: Path, fmt: str) -> Recording:

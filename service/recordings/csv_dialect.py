@@ -152,8 +152,12 @@ def sniff(text: str, *, delimiter: str | None = None, decimal: str | None = None
                 # "1,2" under a header "a,b" is two columns, not one decimal:
                 # a decimal-comma export does not put commas in its header.
                 continue
-            # More columns, then a taller block, then the decimal point.
-            key = (k, len(lines) - top, dec == ".")
+            # More columns, then more rows that read as numbers (this is what
+            # tells "1,5" in a decimal-comma file), a taller block, the point.
+            numeric = sum(_numeric(_split(ln, d), dec) for ln in lines[top:])
+            if numeric == len(lines) - top and header_row is None:
+                continue  # no line of names above the numbers under this dialect
+            key = (k, numeric, len(lines) - top, dec == ".")
             if best is None or key > best[0]:
                 best = (key, d, dec, k, top)
     if best is None:

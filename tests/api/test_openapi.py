@@ -72,7 +72,8 @@ def test_served_document_is_the_file(client):
 
 # ---------------------------------------------------------------- fuzz
 
-@schemathesis.serializer("application/vnd.apache.parquet", "application/vnd.apache.arrow.stream")
+@schemathesis.serializer("application/vnd.apache.parquet", "application/vnd.apache.arrow.stream",
+                         "application/gzip", "application/x-hdf5", "application/x-mdf")
 def _binary_body(ctx, value):
     # The schema says "a string of that media type"; send its bytes as they
     # are, so the fuzz exercises the malformed-file path of the upload.

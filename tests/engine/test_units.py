@@ -42,3 +42,26 @@ def test_unknown_unit_lists_valid_ones():
     with pytest.raises(UnknownMethod) as err:
         to_mpa([1.0], "bar")
     assert "MPa" in err.value.valid and "microstrain" in err.value.valid
+
+
+@pytest.mark.parametrize("spelling, unit", [
+    ("µm/m", "microstrain"), ("\u03bcm/m", "microstrain"), ("um/m", "microstrain"),
+    ("µε", "microstrain"), ("\u03bc\u03b5", "microstrain"), ("ue", "microstrain"),
+    ("N/mm²", "N/mm2"), ("N/mm^2", "N/mm2"), ("mpa", "MPa"), ("MPa", "MPa"), ("m/m", "strain"),
+    ("mm/m", "mm/m"), ("ksi", "ksi")])
+def test_unit_spellings_of_acquisition_systems(spelling, unit):
+    # Common practice of DAQ exports: the micro sign (U+00B5) or Greek mu
+    # (U+03BC), "u" for micro, superscript two.
+    from service.engine.units import unit_from_spelling
+
+    assert unit_from_spelling(spelling) == unit
+
+
+def test_gauge_factor_correction_closed_form():
+    # K. Hoffmann, An Introduction to Measurements using Strain Gages (HBM,
+    # 1989), from memory: eps = eps_read * k_set / k_gauge.
+    from service.engine.units import corrected_strain
+
+    assert corrected_strain([1000.0], 2.0, 2.1)[0] == pytest.approx(1000.0 * 2.0 / 2.1)
+    with pytest.raises(ValueError):
+        corrected_strain([1.0], 2.0, 0.0)

@@ -1,0 +1,194 @@
+"""Recordings as rigs write them (issue 16): each reader against files made
+by the library that owns the format (pyarrow, asammdf, h5py) or by hand in
+an acquisition system's CSV dialect; the stored samples and the damage must
+equal the same data sent as Parquet, bit for bit."""
+
+from __future__ import annotations
+
+import gzip
+import io
+from pathlib import Path
+
+import numpy as np
+import pyarrow as pa
+import pyarrow.parquet as pq
+import pytest
+
+from tests.api.conftest import assert_problem
+
+PARQUET = "application/vnd.apache.parquet"
+E = 206000.0
+
+
+def signals(n=400, seed=3):
+    rng = np.random.default_rng(seed)
+    t = np.arange(n) / 500.0
+    g1 = np.round(np.cumsum(rng.normal(0, 40, n)), 3)      # microstrain
+    g2 = np.round(60 * np.sin(t * 40) + rng.normal(0, 5, n), 3)
+    return t, g1, g2
+
+
+def parquet_bytes(columns: dict) -> bytes:
+    sink = io.BytesIO()
+    pq.write_table(pa.table(columns), sink)
+    return sink.getvalue()
+
+
+def stored(client, hid):
+    """The history's channels as stored (MPa), through the assessment of each."""
+    r = client.post("/v1/assessments", json={"history_id": hid,
+                                             "settings": {"curve": "EN1993-1-9:71"}})
+    assert r.status_code == 201, r.get_json()
+    return {k: v["damage"] for k, v in r.get_json()["points"].items()}
+
+
+def reference(client, t, g1, g2):
+    """The same data as Parquet with units stated in the request."""
+    r = client.post(f"/v1/histories?units=g1:microstrain,g2:MPa&youngs_modulus={E}",
+                    data=parquet_bytes({"time_s": t, "g1": g1, "g2": g2}), content_type=PARQUET)
+    assert r.status_code == 201, r.get_json()
+    return r.get_json()
+
+
+def same_as_reference(client, r, t, g1, g2):
+    assert r.status_code == 201, r.get_json()
+    got = r.get_json()
+    ref = reference(client, t, g1, g2)
+    assert got["sample_count"] == ref["sample_count"]
+    assert got["sample_rate_hz"] == pytest.approx(ref["sample_rate_hz"], rel=1e-12)
+    assert [(c["name"], c["min_mpa"], c["max_mpa"]) for c in got["channels"]] == [
+        (c["name"], c["min_mpa"], c["max_mpa"]) for c in ref["channels"]]
+    assert stored(client, got["id"]) == stored(client, ref["id"])   # bit for bit
+    return got
+
+
+def _fmt(x: float, decimal: str) -> str:
+    s = repr(float(x))
+    return s.replace(".", ",") if decimal == "," else s
+
+
+def test_european_csv_with_preamble_units_row_and_decimal_comma(client):
+    # A semicolon-delimited export with decimal commas, a preamble, a units
+    # row under the header (µm/m, N/mm², time in ms): common in German DAQ
+    # software (common practice).
+    t, g1, g2 = signals()
+    lines = ["Prüfstand 3;Lauf 42", "Datum;2026-12-01", "",
+             "Zeit;g1;g2", "ms;µm/m;N/mm²"]
+    lines += [f"{_fmt(a * 1000, ',')};{_fmt(b, ',')};{_fmt(c, ',')}"
+              for a, b, c in zip(t, g1, g2)]
+    body = ("\r\n".join(lines) + "\r\n").encode("utf-8")
+    r = client.post(f"/v1/histories?youngs_modulus={E}&time_column=Zeit", data=body,
+                    content_type="text/csv")
+    got = same_as_reference(client, r, t, g1, g2)
+    assert {c["name"]: c["unit"] for c in got["channels"]} == {"g1": "microstrain",
+                                                               "g2": "N/mm2"}
+
+
+def test_tab_csv_with_units_in_names_and_comment_lines_gzipped(client):
+    # Tab-delimited with units in brackets in the names and '#' comments,
+    # gzip-compressed (file magic 1f 8b, RFC 1952).
+    t, g1, g2 = signals(seed=8)
+    lines = ["# rig 7, run 3", "# gain 1000", "time [s]\tg1 [um/m]\tg2 (MPa)"]
+    lines += [f"{float(a)!r}\t{float(b)!r}\t{float(c)!r}" for a, b, c in zip(t, g1, g2)]
+    body = gzip.compress(("\n".join(lines) + "\n").encode())
+    r = client.post(f"/v1/histories?youngs_modulus={E}", data=body,
+                    content_type="application/gzip")
+    same_as_reference(client, r, t, g1, g2)
+
+
+def test_file_unit_that_contradicts_the_request_is_refused(client):
+    body = b"time_s,g1 [MPa]\n0,1\n0.1,2\n0.2,3\n"
+    r = client.post("/v1/histories?unit=microstrain&youngs_modulus=206000", data=body,
+                    content_type="text/csv")
+    assert_problem(r, 422, "invalid-parameter", field="unit", channel="g1")
+    r = client.post("/v1/histories?units=g1:microstrain&youngs_modulus=206000", data=body,
+                    content_type="text/csv")
+    assert r.status_code == 201, r.get_json()            # units= overrides the file
+
+
+def test_mdf4_file_written_by_asammdf(client, tmp_path):
+    # ASAM MDF 4: one channel group is one time base; names and units from
+    # the file's metadata.
+    from asammdf import MDF, Signal
+
+    t, g1, g2 = signals(seed=5)
+    mdf = MDF(version="4.10")
+    mdf.append([Signal(g1, t, name="g1", unit="µm/m"), Signal(g2, t, name="g2", unit="MPa")])
+    path = tmp_path / "run.mf4"
+    mdf.save(path, overwrite=True)
+    mdf.close()
+    r = client.post(f"/v1/histories?youngs_modulus={E}", data=path.read_bytes(),
+                    content_type="application/octet-stream")
+    same_as_reference(client, r, t, g1, g2)
+    # Two groups at their own rates: choose one (nothing is resampled).
+    mdf = MDF(version="4.10")
+    mdf.append([Signal(g1, t, name="g1", unit="µm/m"), Signal(g2, t, name="g2", unit="MPa")])
+    mdf.append([Signal(np.arange(50.0), np.arange(50) / 100.0, name="press", unit="MPa")])
+    path2 = tmp_path / "two.mf4"
+    mdf.save(path2, overwrite=True)
+    mdf.close()
+    r = client.post(f"/v1/histories?youngs_modulus={E}", data=path2.read_bytes(),
+                    content_type="application/octet-stream")
+    body = assert_problem(r, 422, "invalid-upload", field="group")
+    assert body["groups"] == {"0": ["g1", "g2"], "1": ["press"]}
+    r = client.post("/v1/histories?channels=press", data=path2.read_bytes(),
+                    content_type="application/x-mdf")
+    assert r.status_code == 201, r.get_json()
+    h = r.get_json()
+    assert h["sample_count"] == 50 and h["sample_rate_hz"] == pytest.approx(100.0)
+    r = client.post(f"/v1/histories?channels=g1,press&youngs_modulus={E}",
+                    data=path2.read_bytes(), content_type="application/x-mdf")
+    assert_problem(r, 422, "invalid-upload", field="channels")
+
+
+def test_hdf5_file_written_by_h5py(client, tmp_path):
+    # HDF5: datasets by path; the rate and units from attributes.
+    import h5py
+
+    t, g1, g2 = signals(seed=11)
+    path = tmp_path / "run.h5"
+    with h5py.File(path, "w") as f:
+        grp = f.create_group("rig/run42")
+        grp.attrs["sample_rate_hz"] = 500.0
+        grp.create_dataset("g1", data=g1).attrs["unit"] = "µm/m"
+        grp.create_dataset("g2", data=g2).attrs["unit"] = b"MPa"
+        f.create_dataset("other/temperature", data=np.ones(7))
+    r = client.post(f"/v1/histories?youngs_modulus={E}&group=/rig/run42", data=path.read_bytes(),
+                    content_type="application/x-hdf5")
+    same_as_reference(client, r, t, g1, g2)
+    r = client.post(f"/v1/histories?youngs_modulus={E}&channels=/rig/run42/g2",
+                    data=path.read_bytes(), content_type="application/x-hdf5")
+    assert r.status_code == 201 and [c["name"] for c in r.get_json()["channels"]] == ["g2"]
+    r = client.post("/v1/histories?channels=/rig/nothing", data=path.read_bytes(),
+                    content_type="application/x-hdf5")
+    assert_problem(r, 422, "invalid-upload", field="channels")
+
+
+def test_gauge_factor_correction(client):
+    # K. Hoffmann, An Introduction to Measurements using Strain Gages (HBM,
+    # 1989): the amplifier set to k = 2.00 reads a gauge of k = 2.10 low by
+    # 2.00 / 2.10; eps_true = eps_read * k_set / k_gauge.
+    body = b"g1\n0\n1000\n-500\n"
+    r = client.post(f"/v1/histories?unit=microstrain&youngs_modulus={E}"
+                    "&gauge_factor_set=2.00&gauge_factor=2.10", data=body, content_type="text/csv")
+    assert r.status_code == 201, r.get_json()
+    ch = r.get_json()["channels"][0]
+    assert ch["max_mpa"] == pytest.approx(1000e-6 * E * 2.00 / 2.10, rel=1e-12)
+    r = client.post("/v1/histories?unit=MPa&gauge_factor_set=2&gauge_factor=2.1", data=body,
+                    content_type="text/csv")
+    assert_problem(r, 422, "invalid-parameter", field="gauge_factor")
+
+
+@pytest.mark.parametrize("body, slug, members", [
+    (b"a;b\n1,5;2\n3,x;4\n5;6\n", "invalid-load-history", {"channel": "a", "sample_index": 1}),
+    (b"\x1f\x8bnot gzip at all", "malformed-body", {}),
+    (b"MDF     not an mdf file", "malformed-body", {}),
+])
+def test_unreadable_files_name_what_is_wrong_and_store_nothing(client, app, body, slug,
+                                                               members):
+    folder = Path(app.config["DATA_DIR"]) / "histories"
+    before = sorted(p.name for p in folder.iterdir()) if folder.exists() else []
+    r = client.post("/v1/histories?unit=MPa", data=body, content_type="text/csv")
+    assert_problem(r, 400 if slug == "malformed-body" else 422, slug, **members)
+    after = sorted(p.name for p in folder.iterdir()) if folder.exists() else []
+    assert after == before
