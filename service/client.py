@@ -105,25 +105,31 @@ class Client:
 
     def upload(self, data, *, unit: str | None = None, units: dict | None = None,
                youngs_modulus: float | None = None, sample_rate_hz: float | None = None,
-               name: str | None = None, time_column: str | None = None) -> dict:
-        """Upload a DataFrame, ``{channel: array}`` or a CSV/Parquet path as Parquet."""
-        import pandas as pd
-
+               name: str | None = None, time_column: str | None = None, **options) -> dict:
+        """Upload a DataFrame or ``{channel: array}`` (sent as Parquet), or a
+        file by its path, sent as it is: the service recognises CSV in its
+        dialects, Parquet, Arrow, MDF 4, HDF5 and gzip from the bytes.
+        ``options`` are the reader's (``delimiter``, ``decimal``,
+        ``header_row``, ``channels``, ``group``, ``gauge_factor_set``,
+        ``gauge_factor``)."""
         if isinstance(data, (str, bytes)) or hasattr(data, "__fspath__"):
-            path = str(data)
-            df = pd.read_parquet(path) if path.endswith((".parquet", ".pq")) else pd.read_csv(path)
-        elif isinstance(data, pd.DataFrame):
-            df = data
+            with open(data, "rb") as f:
+                body = f.read()
+            content_type = "application/octet-stream"
         else:
-            df = pd.DataFrame(dict(data))
-        buf = io.BytesIO()
-        df.to_parquet(buf, index=False)
+            import pandas as pd
+
+            df = data if isinstance(data, pd.DataFrame) else pd.DataFrame(dict(data))
+            buf = io.BytesIO()
+            df.to_parquet(buf, index=False)
+            body, content_type = buf.getvalue(), PARQUET
         params = {"unit": unit, "youngs_modulus": youngs_modulus,
-                  "sample_rate_hz": sample_rate_hz, "name": name, "time_column": time_column}
+                  "sample_rate_hz": sample_rate_hz, "name": name, "time_column": time_column,
+                  **options}
         if units:
             params["units"] = ",".join(f"{k}:{v}" for k, v in units.items())
-        _, _, raw = self.request("POST", "/v1/histories", body=buf.getvalue(),
-                                 content_type=PARQUET, params=params)
+        _, _, raw = self.request("POST", "/v1/histories", body=body,
+                                 content_type=content_type, params=params)
         return json.loads(raw)
 
     def assess(self, *, wait: bool = True, progress=None, respond_async: bool = False,

@@ -129,3 +129,22 @@ def test_keys_create_list_revoke(tmp_path, capsys):
     assert "revoked" in table and "active" in table and made["secret"] not in table
     assert main(d + ["create", "--project", "../etc", "--scope", "read"]) == 2
     assert "project name" in capsys.readouterr().err
+
+
+def test_assess_reads_a_decimal_comma_csv_as_the_service_does(tmp_path, capsys):
+    # The command reads with the service's reader: a semicolon export with
+    # decimal commas, a preamble and a units row (microstrain, ms) gives the
+    # damage of the same samples in MPa.
+    rng = np.random.default_rng(4)
+    x = np.round(300 * rng.standard_normal(2000), 2)                 # microstrain
+    rows = [f"{i * 2};{str(float(v)).replace('.', ',')}" for i, v in enumerate(x)]
+    path = tmp_path / "rig.csv"
+    path.write_text("Prüfstand 2\n\nZeit;SG1\nms;µm/m\n" + "\n".join(rows) + "\n",
+                    encoding="utf-8")
+    assert main(["assess", str(path), "--curve", "EN1993-1-9:71", "--youngs-modulus",
+                 "206000", "--time-column", "Zeit", "--json"]) == 0
+    got = json.loads(capsys.readouterr().out)
+    expected = assess_history(x * 1e-6 * 206000, catalogue_curve("EN1993-1-9:71"),
+                              duration_s=4.0)
+    assert got["points"]["SG1"]["damage"] == pytest.approx(expected.damage, rel=1e-12)
+    assert got["duration_s"] == pytest.approx(4.0)

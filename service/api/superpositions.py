@@ -15,6 +15,7 @@ import pyarrow.parquet as pq
 from flask import Blueprint, Response, current_app, jsonify, request, url_for
 
 from service import superpositions as sup
+from service.recordings.channels import check_name
 from service.store import parquet, sqlite
 
 from . import created, data_dir, db, json_object
@@ -22,7 +23,6 @@ from .access import project
 from .assessments import _csv, _format, job_resource
 from .histories import page_args, spool_body
 from .problems import ApiProblem, InvalidUpload, MalformedBody, NotFound, TooManyJobs
-from .uploads import check_name
 
 bp = Blueprint("superpositions", __name__)
 _TYPES = {"application/vnd.apache.parquet": "parquet", "application/x-parquet": "parquet",

@@ -36,7 +36,8 @@ def _version() -> str:
 
 def _recording_args(p, unit_help: str) -> None:
     """The options shared by ``assess`` and ``post``: a recording and its settings."""
-    p.add_argument("file", help="CSV (header row; optional time_s column) or Parquet")
+    p.add_argument("file", help="a recording: CSV (any common dialect), Parquet, Arrow, MDF 4, "
+                   "HDF5, or any of them gzipped")
     p.add_argument("--points", help="JSON file with settings per channel")
     p.add_argument("--curve", help="catalogue designation for every channel")
     p.add_argument("--mean-stress-method", dest="mean_stress_method")
@@ -45,14 +46,32 @@ def _recording_args(p, unit_help: str) -> None:
                    help="E in MPa, for strain units")
     p.add_argument("--gate-fraction", dest="gate_fraction", type=float)
     p.add_argument("--sample-rate-hz", dest="sample_rate_hz", type=float)
+    p.add_argument("--time-column", dest="time_column",
+                   help="the time column (default: time_s, time, t or zeit if present)")
+    p.add_argument("--delimiter", help="CSV delimiter if not found (';', ',', tab, '|')")
+    p.add_argument("--decimal", choices=(".", ","), help="CSV decimal mark if not found")
+    p.add_argument("--header-row", dest="header_row", type=int,
+                   help="CSV line (from 0) of the column names if not found")
+    p.add_argument("--channels", help="MDF 4 channel names or HDF5 dataset paths, comma "
+                   "separated")
+    p.add_argument("--group", help="MDF 4 channel group index or HDF5 group path")
+    p.add_argument("--gauge-factor-set", dest="gauge_factor_set", type=float,
+                   help="gauge factor the amplifier was set to (with --gauge-factor)")
+    p.add_argument("--gauge-factor", dest="gauge_factor", type=float,
+                   help="the gauges' own gauge factor: strain is corrected by set / own")
     p.add_argument("--json", action="store_true", help="machine-readable output")
+
+
+#: How the file is read: the service's reader options (``service.recordings``).
+READER_KEYS = ("delimiter", "decimal", "header_row", "channels", "group", "gauge_factor_set",
+               "gauge_factor")
 
 
 def _recording_config(args) -> dict:
     """The points file (if any) with the command-line options over it."""
     config = json.loads(Path(args.points).read_text()) if args.points else {}
     for key in ("unit", "youngs_modulus", "curve", "mean_stress_method", "gate_fraction",
-                "sample_rate_hz"):
+                "sample_rate_hz", "time_column") + READER_KEYS:
         value = getattr(args, key, None)
         if value is not None:
             config[key] = value
@@ -91,11 +110,3 @@ def gathered_cautions(report: dict) -> list[dict]:
                 else as_dict(c) | {"points": []} for c in report["cautions"]]
     return merge({name: [as_dict(c) for c in p["cautions"]]
                   for name, p in report["points"].items()})
-
-
-def _read_table(path: Path):
-    import pandas as pd
-
-    if path.suffix.lower() in (".parquet", ".pq"):
-        return pd.read_parquet(path)
-    return pd.read_csv(path)

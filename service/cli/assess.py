@@ -6,45 +6,54 @@ import json
 import sys
 from pathlib import Path
 
-from ._shared import _json_default, _read_table, _recording_config, print_report
+import numpy as np
+
+from ._shared import _json_default, _recording_config, print_report
 
 
 def assess_file(path: Path, config: dict) -> dict:
-    """Assess every configured channel of a recording; returns the report dict."""
-    import numpy as np
+    """Assess every configured channel of a recording; returns the report dict.
 
-    from service.engine import units
+    The file is read as the service reads an upload (``service.recordings``:
+    CSV dialects, Parquet, MDF 4, HDF5, gzip), and its channels checked and
+    converted the same way; ``config`` carries the request's options.
+    """
+    from service import recordings
     from service.engine.damage import assess_history
-    import pandas as pd
-
-    from service.engine.errors import InvalidLoadHistory, InvalidParameter
+    from service.engine.errors import InvalidParameter
     from service.engine.settings import point_from_dict
+    from service.recordings.channels import validated
 
-    df = _read_table(path)
-    time_col = config.get("time_column", "time_s")
-    duration = None
-    if time_col in df.columns:
-        t = df[time_col].to_numpy(dtype=float)
-        if t.size > 1:
-            duration = float((t[-1] - t[0]) * t.size / (t.size - 1))
-    elif config.get("sample_rate_hz"):
-        duration = len(df) / float(config["sample_rate_hz"])
-    points = config.get("points") or {c: {} for c in df.columns if c != time_col}
+    options = {k: config[k] for k in ("delimiter", "decimal", "header_row", "channels",
+                                      "group", "time_column") if config.get(k) is not None}
+    source, unpacked = path, None
+    with open(path, "rb") as f:
+        if recordings.detect(f.read(16)) == "gzip":
+            source = unpacked = recordings.unpacked(path)
+    try:
+        rec = recordings.read(source, None, options)
+    finally:
+        if unpacked is not None:
+            unpacked.unlink(missing_ok=True)
+    params = {k: config[k] for k in ("unit", "units", "youngs_modulus", "sample_rate_hz",
+                                     "time_column", "gauge_factor_set", "gauge_factor")
+              if config.get(k) is not None}
+    if "unit" not in params and not any(rec.units.get(c) for c in rec.columns
+                                        if c != rec.time_column):
+        params["unit"] = "MPa"  # the command's documented default
+    up = validated(dict(rec.columns), params, file_units=rec.units,
+                   time_column=rec.time_column, file_rate=rec.sample_rate_hz)
+    duration = up.duration_s
+    points = config.get("points") or {c: {} for c in up.channels}
     defaults = {k: v for k, v in config.items() if k in ("curve", "mean_stress_method")}
     report = {"file": str(path), "duration_s": duration, "points": {}}
     for name, settings in points.items():
-        if name not in df.columns:
+        if name not in up.channels:
             raise InvalidParameter(f"channel {name!r} is not in {path.name}; it has "
-                                   f"{', '.join(map(str, df.columns))}", field="points")
+                                   f"{', '.join(map(str, up.channels))}", field="points")
         merged = {**defaults, **settings}
         curve, opts, estimate = point_from_dict(merged)
-        raw = pd.to_numeric(df[name], errors="coerce").to_numpy(dtype=float)
-        bad = np.flatnonzero(np.isnan(raw) & df[name].notna().to_numpy())
-        if bad.size:
-            raise InvalidLoadHistory(
-                f"channel {name!r} row {int(bad[0])} is {df[name].iloc[bad[0]]!r}, not a number",
-                sample_index=int(bad[0]), channel=name)
-        stress = units.to_mpa(raw, config.get("unit", "MPa"), config.get("youngs_modulus"))
+        stress = up.channels[name]
         gate = float(config.get("gate_fraction", 0.0)) * float(np.ptp(stress))
         result = assess_history(stress, curve, opts, gate=gate, duration_s=duration)
         entry = result.summary()

@@ -7,17 +7,17 @@ import math
 import sys
 from pathlib import Path
 
-from ._shared import _json_default, _recording_config, print_report
+from ._shared import READER_KEYS, _json_default, _recording_config, print_report
 
 
 def post_file(client, path: Path, config: dict, progress=None) -> dict:
     """Upload a recording and assess it through the service; returns the report dict
     that :func:`print_report` prints (plus ``assessment_id``)."""
-    time_col = config.get("time_column", "time_s")
+    options = {k: config[k] for k in READER_KEYS if config.get(k) is not None}
     h = client.upload(path, unit=config.get("unit"), units=config.get("units"),
                       youngs_modulus=config.get("youngs_modulus"),
-                      sample_rate_hz=config.get("sample_rate_hz"), time_column=time_col,
-                      name=Path(path).name)
+                      sample_rate_hz=config.get("sample_rate_hz"),
+                      time_column=config.get("time_column"), name=Path(path).name, **options)
     settings = {k: v for k, v in config.items() if k in ("curve", "mean_stress_method")}
     request = {"history_id": h["id"], "settings": settings}
     if config.get("points"):
