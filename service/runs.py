@@ -15,13 +15,14 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from service.engine import cautions, histograms, multiaxial
+from service.engine import cautions, histograms, multiaxial, screening
 from service.engine import units as engine_units
 from service.engine._threads import in_one_thread
 from service.engine.damage import assess, assess_history
-from service.engine.errors import InvalidParameter, unknown
+from service.engine.errors import InvalidLoadHistory, InvalidParameter, unknown
 from service.engine.rainflow import RESIDUE_TREATMENTS, CycleTable, astm_e1049, resolve_gate
-from service.engine.settings import USER_CURVE_PREFIX, point_from_dict, resolve
+from service.engine.settings import (USER_CURVE_PREFIX, point_from_dict, resolve,
+                                     screening_from_dict)
 from service.store import parquet, sqlite
 
 #: Mean samples a point above which points are assessed on worker threads.
@@ -266,22 +267,53 @@ def json_safe(value):
 def assess_point(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
     """``(result dict, per-cycle damage)`` of one point.
 
-    A multiaxial point is reduced by each of its reductions (every plane of a
-    critical-plane scan counted and assessed); the worst governs and the
-    result says which, by how much the others differ, and whether the
-    principal directions rotate. Its gate fraction applies to the range of
-    its signed von Mises history.
+    The point's signal is screened first (``engine.screening``): by its
+    ``screening`` policy the findings are reported with the result (and the
+    share of damage in the cycles they touch), refused, or cleaned (spikes
+    and drift) with the damage before cleaning kept. A multiaxial point is
+    reduced by each of its reductions (every plane of a critical-plane scan
+    counted and assessed); the worst governs and the result says which, by
+    how much the others differ, and whether the principal directions rotate.
+    Its gate fraction applies to the range of its signed von Mises history.
     """
     curve, opts, estimate = point_from_dict(point.settings)
-    extra_cautions: tuple = ()
+    policy, thresholds = screening_from_dict(point.settings)
+    rate = point.sample_count / duration_s if duration_s else None
+    extra_cautions: list = []
     block = None
     settings_used = point.settings
+    signal = None
     if point.multiaxial is None:
-        g = resolve_gate(point.samples, gate or 0.0, gate_fraction)
-        r = assess_history(point.samples, curve, opts, gate=g, residue=residue,
-                           duration_s=duration_s)
+        findings = _screened(point.name, point.samples, rate, policy, thresholds)
+        samples, cleaned = point.samples, None
+        if findings and policy == "clean":
+            samples, done = screening.clean(point.samples, findings, thresholds)
+            cleaned = {"done": done}
+        g = resolve_gate(samples, gate or 0.0, gate_fraction)
+        if findings:
+            # Counted here to keep the cycles' sample indices for the shares.
+            table = astm_e1049(samples, gate=g, residue=residue)
+            r = assess(table, curve, opts, duration_s=duration_s)
+            screening.damage_shares(findings, table.start_index, table.end_index,
+                                    r.damage_per_cycle)
+            if cleaned is not None:
+                before = assess_history(point.samples, curve, opts, gate=g, residue=residue,
+                                        duration_s=duration_s)
+                cleaned["damage_before_cleaning"] = before.damage
+                extra_cautions.append(cautions.caution(
+                    "signal_cleaned", done="; ".join(cleaned["done"]) or "nothing to clean",
+                    before=before.damage))
+        else:
+            r = assess_history(samples, curve, opts, gate=g, residue=residue,
+                               duration_s=duration_s)
+        signal = _signal_block(policy, findings, cleaned)
     else:
         spec = point.multiaxial
+        findings = []
+        for channel, x in point.samples.items():
+            for f in _screened(channel, x, rate, policy, thresholds):
+                f.description = f"{channel}: {f.description}"
+                findings.append(f)
         comps = components_of(point)
         g = resolve_gate(multiaxial.reduce(comps, "signed_von_mises"), gate or 0.0,
                          gate_fraction)
@@ -293,10 +325,22 @@ def assess_point(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
                                          residue=residue, duration_s=duration_s,
                                          workers=POINT_WORKERS, shear_curve=shear_curve,
                                          shear_options=shear_opts)
-        r, extra_cautions = m.governing, m.cautions
+        r = m.governing
+        extra_cautions += list(m.cautions)
         block = {**spec, **m.summary()}
         if m.reduction == "critical_plane_shear":
             settings_used = spec["shear_settings"]  # the governing result's curve
+        # Cleaning a multiaxial point's channels is not offered: the
+        # findings are reported (or refused).
+        signal = _signal_block("report" if policy == "clean" else policy, findings, None)
+    if signal and signal["findings"]:
+        kinds = sorted({f["kind"] for f in signal["findings"]})
+        shares = [f["damage_share"] for f in signal["findings"]
+                  if f.get("damage_share") is not None]
+        extra_cautions.append(cautions.caution(
+            "signal_findings", kinds=", ".join(kinds),
+            share=(f" (up to {max(shares):.0%} of the damage in cycles they touch)"
+                   if shares else "")))
     out = r.summary()
     out.update(
         point=point.name,
@@ -308,10 +352,32 @@ def assess_point(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
         settings={**r.options, "residue": residue},
         settings_used=settings_used,
         cautions=r.caution_dicts() + [c.as_dict() for c in extra_cautions],
+        screening=signal,
     )
     if block is not None:
         out["multiaxial"] = block
     return json_safe(out), r.damage_per_cycle
+
+
+def _screened(channel: str, samples, rate, policy: str, thresholds) -> list:
+    """The findings of one channel (none when screening is off); refused by
+    the ``refuse`` policy with a problem naming the channel and samples."""
+    if policy == "off":
+        return []
+    findings = screening.screen(samples, rate, thresholds)
+    if findings and policy == "refuse":
+        f = findings[0]
+        raise InvalidLoadHistory(
+            f"channel {channel!r} is refused by its screening: "
+            + "; ".join(x.description for x in findings), sample_index=f.first_sample,
+            channel=channel, field="screening")
+    return findings
+
+
+def _signal_block(policy: str, findings: list, cleaned: dict | None) -> dict:
+    """What a result says of its signal's screening."""
+    return {"policy": policy, "findings": [f.as_dict() for f in findings],
+            "cleaned": cleaned}
 
 
 def run(con, data_dir, request: dict, channels: dict[str, np.ndarray],
@@ -409,6 +475,12 @@ def point_samples(data_dir, assessment: dict, point: str, con=None) -> np.ndarra
     else:
         read = {n: sqlite.get_samples(con, assessment["id"], n) for n in names}
     if not spec:
+        res = assessment["result"]["points"][point]
+        if (res.get("screening") or {}).get("cleaned") is not None:
+            # Counted from the cleaned signal: clean it again the same way.
+            _, thresholds = screening_from_dict(res["settings_used"])
+            found = screening.screen(read[point], None, thresholds)
+            return screening.clean(read[point], found, thresholds)[0]
         return read[point]
     comps = components_of(PlannedPoint(point, read, {}, spec))
     return multiaxial.governing_history(comps, spec["reduction"], spec["plane_angle_deg"])

@@ -82,6 +82,13 @@ CAUTION_TEXTS = {
                             "unit-load model.",
     "projection_assumes_same_loads": "Projections assume the future loads like the recorded "
                                      "ones.",
+    # Signal screening.
+    "signal_findings": "The signal of this point has {kinds}{share}: the faults are counted as "
+                       "if they were load unless cleaned; check the gauge and the recording "
+                       "before trusting the damage.",
+    "signal_cleaned": "The signal was cleaned before counting ({done}); the damage before "
+                      "cleaning was {before:.4g}. Faults that cannot be cleaned (clipping, held "
+                      "runs, undersampling) stay in the signal.",
     # Inputs.
     "implausible_value": "{field} = {value:.6g} {unit} is unusual for {what}; {hint}.",
 }

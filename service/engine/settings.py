@@ -10,14 +10,17 @@ from __future__ import annotations
 from dataclasses import fields
 
 from .damage import AssessmentOptions
-from .errors import EngineError, InvalidParameter
+from .errors import EngineError, InvalidParameter, unknown
 from .mean_stress import check_strengths
+from .screening import SCREENING_POLICIES, Thresholds
 from .sn_catalogue import catalogue_curve, thickness_factor
 from .sn_curve import SNCurve, basquin_amplitude, basquin_range, from_points
 from .sn_estimate import EstimatedCurve, shigley
 
 _OPTION_FIELDS = {f.name for f in fields(AssessmentOptions)}
 _CURVE_KEYS = {"curve", "estimate", "curve_points", "basquin", "below_limit", "thickness_mm"}
+#: Settings of the signal screening (see ``screening_from_dict``).
+_SCREENING_KEYS = {"screening", "screening_thresholds"}
 
 
 def curve_from_dict(settings: dict) -> tuple[SNCurve, EstimatedCurve | None]:
@@ -73,7 +76,7 @@ def options_from_dict(settings: dict, curve: SNCurve | None = None) -> Assessmen
     Unknown keys are refused, naming them, so a misspelt option never
     passes silently.
     """
-    unknown_keys = set(settings) - _OPTION_FIELDS - _CURVE_KEYS
+    unknown_keys = set(settings) - _OPTION_FIELDS - _CURVE_KEYS - _SCREENING_KEYS
     if unknown_keys:
         raise InvalidParameter(f"unknown setting(s): {', '.join(sorted(unknown_keys))}",
                                field=sorted(unknown_keys)[0])
@@ -92,7 +95,32 @@ def options_from_dict(settings: dict, curve: SNCurve | None = None) -> Assessmen
 def point_from_dict(settings: dict):
     """``(curve, options, estimate)`` for one point's settings dictionary."""
     curve, estimate = curve_from_dict(settings)
-    return curve, options_from_dict(settings, curve), estimate
+    opts = options_from_dict(settings, curve)
+    screening_from_dict(settings)  # refused now, not when the point is screened
+    return curve, opts, estimate
+
+
+def screening_from_dict(settings: dict) -> tuple[str, Thresholds]:
+    """``(policy, thresholds)`` of a point's signal screening: ``screening``
+    (``report`` by default, ``refuse``, ``clean`` or ``off``) and
+    ``screening_thresholds`` ({name: value} over the defaults of
+    ``screening.Thresholds``)."""
+    policy = settings.get("screening", "report")
+    if policy not in SCREENING_POLICIES:
+        raise unknown("screening", policy, SCREENING_POLICIES)
+    given = settings.get("screening_thresholds") or {}
+    if not isinstance(given, dict):
+        raise InvalidParameter("screening_thresholds must be an object {name: value}",
+                               field="screening_thresholds")
+    names = {f.name for f in fields(Thresholds)}
+    extra = set(given) - names
+    if extra:
+        raise InvalidParameter(f"unknown screening threshold(s): {', '.join(sorted(extra))} "
+                               f"(known: {', '.join(sorted(names))})", field=sorted(extra)[0])
+    try:
+        return policy, Thresholds(**given)
+    except TypeError as exc:
+        raise InvalidParameter(str(exc), field="screening_thresholds") from exc
 
 
 # ---------------------------------------------------------------- what users store by name

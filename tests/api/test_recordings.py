@@ -192,3 +192,43 @@ def test_unreadable_files_name_what_is_wrong_and_store_nothing(client, app, body
     assert_problem(r, 400 if slug == "malformed-body" else 422, slug, **members)
     after = sorted(p.name for p in folder.iterdir()) if folder.exists() else []
     assert after == before
+
+
+def _spiky(n=4000, seed=2):
+    rng = np.random.default_rng(seed)
+    x = 80 * np.sin(np.arange(n) / 40.0) + rng.normal(0, 0.5, n)
+    x[1500] += 700.0                                   # electrical interference
+    return x
+
+
+def test_screening_report_refuse_and_clean(client):
+    x = _spiky()
+    r = client.post("/v1/histories?unit=MPa&sample_rate_hz=500",
+                    data=parquet_bytes({"g1": x}), content_type=PARQUET)
+    hid = r.get_json()["id"]
+    # report (default): assessed as is, the finding and its damage share said.
+    a = client.post("/v1/assessments", json={"history_id": hid,
+                                             "settings": {"curve": "EN1993-1-9:71"}})
+    assert a.status_code == 201, a.get_json()
+    p = a.get_json()["points"]["g1"]
+    spike = p["screening"]["findings"][0]
+    assert (spike["kind"], spike["events"]) == ("spike", [[1500, 1500]])
+    assert spike["damage_share"] > 0.5
+    assert any(c["code"] == "signal_findings" for c in p["cautions"])
+    # refuse: a problem naming the channel and the sample.
+    a = client.post("/v1/assessments", json={"history_id": hid, "settings": {
+        "curve": "EN1993-1-9:71", "screening": "refuse"}})
+    assert_problem(a, 422, "invalid-load-history", channel="g1", sample_index=1500)
+    # clean: the spike interpolated away, the damage before cleaning kept.
+    a = client.post("/v1/assessments", json={"history_id": hid, "settings": {
+        "curve": "EN1993-1-9:71", "screening": "clean"}})
+    assert a.status_code == 201, a.get_json()
+    c = a.get_json()["points"]["g1"]
+    assert c["screening"]["cleaned"]["damage_before_cleaning"] == pytest.approx(p["damage"])
+    assert c["damage"] < p["damage"] / 3
+    # The cycles served later are those of the cleaned signal.
+    rows = client.get(a.get_json()["links"]["points"]["g1"]["cycles"]).get_json()
+    assert sum(rows["damage"]) == pytest.approx(c["damage"], rel=1e-9)
+    a = client.post("/v1/assessments", json={"history_id": hid, "settings": {
+        "curve": "EN1993-1-9:71", "screening": "sometimes"}})
+    assert_problem(a, 422, "unknown-name", field="screening")
