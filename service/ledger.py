@@ -25,11 +25,12 @@ from dataclasses import replace
 import numpy as np
 
 from service import runs
+from service.engine import screening
 from service.engine._threads import in_one_thread
 from service.engine.damage import AssessmentOptions, assess
 from service.engine.errors import InvalidLoadHistory, InvalidParameter, unknown
 from service.engine.rainflow import CountingState, close_residue, count_block
-from service.engine.settings import point_from_dict, resolve
+from service.engine.settings import point_from_dict, resolve, screening_from_dict
 from service.store import ledger as sql
 from service.store import parquet, sqlite
 
@@ -75,7 +76,27 @@ def _model(resolved: dict):
     settings = {k: v for k, v in resolved.items() if k != "gate"}
     curve, opts, _ = point_from_dict(settings)
     opts = replace(opts, reserve_factor=False, top_cycles=0)
-    return curve, opts, float(resolved.get("gate", 0.0))
+    policy, thresholds = screening_from_dict(settings)
+    return curve, opts, float(resolved.get("gate", 0.0)), policy, thresholds
+
+
+def screened(name: str, samples: np.ndarray, rate, model) -> tuple[np.ndarray, list]:
+    """A block's samples of one point as they are counted, and the findings
+    of its screening: by the point's policy reported, refused (422 naming
+    the point and the sample: nothing is stored) or cleaned (the same
+    cleaning again on every recount, so totals stay exact)."""
+    _, _, _, policy, thresholds = model
+    if policy == "off":
+        return samples, []
+    findings = screening.screen(samples, rate, thresholds)
+    if findings and policy == "refuse":
+        raise InvalidLoadHistory(
+            f"point {name!r} is refused by its screening: "
+            + "; ".join(f.description for f in findings),
+            sample_index=findings[0].first_sample, channel=name, field="screening")
+    if findings and policy == "clean":
+        samples = screening.clean(samples, findings, thresholds)[0]
+    return samples, findings
 
 
 def _damage(table, curve, opts: AssessmentOptions) -> tuple[float, bool]:
@@ -96,8 +117,9 @@ def _start(row: dict) -> dict:
 
 
 def _advance(totals: dict, samples: np.ndarray, block: dict, model) -> dict:
-    """Totals after counting one more block of a point."""
-    curve, opts, gate = model
+    """Totals after counting one more block of a point (``samples`` as
+    :func:`screened` gives them)."""
+    curve, opts, gate, _, _ = model
     state = (CountingState.from_dict(totals["counting_state"])
              if totals["counting_state"] else None)
     table, state = count_block(samples, state, gate=gate)
@@ -120,7 +142,9 @@ def recount(con, data_dir, row: dict) -> dict:
     model = _model(row["resolved"])
     totals = _start(row)
     for block in sql.point_blocks(con, row["asset_id"], row["point"]):
-        totals = _advance(totals, _samples(data_dir, block, row["point"]), block, model)
+        samples, _ = screened(row["point"], _samples(data_dir, block, row["point"]),
+                              block["sample_rate_hz"], model)
+        totals = _advance(totals, samples, block, model)
     return totals
 
 
@@ -218,6 +242,11 @@ def post_block(con, data_dir, asset_id: str, seq: int, up, spooled, *, recorded_
                 return replays[0]["response"], True
             raise LedgerConflict("sequence number {seq} is already used by some of these "
                                  "points in another block".format(seq=seq), seq=seq)
+        # Screened before anything is stored: a refused point stores nothing.
+        models = {n: _model(rows[n]["resolved"]) for n in names}
+        counted, findings = {}, {}
+        for n in names:
+            counted[n], findings[n] = screened(n, up.channels[n], up.sample_rate_hz, models[n])
         block_id = sqlite.new_id("b")
         rel = (parquet.adopt(data_dir, BLOCKS, block_id, spooled) if up.stored_as_sent
                else parquet.write_columns(data_dir, BLOCKS, block_id, up.channels))
@@ -229,8 +258,7 @@ def post_block(con, data_dir, asset_id: str, seq: int, up, spooled, *, recorded_
             # In-order points advance from their state; a late block means a
             # recount of that point, done inside the transaction below.
             def advance(n):
-                t = _advance(_current(rows[n]), up.channels[n], block,
-                             _model(rows[n]["resolved"]))
+                t = _advance(_current(rows[n]), counted[n], block, models[n])
                 t["last_seq"] = seq if rows[n]["last_seq"] is None else max(
                     seq, rows[n]["last_seq"])
                 return n, t
@@ -259,6 +287,10 @@ def post_block(con, data_dir, asset_id: str, seq: int, up, spooled, *, recorded_
                     sql.save_totals(con, asset_id, n, totals[n],
                                     "late_block" if plans[n] == "late" else "block", block_id)
                 statuses = {n: status(sql.get_point(con, asset_id, n)) for n in names}
+                for n in names:
+                    statuses[n]["screening"] = {
+                        "policy": models[n][3], "findings": [f.as_dict() for f in findings[n]],
+                        "cleaned": models[n][3] == "clean" and bool(findings[n])}
                 answer = respond(block, statuses)
                 sql.set_block_response(con, block_id, answer)
         except BaseException:

@@ -178,9 +178,10 @@ def sniff(text: str, *, delimiter: str | None = None, decimal: str | None = None
         if i < top:
             raise DialectError("the CSV has no header line above its numbers: the first "
                                "line must name the columns")
-        known = [sum(_known_unit(c) for c in r) for r in rows]
-        units_row = (i - 1 >= top and all(_unit_like(c) for c in rows[i])
-                     and known[i] > 0 and known[i] > known[i - 1])
+        units_row = False
+        if i - 1 >= top and all(_unit_like(c) for c in rows[i]):
+            known = sum(_known_unit(c) for c in rows[i])
+            units_row = known > 0 and known > sum(_known_unit(c) for c in rows[i - 1])
         header_row = i - 1 if units_row else i
     else:
         if not 0 <= header_row < len(lines) or len(rows[header_row]) != k:

@@ -383,3 +383,33 @@ def test_concurrent_pipelines_lose_nothing_and_count_nothing_twice(tmp_path):
     finally:
         stop_waitress(server, thread)
         app.extensions["cycleledger.jobs"].shutdown()
+
+
+def test_screening_of_blocks_refuses_reports_or_cleans(client):
+    # Issue 16: a spike from interference in a block. "refuse" stores
+    # nothing (422 naming the point and sample); "clean" counts the block
+    # with the spike interpolated away, the same on every recount; "report"
+    # counts it as is and says so in the block's answer.
+    rng = np.random.default_rng(9)
+    x = 60 * np.sin(np.arange(3000) / 30.0) + rng.normal(0, 0.4, 3000)
+    spiky = x.copy()
+    spiky[1200] += 700.0
+    setup_asset(client, "rig", ("r", "c", "p"), None)
+    for name, policy in (("r", "refuse"), ("c", "clean"), ("p", "report")):
+        r = client.put(f"/v1/assets/rig/points/{name}/settings",
+                       json={"settings": {"curve": "EN1993-1-9:71", "screening": policy}})
+        assert r.status_code == 200, r.get_json()
+    assert_problem(post(client, "rig", 1, {"r": spiky}), 422, "invalid-load-history",
+                   channel="r", sample_index=1200)
+    assert client.get("/v1/assets/rig/points/r").get_json()["last_seq"] is None
+    answer = post(client, "rig", 1, {"c": spiky, "p": spiky}).get_json()
+    assert answer["points"]["p"]["screening"]["findings"][0]["kind"] == "spike"
+    assert answer["points"]["c"]["screening"]["cleaned"] is True
+    from service.engine import screening
+
+    cleaned = screening.clean(spiky, screening.screen(spiky, 100.0))[0]
+    c = client.get("/v1/assets/rig/points/c").get_json()
+    p = client.get("/v1/assets/rig/points/p").get_json()
+    assert c["damage_if_ended"] == pytest.approx(whole(cleaned).damage, rel=1e-9)
+    assert p["damage_if_ended"] == pytest.approx(whole(spiky).damage, rel=1e-9)
+    assert p["damage_if_ended"] > 3 * c["damage_if_ended"]
