@@ -8,7 +8,9 @@ uniaxial gauges, read in microstrain at 500 Hz for 120 s:
 * ``weld_toe_lower``  - same detail on the lower side (mostly compressive)
 * ``pin_lug``         - machined lug of the bucket pin (no fatigue data:
                          curve estimated from the tensile test)
-* ``cylinder_mount``  - bracket of the lift cylinder (as welded)
+* ``cylinder_mount``  - bracket of the lift cylinder (as welded); its cable
+                         runs past the pump motor, and two switching spikes
+                         from the motor's contactor got into the recording
 
 Seeded, so every run writes the same file. Usage:
     python examples/make_demo.py [OUTPUT_CSV]
@@ -60,6 +62,9 @@ def generate(seed: int = SEED):
         "pin_lug": 200 + 900 * duty * payload + 90 * vib + 25 * hyd + 5 * noise,
         "cylinder_mount": 40 + 260 * duty * payload + 35 * vib + 30 * hyd + 4 * noise,
     }
+    # Interference: the pump contactor switching twice, one sample each.
+    for at in (int(31.4 * RATE_HZ), int(77.9 * RATE_HZ)):
+        channels["cylinder_mount"][at] += 2400.0
     return t, {k: np.round(v, 2) for k, v in channels.items()}
 
 

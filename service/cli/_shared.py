@@ -22,6 +22,20 @@ def _fmt(v, digits=3) -> str:
     return str(v)
 
 
+def from_json(entry: dict, has_duration: bool) -> dict:
+    """A point's result as the service serves it, with its infinities back
+    (JSON's null stands for them: a runout's lives, a static overload's
+    damage)."""
+    out = dict(entry)
+    if out.get("runout"):
+        for k in ("life_repeats", "life_cycles") + (("life_hours",) if has_duration else ()):
+            if out.get(k) is None:
+                out[k] = math.inf
+    if out.get("damage") is None:
+        out["damage"] = math.inf
+    return out
+
+
 def _json_default(v):
     if isinstance(v, float) and not math.isfinite(v):
         return None
@@ -93,6 +107,15 @@ def print_report(report: dict, out=None) -> None:
                _fmt(p["reserve_factor"]), _fmt(p["equivalent_range"]),
                ",".join(p["flags"]) or "-"]
         print("".join(f"{str(v):<{w}}" for v, (_, w) in zip(row, cols)), file=out)
+    signal = [(name, f) for name, p in report["points"].items()
+              for f in ((p.get("screening") or {}).get("findings") or [])]
+    if signal:
+        print("\nSignal screening (faults found before counting):", file=out)
+        for name, f in signal:
+            share = ("" if f.get("damage_share") is None
+                     else f", {f['damage_share']:.0%} of the damage")
+            print(f"  - {name}: {f['kind']} x{f['count']} from sample {f['first_sample']}"
+                  f"{share}", file=out)
     print("\nCautions:", file=out)
     for c in gathered_cautions(report):
         where = f" ({', '.join(c['points'])})" if c["points"] else ""

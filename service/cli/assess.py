@@ -6,9 +6,7 @@ import json
 import sys
 from pathlib import Path
 
-import numpy as np
-
-from ._shared import _json_default, _recording_config, print_report
+from ._shared import _json_default, _recording_config, from_json, print_report
 
 
 def assess_file(path: Path, config: dict) -> dict:
@@ -18,8 +16,7 @@ def assess_file(path: Path, config: dict) -> dict:
     CSV dialects, Parquet, MDF 4, HDF5, gzip), and its channels checked and
     converted the same way; ``config`` carries the request's options.
     """
-    from service import recordings
-    from service.engine.damage import assess_history
+    from service import recordings, runs
     from service.engine.errors import InvalidParameter
     from service.engine.settings import point_from_dict
     from service.recordings.channels import validated
@@ -47,21 +44,18 @@ def assess_file(path: Path, config: dict) -> dict:
     points = config.get("points") or {c: {} for c in up.channels}
     defaults = {k: v for k, v in config.items() if k in ("curve", "mean_stress_method")}
     report = {"file": str(path), "duration_s": duration, "points": {}}
+    gate_fraction = float(config.get("gate_fraction", 0.0)) or None
     for name, settings in points.items():
         if name not in up.channels:
             raise InvalidParameter(f"channel {name!r} is not in {path.name}; it has "
                                    f"{', '.join(map(str, up.channels))}", field="points")
         merged = {**defaults, **settings}
-        curve, opts, estimate = point_from_dict(merged)
-        stress = up.channels[name]
-        gate = float(config.get("gate_fraction", 0.0)) * float(np.ptp(stress))
-        result = assess_history(stress, curve, opts, gate=gate, duration_s=duration)
-        entry = result.summary()
-        entry.update(curve=curve.name, curve_source=curve.source,
-                     top_cycles=result.top_cycles, cautions=result.caution_dicts())
-        if estimate is not None:
-            entry["estimate"] = estimate.as_dict()
-        report["points"][name] = entry
+        point_from_dict(merged)
+        # The service's own path for one point: screening, assessment, cautions.
+        out, _ = runs.assess_point(runs.PlannedPoint(name, up.channels[name], merged), None,
+                                   gate_fraction, "half_cycles", duration)
+        entry = {**out, "curve": out["curve"]["name"], "curve_source": out["curve"]["source"]}
+        report["points"][name] = from_json(entry, duration is not None)
     return report
 
 

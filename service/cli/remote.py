@@ -3,11 +3,10 @@
 from __future__ import annotations
 
 import json
-import math
 import sys
 from pathlib import Path
 
-from ._shared import READER_KEYS, _json_default, _recording_config, print_report
+from ._shared import READER_KEYS, _json_default, _recording_config, from_json, print_report
 
 
 def post_file(client, path: Path, config: dict, progress=None) -> dict:
@@ -28,11 +27,9 @@ def post_file(client, path: Path, config: dict, progress=None) -> dict:
     a = client.assess(progress=progress, **request)
     points = {}
     for name, p in a["points"].items():
-        points[name] = {**p, "curve": p["curve"]["name"], "curve_source": p["curve"]["source"]}
-        points[name] = {k: (math.inf if v is None and k in ("life_repeats", "life_cycles")
-                            and p["runout"] else v) for k, v in points[name].items()}
-        if points[name]["damage"] is None:
-            points[name]["damage"] = math.inf
+        points[name] = from_json({**p, "curve": p["curve"]["name"],
+                                  "curve_source": p["curve"]["source"]},
+                                 a["duration_s"] is not None)
     return {"file": str(path), "duration_s": a["duration_s"], "points": points,
             "assessment_id": a["id"], "history_id": h["id"], "cautions": a["cautions"]}
 
