@@ -21,7 +21,8 @@ bp = Blueprint("assessments", __name__)
 #: Columns of the per-point summary table (JSON fields and CSV header alike).
 SUMMARY_COLUMNS = ("point", "damage", "damage_per_repeat", "life_repeats", "life_hours",
                    "life_cycles", "reserve_factor", "reserve_limited_by", "equivalent_range",
-                   "cycles_counted", "max_range", "overload_cycles", "runout", "flags", "curve")
+                   "cycles_counted", "max_range", "overload_cycles", "runout", "flags",
+                   "findings", "curve")
 CYCLE_COLUMNS = ("stress_from", "stress_to", "count", "start_index", "end_index", "damage")
 
 
@@ -198,13 +199,22 @@ def summary(assessment_id: str):
     """One row per point: the figures a dashboard or report needs."""
     fmt = _format(("json", "csv"))
     points = (load(assessment_id)["result"] or {}).get("points", {})
-    rows = [{c: (p.get(c) if c != "curve" else p["curve"]["name"]) for c in SUMMARY_COLUMNS}
-            for p in points.values()]
+    rows = [{c: _summary_value(p, c) for c in SUMMARY_COLUMNS} for p in points.values()]
     if fmt == "json":
         return jsonify(items=rows, units={"stress": "MPa", "life_hours": "h"})
-    return _csv(SUMMARY_COLUMNS, [[";".join(r[c]) if c == "flags" else
+    return _csv(SUMMARY_COLUMNS, [[";".join(r[c]) if c in ("flags", "findings") else
                                    ("" if r[c] is None else r[c]) for c in SUMMARY_COLUMNS]
                                   for r in rows])
+
+
+def _summary_value(p: dict, column: str):
+    """A point's value in the summary: the curve's name; the kinds of its
+    screening findings; else the result's own field."""
+    if column == "curve":
+        return p["curve"]["name"]
+    if column == "findings":
+        return sorted({f["kind"] for f in ((p.get("screening") or {}).get("findings") or [])})
+    return p.get(column)
 
 
 def _point(assessment_id: str, point: str):

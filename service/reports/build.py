@@ -35,7 +35,9 @@ def assessment_plot(con, data_dir, row: dict, resource: dict, name: str,
         if resource.get("duration_s"):
             n = len(_samples(con, data_dir, row, next(iter(points))))
             rate = n / resource["duration_s"]
-        fig = plots.history({p: _samples(con, data_dir, row, p) for p in points}, rate)
+        fig = plots.history({p: _samples(con, data_dir, row, p) for p in points}, rate,
+                            findings={p: (v.get("screening") or {}).get("findings") or []
+                                      for p, v in points.items()})
     elif name == "exceedance":
         fig = plots.exceedance({p: runs.point_cycles(data_dir, row, p, con)[0]
                                 for p in points})

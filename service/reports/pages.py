@@ -148,6 +148,18 @@ def assessment_page(resource: dict, plots: dict[str, bytes]) -> str:
                             f"{name}: S-N curve, counted spectrum, damage share by range."))
         figs.append(_figure(f"plot-range-mean-{name}", plots[f"range-mean-{name}"],
                             f"{name}: rainflow matrix (range x mean)."))
+    findings = [(name, f) for name, p in points.items()
+                for f in ((p.get("screening") or {}).get("findings") or [])]
+    if findings:
+        items = "".join(
+            f"<li data-point='{html.escape(name)}' data-kind='{html.escape(f['kind'])}'>"
+            f"<strong>{html.escape(name)}</strong>: {html.escape(f['description'])}"
+            + ("" if f.get("damage_share") is None
+               else f" ({fmt(100 * f['damage_share'])} % of the damage)") + "</li>"
+            for name, f in findings)
+        summary += ("<section id='screening' class='caution'><h2>Signal screening</h2>"
+                    f"<p>Faults found in the signals before counting (marked on the history)."
+                    f"</p><ul>{items}</ul></section>")
     body = [summary, "<section id='plots'><h2>Plots</h2><div class='plots'>"
             + "".join(figs) + "</div></section>",
             "<section id='settings'><h2>Settings and sources</h2>" + "".join(settings)

@@ -66,9 +66,19 @@ def _figure(w=7.0, h=2.6):
     return fig, ax
 
 
+#: Colours of the screening findings marked on a history.
+FINDING_COLOURS = {"spike": "#c0392b", "clipping": "#8e44ad", "held": "#7f8c8d",
+                   "zeros": "#7f8c8d", "flat": "#7f8c8d", "dead": "#7f8c8d"}
+
+
 def history(samples: dict[str, np.ndarray], sample_rate_hz: float | None,
-            columns: int = 800):
-    """Every point's history as an envelope, one row each. [MPa]"""
+            columns: int = 800, findings: dict | None = None):
+    """Every point's history as an envelope, one row each. [MPa]
+
+    ``findings`` ({point: [finding dicts]}) are marked where they are: a
+    band over each listed event (spikes red, clipping purple, held runs
+    grey), with the kinds named in the row's label.
+    """
     names = list(samples)
     with plt.rc_context(_STYLE):
         fig, axes = plt.subplots(len(names), 1, figsize=(7.0, 1.3 + 1.1 * len(names)),
@@ -77,7 +87,19 @@ def history(samples: dict[str, np.ndarray], sample_rate_hz: float | None,
         idx, lo, hi = envelope(samples[name], columns)
         t = idx / sample_rate_hz if sample_rate_hz else idx
         ax.fill_between(t, lo, hi, color=TEAL, linewidth=0.4, step="post")
-        ax.set_ylabel(f"{name}\n[MPa]", rotation=0, ha="right", va="center")
+        label = f"{name}\n[MPa]"
+        marked = [f for f in (findings or {}).get(name, []) if f["kind"] in FINDING_COLOURS]
+        for f in marked:
+            for a, b in f.get("events") or [[f["first_sample"], f["last_sample"]]]:
+                x0, x1 = (a / sample_rate_hz, (b + 1) / sample_rate_hz) if sample_rate_hz \
+                    else (a, b + 1)
+                # At least a pixel column wide, so a one-sample spike shows.
+                width = (t[-1] - t[0]) / columns if len(t) > 1 else 1.0
+                ax.axvspan(x0 - width / 2, max(x1, x0 + width / 2),
+                           color=FINDING_COLOURS[f["kind"]], alpha=0.35, linewidth=0)
+        if marked:
+            label += "\n" + ", ".join(sorted({f["kind"] for f in marked}))
+        ax.set_ylabel(label, rotation=0, ha="right", va="center")
     axes[-1, 0].set_xlabel("time [s]" if sample_rate_hz else "sample")
     fig.suptitle("History (min/max envelope per column)", color=INK, fontsize=10, x=0.02,
                  ha="left")

@@ -143,3 +143,19 @@ def test_pages_in_a_headless_browser(served, tmp_path, page):
 
     pixels = imread(shot)
     assert pixels.shape[0] >= 1000 and pixels[..., :3].std() > 0.05  # not blank
+
+
+def test_screening_findings_on_the_page_and_marked_on_the_history(client):
+    # A spike planted at sample 2500: listed on the page with its share of
+    # the damage, and marked (and named) on the history plot.
+    x = 70 * np.sin(np.arange(5000) / 25.0) + np.random.default_rng(2).normal(0, 0.4, 5000)
+    x[2500] += 800.0
+    r = client.post("/v1/assessments", json={
+        "samples": {"g": x.tolist()}, "unit": "MPa", "sample_rate_hz": 100,
+        "settings": {"curve": "EN1993-1-9:71"}})
+    assert r.status_code == 201, r.get_json()
+    a = r.get_json()
+    page = client.get(f"/v1/assessments/{a['id']}/report").get_data(as_text=True)
+    assert "id='screening'" in page and "data-kind='spike'" in page
+    svg = client.get(f"/v1/assessments/{a['id']}/plots/history").get_data(as_text=True)
+    assert "spike" in svg
