@@ -27,7 +27,7 @@ bp = Blueprint("ledger", __name__)
 #: Columns of the dashboard feed, in order (JSON fields and CSV header alike).
 FEED_COLUMNS = ("asset", "point", "damage", "consumed_percent", "projected_hours_remaining",
                 "damage_rate_per_hour", "recorded_hours", "residue_damage", "last_block_at",
-                "settings_version", "flags")
+                "settings_version", "flags", "signal_findings")
 
 
 class SequenceConflict(ApiProblem):
@@ -270,6 +270,15 @@ def void_block(asset: str, block_id: str):
 # ---------------------------------------------------------------- feeds
 
 
+def _last_findings(point: dict) -> list[str]:
+    """Kinds of the faults the screening found in the point's last block."""
+    if point["last_seq"] is None:
+        return []
+    block = sql.block_at(db(), point["asset_id"], point["point"], point["last_seq"])
+    answer = ((block or {}).get("response") or {}).get("points", {}).get(point["point"], {})
+    return sorted({f["kind"] for f in (answer.get("screening") or {}).get("findings", [])})
+
+
 @bp.get("/v1/feeds/points")
 def feed():
     """One flat row per point for dashboards (JSON or CSV); ``asset`` and
@@ -282,12 +291,12 @@ def feed():
     else:
         row = sql.get_asset(db(), project(), asset)
         points = sql.list_points(db(), project(), row["id"]) if row else []
-    rows = [ledger.status(p) for p in points]
+    rows = [ledger.status(p) | {"signal_findings": _last_findings(p)} for p in points]
     if since:
         rows = [r for r in rows if (r["updated_at"] or "") >= since]
     rows = [{c: r[c] for c in FEED_COLUMNS} for r in rows]
     if fmt == "csv":
-        return _csv(FEED_COLUMNS, [[";".join(r[c]) if c == "flags" else
+        return _csv(FEED_COLUMNS, [[";".join(r[c]) if c in ("flags", "signal_findings") else
                                     ("" if r[c] is None else r[c]) for c in FEED_COLUMNS]
                                    for r in rows])
     return jsonify(items=rows, columns=list(FEED_COLUMNS),

@@ -295,7 +295,7 @@ def test_feed_has_stable_flat_columns_and_filters(client):
     assert js["columns"] == ["asset", "point", "damage", "consumed_percent",
                              "projected_hours_remaining", "damage_rate_per_hour",
                              "recorded_hours", "residue_damage", "last_block_at",
-                             "settings_version", "flags"]
+                             "settings_version", "flags", "signal_findings"]
     assert [(r["asset"], r["point"]) for r in js["items"]] == [("arm", "a"), ("arm", "b"),
                                                                ("boom", "c")]
     only = client.get("/v1/feeds/points?asset=boom").get_json()["items"]
@@ -413,3 +413,8 @@ def test_screening_of_blocks_refuses_reports_or_cleans(client):
     assert c["damage_if_ended"] == pytest.approx(whole(cleaned).damage, rel=1e-9)
     assert p["damage_if_ended"] == pytest.approx(whole(spiky).damage, rel=1e-9)
     assert p["damage_if_ended"] > 3 * c["damage_if_ended"]
+    feed = client.get("/v1/feeds/points?asset=rig").get_json()["items"]
+    assert {r["point"]: r["signal_findings"] for r in feed} == {"r": [], "c": ["spike"],
+                                                               "p": ["spike"]}
+    csv = client.get("/v1/feeds/points?asset=rig&format=csv").get_data(as_text=True)
+    assert csv.splitlines()[0].endswith(",flags,signal_findings")
