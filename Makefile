@@ -28,6 +28,7 @@ bench-quick: $(BIN)/.installed   ## the benchmarks' short runs
 	$(BIN)/python tests/benchmarks/bench_load.py --quick
 	$(BIN)/python tests/benchmarks/bench_multiaxial.py --quick
 	$(BIN)/python tests/benchmarks/bench_scale.py --quick
+	$(BIN)/python tests/benchmarks/bench_inputs.py --quick
 
 bench: $(BIN)/.installed         ## the benchmarks' full runs (several minutes)
 	$(BIN)/python tests/benchmarks/bench_counting.py
@@ -37,6 +38,7 @@ bench: $(BIN)/.installed         ## the benchmarks' full runs (several minutes)
 	$(BIN)/python tests/benchmarks/bench_load.py
 	$(BIN)/python tests/benchmarks/bench_multiaxial.py
 	$(BIN)/python tests/benchmarks/bench_scale.py
+	$(BIN)/python tests/benchmarks/bench_inputs.py
 
 clean:
 	rm -rf $(VENV) .cache examples/data cycleledger-data
