@@ -41,4 +41,4 @@ bench: $(BIN)/.installed         ## the benchmarks' full runs (several minutes)
 	$(BIN)/python tests/benchmarks/bench_inputs.py
 
 clean:
-	rm -rf $(VENV) .cache examples/data cycleledger-data
+	rm -rf $(VENV) .cache examples/data cycleledger-data cycleledger-demo dist build

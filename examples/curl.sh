@@ -2,12 +2,13 @@
 # The HTTP API from a shell, one call per resource. Start the service first
 # (`make demo` or `.venv/bin/cycleledger serve`), then:
 #     sh examples/curl.sh [BASE_URL]
-# Uses the demo recording (written by `make demo` or examples/make_demo.py).
+# Uses the demo recording (examples/data/, written by examples/make_demo.py when missing).
 set -eu
 B=${1:-http://127.0.0.1:8350}
 HERE=$(dirname "$0")
 CSV=$HERE/data/loader_arm_rig.csv
-[ -f "$CSV" ] || python3 "$HERE/make_demo.py" "$CSV" >/dev/null
+# PYTHON: a Python with cycleledger installed (the demo generator is in the package).
+[ -f "$CSV" ] || "${PYTHON:-python3}" "$HERE/make_demo.py" "$CSV" >/dev/null
 
 echo "== upload (CSV; time_s sets the sample rate; microstrain needs E)"
 H=$(curl -sf -X POST "$B/v1/histories?unit=microstrain&youngs_modulus=206000&name=rig-run" \

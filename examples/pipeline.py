@@ -5,7 +5,7 @@ Usage (with the service running, e.g. `make demo` or `cycleledger serve`):
     python examples/pipeline.py RECORDING.csv [--url http://127.0.0.1:8350]
 
 The recording is the demo's format (a `time_s` column and one microstrain
-column per gauge); the settings per gauge come from loader_arm_points.json.
+column per gauge); the settings per gauge are the demo's (service.demo.points()).
 Prints the per-point summary and writes each point's cycle table next to the
 recording as Parquet.
 """
@@ -13,7 +13,6 @@ recording as Parquet.
 from __future__ import annotations
 
 import argparse
-import json
 import sys
 from pathlib import Path
 
@@ -28,7 +27,9 @@ def main() -> int:
     ap.add_argument("recording")
     ap.add_argument("--url", default="http://127.0.0.1:8350")
     args = ap.parse_args()
-    config = json.loads((HERE / "loader_arm_points.json").read_text())
+    from service.demo import points
+
+    config = points()
     client = Client(args.url)
     try:
         history = client.upload(args.recording, unit=config["unit"],

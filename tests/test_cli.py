@@ -148,3 +148,12 @@ def test_assess_reads_a_decimal_comma_csv_as_the_service_does(tmp_path, capsys):
                               duration_s=4.0)
     assert got["points"]["SG1"]["damage"] == pytest.approx(expected.damage, rel=1e-12)
     assert got["duration_s"] == pytest.approx(4.0)
+
+
+def test_version(capsys):
+    import service
+
+    with pytest.raises(SystemExit) as done:
+        main(["--version"])
+    assert done.value.code == 0
+    assert capsys.readouterr().out.strip() == f"cycleledger {service.__version__}"

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from pathlib import Path
+from importlib import resources
 
 from flask import Blueprint, Response, jsonify
 
@@ -19,7 +19,8 @@ from . import data_dir, db
 from .problems import NotFound
 
 bp = Blueprint("meta", __name__)
-OPENAPI = Path(service.__file__).resolve().parent.parent / "openapi" / "openapi.yaml"
+#: The contract, package data beside this module.
+OPENAPI = resources.files(__package__).joinpath("openapi.yaml")
 
 
 @bp.get("/v1/health")
@@ -58,6 +59,6 @@ def methods():
 
 @bp.get("/openapi.yaml")
 def openapi():
-    if not OPENAPI.exists():
+    if not OPENAPI.is_file():
         raise NotFound("the OpenAPI document is not installed with this copy")
     return Response(OPENAPI.read_bytes(), mimetype="application/yaml")

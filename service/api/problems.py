@@ -4,7 +4,7 @@ Every error body is ``application/problem+json`` with ``type``, ``title``,
 ``status`` and ``detail``, plus the extension members a client reads instead
 of parsing ``detail``: ``field``, ``channel``, ``sample_index``, ``valid``,
 ``value``, ``limit``. ``title`` is fixed per ``type``; ``detail`` describes
-the occurrence. The slugs are documented in ``openapi/openapi.yaml``.
+the occurrence. The slugs are documented in ``service/api/openapi.yaml``.
 """
 
 from __future__ import annotations

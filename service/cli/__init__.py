@@ -18,7 +18,7 @@ from __future__ import annotations
 import argparse
 import sys
 
-from ._shared import _recording_args
+from ._shared import _recording_args, _version
 from .assess import _cmd_assess
 from .batch import _cmd_batch, _cmd_curves
 from .demo import _cmd_demo
@@ -37,6 +37,7 @@ __all__ = ["main", "assess_file", "print_report", "post_file", "is_loopback", "s
 
 def main(argv=None) -> int:
     parser = argparse.ArgumentParser(prog="cycleledger", description=__doc__.splitlines()[0])
+    parser.add_argument("--version", action="version", version=f"cycleledger {_version()}")
     sub = parser.add_subparsers(dest="command", required=True)
     p = sub.add_parser("assess", help="assess the channels of a recording")
     _recording_args(p, "unit of the samples (default MPa)")

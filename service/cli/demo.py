@@ -2,8 +2,6 @@
 
 from __future__ import annotations
 
-import json
-import sys
 from pathlib import Path
 
 from ._shared import print_report
@@ -12,17 +10,11 @@ from .remote import post_file
 from .serve import stop_waitress, waitress_options
 
 
-def _demo_files():
-    here = Path(__file__).resolve().parents[2] / "examples"
-    sys.path.insert(0, str(here))
-    import make_demo  # noqa: E402  (the seeded generator lives with the examples)
-
-    return make_demo, json.loads((here / "loader_arm_points.json").read_text())
-
-
 def _cmd_demo(args) -> int:
-    make_demo, config = _demo_files()
-    csv = make_demo.write(Path(args.out) if args.out else make_demo.DEFAULT_CSV)
+    from service import demo
+
+    config = demo.points()
+    csv = demo.write(Path(args.out) if args.out else demo.DEFAULT_CSV)
     if args.offline:
         print_report(assess_file(csv, config))
         return 0

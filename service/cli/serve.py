@@ -15,7 +15,15 @@ def stop_waitress(server, thread, timeout_s: float = 10.0) -> None:
     EBADF in the server thread); a thunk pulled through waitress's trigger
     closes every channel inside the loop, which then ends on an empty map.
     """
-    server.trigger.pull_trigger(lambda: [ch.close() for ch in list(server._map.values())])
+    if not thread.is_alive():
+        return  # its loop has ended already (and closed its trigger)
+    try:
+        server.trigger.pull_trigger(lambda: [ch.close() for ch in list(server._map.values())])
+    except OSError:
+        # The loop ended between the check and the pull (its trigger is
+        # closed with it); there is nothing left to stop.
+        if thread.is_alive():
+            raise
     thread.join(timeout=timeout_s)
 
 

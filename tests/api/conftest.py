@@ -1,5 +1,5 @@
 """API test fixtures: the app on a temporary data directory, with every
-response checked against ``openapi/openapi.yaml`` (openapi-core)."""
+response checked against ``service/api/openapi.yaml`` (openapi-core)."""
 
 from __future__ import annotations
 
@@ -14,7 +14,7 @@ from openapi_core.contrib.flask import FlaskOpenAPIRequest, FlaskOpenAPIResponse
 
 from service.api import create_app
 
-SPEC_PATH = Path(__file__).resolve().parents[2] / "openapi" / "openapi.yaml"
+SPEC_PATH = Path(__file__).resolve().parents[2] / "service" / "api" / "openapi.yaml"
 def _text(body) -> str:
     return body.decode("utf-8") if isinstance(body, bytes) else body
 

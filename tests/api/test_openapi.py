@@ -1,4 +1,4 @@
-"""The app and openapi/openapi.yaml agree: routes, enums, and a fuzz of the contract."""
+"""The app and service/api/openapi.yaml agree: routes, enums, and a fuzz of the contract."""
 
 from __future__ import annotations
 

@@ -83,13 +83,9 @@ def test_demo_command_starts_posts_and_stops(tmp_path, capsys):
 
 
 def _demo_csv(tmp_path):
-    import sys
-    from pathlib import Path
+    from service import demo
 
-    sys.path.insert(0, str(Path(__file__).resolve().parents[2] / "examples"))
-    import make_demo
-
-    return make_demo.write(tmp_path / "data" / "loader_arm_rig.csv")
+    return demo.write(tmp_path / "data" / "loader_arm_rig.csv")
 
 
 def test_pipeline_example_posts_waits_and_fetches(served, tmp_path):
@@ -117,8 +113,11 @@ def test_curl_examples_run(served, tmp_path):
     examples = Path(__file__).resolve().parents[2] / "examples"
     work = tmp_path / "ex"
     shutil.copytree(examples, work, ignore=shutil.ignore_patterns("data", "__pycache__"))
+    import os
+    import sys
+
     out = subprocess.run(["sh", str(work / "curl.sh"), served], capture_output=True,
-                         text=True, timeout=300)
+                         text=True, timeout=300, env={**os.environ, "PYTHON": sys.executable})
     assert out.returncode == 0, out.stderr
     assert "point,damage" in out.stdout and "unknown-name" in out.stdout
 
