@@ -188,7 +188,7 @@ def post_block(asset: str):
         raise ApiProblem("seq (a whole number) is required", field="seq") from None
     if not 0 <= seq <= 2**62:
         raise ApiProblem("seq must be 0..2^62", field="seq")
-    recorded_at = request.args.get("recorded_at")
+    recorded_at = _time_arg("recorded_at")
     key = request.headers.get("Idempotency-Key")
     if key is not None and not (0 < len(key) <= 200 and key.isprintable()):
         raise ApiProblem("Idempotency-Key must be 1-200 printable characters",
@@ -270,6 +270,19 @@ def void_block(asset: str, block_id: str):
 # ---------------------------------------------------------------- feeds
 
 
+def _time_arg(name: str) -> str | None:
+    """A query parameter that is a time: RFC 3339 with its offset (for
+    example 2026-12-01T08:00:00Z), kept as UTC text; refused (400) otherwise."""
+    value = request.args.get(name)
+    if value is None:
+        return None
+    utc = sqlite.utc_text(value)
+    if utc is None:
+        raise ApiProblem(f"{name} {value[:40]!r} is not an RFC 3339 time with its offset "
+                         "(for example 2026-12-01T08:00:00Z)", field=name)
+    return utc
+
+
 def _last_findings(point: dict) -> list[str]:
     """Kinds of the faults the screening found in the point's last block."""
     if point["last_seq"] is None:
@@ -285,7 +298,7 @@ def feed():
     ``since`` (ISO time: points updated at or after it) filter."""
     fmt = _format(("json", "csv"))
     asset = request.args.get("asset")
-    since = request.args.get("since")
+    since = _time_arg("since")
     if asset is None:
         points = sql.list_points(db(), project())
     else:

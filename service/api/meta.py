@@ -12,8 +12,11 @@ from service.engine.mean_stress import COMPRESSIVE_MEAN_POLICIES, MEAN_STRESS_ME
 from service.engine.rainflow import RESIDUE_TREATMENTS
 from service.engine.cautions import CAUTION_TEXTS
 from service.engine.equivalents import REDUCTION_NAMES
+from service.engine.rosette import ROSETTE_LAYOUTS
+from service.engine.screening import FINDING_KINDS, SCREENING_POLICIES
 from service.engine.sn_curve import BELOW_LIMIT_TREATMENTS
-from service.engine.sn_estimate import MATERIAL_CLASSES
+from service.engine.sn_estimate import LOAD_TYPE, MATERIAL_CLASSES, SURFACE_FINISH
+from service.reports.build import ASSESSMENT_PLOTS
 
 from . import data_dir, db
 from .problems import NotFound
@@ -53,7 +56,14 @@ def methods():
                    below_limit=list(BELOW_LIMIT_TREATMENTS),
                    units=list(units.UNITS),
                    reductions=list(REDUCTION_NAMES),
+                   rosette_layouts=list(ROSETTE_LAYOUTS),
                    material_classes=list(MATERIAL_CLASSES),
+                   surface_finishes=list(SURFACE_FINISH),
+                   load_types=list(LOAD_TYPE),
+                   screening_policies=list(SCREENING_POLICIES),
+                   finding_kinds=list(FINDING_KINDS),
+                   plots=list(ASSESSMENT_PLOTS),
+                   plot_formats=["svg", "png"],
                    cautions=sorted(CAUTION_TEXTS))
 
 

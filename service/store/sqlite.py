@@ -24,6 +24,21 @@ def now() -> str:
     return datetime.now(timezone.utc).isoformat(timespec="seconds").replace("+00:00", "Z")
 
 
+def utc_text(value: str) -> str | None:
+    """An RFC 3339 time (with its offset) as the UTC text this store writes
+    (seconds, ``Z``), so stored times compare as text in time order; None
+    when ``value`` is not such a time."""
+    if not isinstance(value, str) or len(value) < 20 or value[10] not in "Tt ":
+        return None
+    try:
+        t = datetime.fromisoformat(value.replace("z", "Z"))
+    except ValueError:
+        return None
+    if t.tzinfo is None:
+        return None  # RFC 3339 times carry their offset
+    return t.astimezone(timezone.utc).isoformat(timespec="seconds").replace("+00:00", "Z")
+
+
 def new_id(prefix: str) -> str:
     """A fresh, URL-safe identifier such as ``h_3f9c0e2b1a7d``."""
     return f"{prefix}_{uuid.uuid4().hex[:16]}"

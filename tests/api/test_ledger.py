@@ -300,7 +300,14 @@ def test_feed_has_stable_flat_columns_and_filters(client):
                                                                ("boom", "c")]
     only = client.get("/v1/feeds/points?asset=boom").get_json()["items"]
     assert [r["point"] for r in only] == ["c"] and only[0]["flags"] == ["no_blocks"]
-    assert client.get("/v1/feeds/points?since=2999-01-01").get_json()["items"] == []
+    assert client.get("/v1/feeds/points?since=2999-01-01T00:00:00Z").get_json()["items"] == []
+    # Times are RFC 3339 with their offset (issue 17): compared as times, not
+    # as text; anything else is refused.
+    assert len(client.get("/v1/feeds/points?since=2000-01-01T01:00:00%2B01:00")
+               .get_json()["items"]) == 3
+    for bad in ("2999-01-01", "yesterday", "2026-12-01T08:00:00"):
+        assert_problem(client.get(f"/v1/feeds/points?since={bad}"), 400, "bad-request",
+                       field="since")
     csv = client.get("/v1/feeds/points", headers={"Accept": "text/csv"}).get_data(as_text=True)
     lines = csv.strip().splitlines()
     assert lines[0] == ",".join(js["columns"]) and len(lines) == 4

@@ -118,3 +118,28 @@ def test_contract_fuzz(case):
     # body must be a table of numbers or that a history needs two samples,
     # and those requests are 4xx problems by design.
     case.call_and_validate(excluded_checks=[positive_data_acceptance])
+
+
+def test_every_enumeration_of_the_contract_is_listed_at_methods(client):
+    # One name per concept (issue 17): every value an enumeration of the
+    # contract allows, outside the response formats, is one /v1/methods
+    # lists, so a client can discover each choice it may send.
+    methods = client.get("/v1/methods").get_json()
+    listed = {v for values in methods.values() for v in values}
+    formats = {"json", "csv", "parquet", "svg", "png"}
+    internal = {"queued", "running", "done", "failed", "block", "void", "late_block",
+                "settings", "rosette", "plane_stress", "tensor", "fatigue",
+                "static_strength", ".", ","}
+
+    def enums(node):
+        if isinstance(node, dict):
+            if "enum" in node:
+                yield from node["enum"]
+            for v in node.values():
+                yield from enums(v)
+        elif isinstance(node, list):
+            for v in node:
+                yield from enums(v)
+
+    missing = {v for v in enums(DOC) if isinstance(v, str)} - listed - formats - internal
+    assert not missing, sorted(missing)

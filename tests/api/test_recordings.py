@@ -232,3 +232,15 @@ def test_screening_report_refuse_and_clean(client):
     a = client.post("/v1/assessments", json={"history_id": hid, "settings": {
         "curve": "EN1993-1-9:71", "screening": "sometimes"}})
     assert_problem(a, 422, "unknown-name", field="screening")
+
+
+def test_rate_from_a_time_column_is_rounded_to_what_it_can_say(client):
+    # Issue 17: 0.002 s steps written to 0.1 ms over 240 s say 500 Hz to
+    # seven digits, not 500.0000000002771.
+    n = 120_000
+    lines = ["time_s,g"] + [f"{i / 500:.4f},{(i % 7) - 3}" for i in range(n)]
+    r = client.post("/v1/histories?unit=MPa", data="\n".join(lines).encode(),
+                    content_type="text/csv")
+    assert r.status_code == 201, r.get_json()
+    h = r.get_json()
+    assert h["sample_rate_hz"] == 500.0 and h["duration_s"] == 240.0
