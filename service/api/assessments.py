@@ -180,7 +180,10 @@ _FORMULA_START = ("=", "+", "-", "@", "\t", "\r")
 def csv_cell(value):
     """A cell safe to open in a spreadsheet: text that would start a formula
     (a channel named ``=HYPERLINK(...)``) gets a leading apostrophe; numbers
-    are left alone (OWASP, CSV injection)."""
+    are left alone (OWASP, CSV injection); booleans are ``true``/``false``
+    as in the JSON."""
+    if isinstance(value, bool):
+        return "true" if value else "false"
     if isinstance(value, str) and value.startswith(_FORMULA_START):
         return "'" + value
     return value

@@ -27,7 +27,7 @@ bp = Blueprint("ledger", __name__)
 #: Columns of the dashboard feed, in order (JSON fields and CSV header alike).
 FEED_COLUMNS = ("asset", "point", "damage", "consumed_percent", "projected_hours_remaining",
                 "damage_rate_per_hour", "recorded_hours", "residue_damage", "last_block_at",
-                "settings_version", "flags", "signal_findings")
+                "runout", "settings_version", "flags", "signal_findings")
 
 
 class SequenceConflict(ApiProblem):

@@ -295,7 +295,7 @@ def test_feed_has_stable_flat_columns_and_filters(client):
     assert js["columns"] == ["asset", "point", "damage", "consumed_percent",
                              "projected_hours_remaining", "damage_rate_per_hour",
                              "recorded_hours", "residue_damage", "last_block_at",
-                             "settings_version", "flags", "signal_findings"]
+                             "runout", "settings_version", "flags", "signal_findings"]
     assert [(r["asset"], r["point"]) for r in js["items"]] == [("arm", "a"), ("arm", "b"),
                                                                ("boom", "c")]
     only = client.get("/v1/feeds/points?asset=boom").get_json()["items"]
@@ -424,4 +424,8 @@ def test_screening_of_blocks_refuses_reports_or_cleans(client):
     assert {r["point"]: r["signal_findings"] for r in feed} == {"r": [], "c": ["spike"],
                                                                "p": ["spike"]}
     csv = client.get("/v1/feeds/points?asset=rig&format=csv").get_data(as_text=True)
-    assert csv.splitlines()[0].endswith(",flags,signal_findings")
+    assert csv.splitlines()[0].endswith(",runout,settings_version,flags,signal_findings")
+    # Booleans in CSV are written as in JSON (issue 17); point r has no
+    # blocks, so its projection is unknown (runout false), not infinite.
+    rows = {ln.split(",")[1]: ln for ln in csv.splitlines()[1:]}
+    assert ",false," in rows["r"] and ",True," not in csv
