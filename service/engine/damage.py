@@ -142,7 +142,10 @@ def _per_repeat(table, per_cycle, damage, total_count, args, load_factor):
     per repeat, the full cycles of one pass plus the cycles of the residue
     counted as a repeating block (ASTM E1049-85 sec. 5.4.4.1 for a repeating
     history). Equals counting the recording with ``residue="repeating_block"``
-    (tested), so the life in repeats cannot exceed what repetition gives.
+    (tested, ungated), so the life in repeats cannot exceed what repetition
+    gives. With a gate, the junction of the residue's end and start is read
+    without it (a reversal there smaller than the gate adds a small cycle:
+    the conservative side).
     """
     seq, half_damage, closed, half_rows = _dk.residue_parts(
         table.stress_from, table.stress_to, table.count, per_cycle)
