@@ -3,8 +3,12 @@
 The request is validated in full before a job is queued (bad input is a 4xx
 at once, never a failed job); the job then counts and assesses point by
 point, recording progress in the ``jobs`` table, and ends ``done`` with the
-assessment's id or ``failed`` with problem details. Jobs of a process that
-stopped are marked failed at the next start (``fail_interrupted_jobs``).
+assessment's id or ``failed`` with problem details. Each job keeps what
+re-runs it (its request, and a file of its inline inputs, removed when it
+ends), so the jobs of a process that stopped are queued again at the next
+start (:meth:`JobRunner.resume`): none accepted with 202 is lost, and one
+interrupted mid-way starts over (results are stored in one transaction at
+the end, so nothing half-made remains).
 """
 
 from __future__ import annotations
@@ -19,6 +23,17 @@ from service.engine.errors import EngineError
 from service.store import sqlite
 
 log = logging.getLogger("cycleledger.jobs")
+
+
+def _drop_input(con, data_dir, job_id: str) -> None:
+    """Remove an ended job's input file (its result or its error is stored)."""
+    from service.store import parquet
+
+    row = con.execute("SELECT input_file FROM jobs WHERE id = ?", (job_id,)).fetchone()
+    if row is not None and row[0]:
+        with sqlite.write(con):
+            con.execute("UPDATE jobs SET input_file = NULL WHERE id = ?", (job_id,))
+        parquet.remove(data_dir, row[0])
 
 
 class JobRunner:
@@ -51,6 +66,48 @@ class JobRunner:
         return self.pool.submit(self._run, job_id, request, load_channels, duration_s,
                                 history_id, samples_file, project)
 
+    def resume(self, jobs: list[dict]) -> int:
+        """Queue again the jobs a stopped process left (``sqlite.interrupted_jobs``)."""
+        from service.store import parquet
+
+        for job in jobs:
+            stored, project = job["request"], job["project"]
+            if job["kind"] == "assessment":
+                names = stored["channels"]
+                if stored["history_id"]:
+                    def load(rel=stored["samples_file"], names=names):
+                        return parquet.read_channels(self.data_dir, rel, names)
+                else:
+                    def load(rel=job["input_file"], names=names):
+                        return parquet.read_channels(self.data_dir, rel, names)
+                self.submit_assessment(job["id"], stored["body"], load, stored["duration_s"],
+                                       stored["history_id"], stored["samples_file"],
+                                       project=project)
+            else:
+                con = sqlite.connect(self.data_dir)
+                try:
+                    unit_set = sqlite.get_unit_stress_set(con, project,
+                                                          stored["unit_stresses_id"])
+                    if unit_set is None:
+                        sqlite.update_job(con, job["id"], state="failed", error={
+                            "title": "Unit stresses deleted", "detail": "the unit stresses "
+                            "were deleted before the job ran"})
+                        _drop_input(con, self.data_dir, job["id"])
+                finally:
+                    con.close()
+                if unit_set is None:
+                    continue
+                import numpy as np
+
+                loads = parquet.read_channels(self.data_dir, job["input_file"],
+                                              unit_set["load_cases"])
+                checked = {**stored["checked"],
+                           "loads": np.stack([loads[c] for c in unit_set["load_cases"]])}
+                self.submit_superposition(job["id"], project, unit_set, checked)
+        if jobs:
+            log.info("queued again %d job(s) left by a stopped process", len(jobs))
+        return len(jobs)
+
     def _guarded(self, job_id: str, work, missing: dict) -> None:
         """Run ``work(con)`` as job ``job_id``: running, then done with what
         ``work`` returns ({column: value}) or failed with problem details.
@@ -71,6 +128,7 @@ class JobRunner:
                               error={"title": "Internal error",
                                      "detail": "the job failed; it has been logged"})
         finally:
+            _drop_input(con, self.data_dir, job_id)
             con.close()
 
     @staticmethod

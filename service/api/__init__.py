@@ -65,13 +65,14 @@ def create_app(test_config: dict | None = None) -> Flask:
     con = sqlite.connect(data_dir)
     try:
         parquet.sweep(data_dir, sqlite.referenced_files(con))
-        sqlite.fail_interrupted_jobs(con)
+        interrupted = sqlite.interrupted_jobs(con)
     finally:
         con.close()
     from service.jobs import JobRunner
 
     app.extensions["cycleledger.jobs"] = JobRunner(data_dir, int(app.config["JOB_WORKERS"]),
                                                    app.config["DASK_SCHEDULER"])
+    app.extensions["cycleledger.jobs"].resume(interrupted)
     if app.config["WARM_KERNELS"]:
         from service.engine.rainflow import warm_up
         from service.engine.damage import warm_up as warm_damage

@@ -18,6 +18,9 @@ from .problems import ApiProblem, NotAcceptable, NotFound, TooManyJobs
 
 bp = Blueprint("assessments", __name__)
 
+#: Folder of the inputs a queued job keeps until it ends.
+JOB_INPUTS = "jobs"
+
 #: Columns of the per-point summary table (JSON fields and CSV header alike).
 SUMMARY_COLUMNS = ("point", "damage", "damage_per_repeat", "life_repeats", "life_hours",
                    "life_cycles", "reserve_factor", "reserve_limited_by", "equivalent_range",
@@ -86,7 +89,7 @@ def create():
     planned = runs.plan(body, dict.fromkeys(names), runs.store_lookup(db(), project()), units)
     if samples * len(planned) > current_app.config["ASYNC_SAMPLES"] or _prefers_async():
         return _queue(body, channels, duration, hid, len(planned),
-                      hist["file"] if hid else None)
+                      hist["file"] if hid else None, names)
     row = runs.run(db(), data_dir(), body, channels(), duration, hid,
                    samples_file=hist["file"] if hid else None,
                    lookup=runs.store_lookup(db(), project()), project=project())
@@ -99,16 +102,27 @@ def _prefers_async() -> bool:
                for h in request.headers.getlist("Prefer") for p in h.split(","))
 
 
-def _queue(body, channels, duration, hid, n_points, samples_file):
+def _queue(body, channels, duration, hid, n_points, samples_file, names):
     job_id = sqlite.new_id("j")
     con = db()
     limit = current_app.config["MAX_QUEUED_JOBS"]
-    with sqlite.write(con):
-        waiting = sqlite.count_jobs(con, ("queued", "running"))
-        if waiting >= limit:
-            raise TooManyJobs(f"{waiting} jobs are queued or running (limit {limit}); "
-                              f"retry later", retry_after_s=5, limit=limit)
-        sqlite.insert_job(con, project(), job_id, "assessment", n_points)
+    # What re-runs the job after a restart: the request, and inline samples
+    # (already in MPa) in a file of their own, removed when the job ends.
+    stored = {"body": {k: v for k, v in body.items() if k != "samples"}, "history_id": hid,
+              "samples_file": samples_file, "duration_s": duration, "channels": names}
+    input_file = None if hid else parquet.write_columns(data_dir(), JOB_INPUTS, job_id,
+                                                        channels())
+    try:
+        with sqlite.write(con):
+            waiting = sqlite.count_jobs(con, ("queued", "running"))
+            if waiting >= limit:
+                raise TooManyJobs(f"{waiting} jobs are queued or running (limit {limit}); "
+                                  f"retry later", retry_after_s=5, limit=limit)
+            sqlite.insert_job(con, project(), job_id, "assessment", n_points, stored,
+                              input_file)
+    except BaseException:
+        parquet.remove(data_dir(), input_file)
+        raise
     current_app.extensions["cycleledger.jobs"].submit_assessment(
         job_id, body, channels, duration, hid, samples_file, project=project())
     return created(job_resource(sqlite.get_job(con, project(), job_id)), 202)

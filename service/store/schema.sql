@@ -1,6 +1,6 @@
 -- Metadata of the embedded store. Long arrays live in Parquet files beside
 -- the database; a row here names its file. Times are UTC ISO 8601 strings.
-PRAGMA user_version = 6;
+PRAGMA user_version = 7;
 
 -- Every stored thing belongs to a project (a namespace); an API key sees
 -- its own project's rows only. Without keys the service runs as project
@@ -58,7 +58,9 @@ CREATE TABLE IF NOT EXISTS jobs (
     points_done     INTEGER NOT NULL DEFAULT 0,
     assessment_id   TEXT,
     superposition_id TEXT,
-    error           TEXT             -- JSON problem details when failed
+    error           TEXT,            -- JSON problem details when failed
+    request         TEXT,            -- JSON: what re-runs the job after a restart
+    input_file      TEXT             -- Parquet: inline samples or loads the job reads
 );
 
 -- Finite-element unit-load stresses (per node and load case) and the

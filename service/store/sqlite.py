@@ -60,26 +60,40 @@ def connect(data_dir: str | Path) -> sqlite3.Connection:
 
 
 #: Version of schema.sql (its PRAGMA user_version).
-SCHEMA_VERSION = 6
+SCHEMA_VERSION = 7
 
 
 class IncompatibleStore(RuntimeError):
     """The data directory was written by another version of the schema."""
 
 
-def init(data_dir: str | Path) -> None:
-    """Create the tables if they are missing; refuse a directory of another schema."""
+def init(data_dir: str | Path) -> list[int]:
+    """Create the tables if they are missing and upgrade a directory of an
+    earlier schema in place (``migrations``); refuse one this service cannot
+    read. Returns the migrations applied."""
+    from .migrations import OLDEST, migrate
+
     con = connect(data_dir)
     try:
         version = con.execute("PRAGMA user_version").fetchone()[0]
         has_tables = con.execute("SELECT count(*) FROM sqlite_master WHERE type = 'table'"
                                  ).fetchone()[0]
+        applied = []
         if has_tables and version != SCHEMA_VERSION:
-            raise IncompatibleStore(
-                f"{Path(data_dir) / DB_NAME} has schema version {version}; this service "
-                f"needs {SCHEMA_VERSION} (a pre-release data directory: move it away or "
-                f"start with another --data-dir)")
+            if version > SCHEMA_VERSION or version < OLDEST:
+                raise IncompatibleStore(
+                    f"{Path(data_dir) / DB_NAME} has schema version {version}; this service "
+                    f"reads {OLDEST} to {SCHEMA_VERSION} ("
+                    + ("a newer service wrote it" if version > SCHEMA_VERSION else
+                       "a pre-release data directory: move it away or start with another "
+                       "--data-dir") + ")")
+            # New tables first (CREATE IF NOT EXISTS), then the steps that
+            # change existing ones; the version is set by the steps.
+            script = resources.files(__package__).joinpath("schema.sql").read_text()
+            con.executescript(script.replace(f"PRAGMA user_version = {SCHEMA_VERSION};", ""))
+            applied = migrate(con, version, SCHEMA_VERSION)
         con.executescript(resources.files(__package__).joinpath("schema.sql").read_text())
+        return applied
     finally:
         con.close()
 
@@ -203,11 +217,15 @@ def list_assessments(con, project: str, limit: int = 100, offset: int = 0) -> li
 JOB_STATES = ("queued", "running", "done", "failed")
 
 
-def insert_job(con, project: str, job_id: str, kind: str, points_total: int) -> None:
+def insert_job(con, project: str, job_id: str, kind: str, points_total: int,
+               request: dict | None = None, input_file: str | None = None) -> None:
+    """A queued job, with what re-runs it after a restart (``request``, JSON,
+    and the Parquet ``input_file`` of inline inputs)."""
     t = now()
     con.execute("INSERT INTO jobs (id, project, kind, state, created_at, updated_at, "
-                "points_total) VALUES (?, ?, ?, 'queued', ?, ?, ?)",
-                (job_id, project, kind, t, t, points_total))
+                "points_total, request, input_file) VALUES (?, ?, ?, 'queued', ?, ?, ?, ?, ?)",
+                (job_id, project, kind, t, t, points_total,
+                 None if request is None else json.dumps(request), input_file))
 
 
 def update_job(con, job_id: str, **fields) -> None:
@@ -244,18 +262,31 @@ def referenced_files(con) -> set[str]:
     out = set()
     for sql in ("SELECT file FROM histories", "SELECT file FROM blocks",
                 "SELECT samples_file FROM assessments WHERE samples_file IS NOT NULL",
-                "SELECT file FROM unit_stress_sets", "SELECT nodes_file FROM superpositions"):
+                "SELECT file FROM unit_stress_sets", "SELECT nodes_file FROM superpositions",
+                "SELECT input_file FROM jobs WHERE input_file IS NOT NULL"):
         out.update(r[0] for r in con.execute(sql))
     return out
 
 
-def fail_interrupted_jobs(con) -> int:
-    """Jobs a stopped process left queued or running can never finish: fail them."""
+def interrupted_jobs(con) -> list[dict]:
+    """Jobs a stopped process left queued or running: those that kept their
+    request are queued again (returned, oldest first, to be resubmitted);
+    the others (made before jobs kept it) are failed with a reason."""
     err = json.dumps({"title": "Interrupted", "detail": "the service stopped before the "
                       "job finished; post the assessment again"})
     with write(con):
-        return con.execute("UPDATE jobs SET state = 'failed', error = ?, updated_at = ? "
-                           "WHERE state IN ('queued', 'running')", (err, now())).rowcount
+        con.execute("UPDATE jobs SET state = 'failed', error = ?, updated_at = ? "
+                    "WHERE state IN ('queued', 'running') AND request IS NULL", (err, now()))
+        con.execute("UPDATE jobs SET state = 'queued', points_done = 0, updated_at = ? "
+                    "WHERE state IN ('queued', 'running')", (now(),))
+    rows = con.execute("SELECT * FROM jobs WHERE state = 'queued' ORDER BY created_at"
+                       ).fetchall()
+    out = []
+    for r in rows:
+        job = dict(r)
+        job["request"] = json.loads(job["request"])
+        out.append(job)
+    return out
 
 
 # ---------------------------------------------------------------- FE superposition

@@ -1,0 +1,53 @@
+"""Forward migrations of the embedded store, numbered by schema version.
+
+``MIGRATIONS[v]`` takes a database of version ``v - 1`` to ``v``. At start
+the missing ones are applied in order, in one transaction with the new
+``PRAGMA user_version`` (all or nothing: a failed upgrade leaves the data
+directory as it was). A directory newer than this service, or older than the
+oldest migration, is refused with a message.
+"""
+
+from __future__ import annotations
+
+import sqlite3
+
+
+def _columns(con, table: str) -> set[str]:
+    return {r[1] for r in con.execute(f"PRAGMA table_info({table})")}
+
+
+def _to_7(con) -> None:
+    """Jobs keep what re-runs them after a restart (``request``, ``input_file``).
+
+    Schema 6 gained ``jobs.superposition_id`` (and the superposition tables,
+    made by ``schema.sql`` itself) after directories of version 6 existed,
+    without a version of its own: such a directory gets the column here.
+    """
+    have = _columns(con, "jobs")
+    for column in ("superposition_id", "request", "input_file"):
+        if column not in have:
+            con.execute(f"ALTER TABLE jobs ADD COLUMN {column} TEXT")
+
+
+#: version -> the step from the version before it.
+MIGRATIONS = {7: _to_7}
+#: The oldest version a directory may have to be upgraded.
+OLDEST = min(MIGRATIONS) - 1
+
+
+def migrate(con: sqlite3.Connection, have: int, want: int) -> list[int]:
+    """Apply migrations ``have + 1 .. want`` in one transaction; the
+    versions applied. ``con`` is in autocommit mode (isolation_level None)."""
+    steps = list(range(have + 1, want + 1))
+    if not steps:
+        return []
+    con.execute("BEGIN IMMEDIATE")
+    try:
+        for v in steps:
+            MIGRATIONS[v](con)
+        con.execute(f"PRAGMA user_version = {int(want)}")
+        con.execute("COMMIT")
+    except BaseException:
+        con.execute("ROLLBACK")
+        raise
+    return steps
