@@ -8,6 +8,8 @@ post     upload a recording to a running service, assess it, print the table
 report   write an assessment's or an asset's HTML page (plots, tables, cautions)
 curves   list the published S-N curves the catalogue holds
 serve    run the HTTP service on embedded storage
+keys     make, list and revoke API keys
+backup   copy a data directory, also while the service runs; restore, check
 
 One module a subcommand (``assess``, ``remote`` for post and report, ``demo``,
 ``serve``, ``keys``, ``batch`` with curves); ``main`` builds the parser.
@@ -19,6 +21,7 @@ import argparse
 import sys
 
 from ._shared import _recording_args, _version
+from .admin import add_parsers as add_admin_parsers
 from .assess import _cmd_assess
 from .batch import _cmd_batch, _cmd_curves
 from .demo import _cmd_demo
@@ -112,12 +115,13 @@ def main(argv=None) -> int:
                    help="requests a key may send at once above its rate (default 100)")
     p.set_defaults(func=_cmd_serve)
     _keys_parser(sub)
+    add_admin_parsers(sub)
     args = parser.parse_args(argv)
     from service.engine.errors import EngineError
 
     try:
         return args.func(args)
-    except (EngineError, FileNotFoundError) as exc:
+    except (EngineError, FileNotFoundError, FileExistsError) as exc:
         print(f"error: {exc}", file=sys.stderr)
         return 2
 
