@@ -157,3 +157,31 @@ def test_version(capsys):
         main(["--version"])
     assert done.value.code == 0
     assert capsys.readouterr().out.strip() == f"cycleledger {service.__version__}"
+
+
+def test_serve_options_from_command_line_environment_file_and_defaults(tmp_path):
+    # Precedence (README "Operating the service"): command line, then
+    # CYCLELEDGER_<NAME>, then the [serve] table of --config, then defaults.
+    import argparse
+
+    from service.cli.serve import SERVE_OPTIONS, resolve_serve_options
+
+    toml = tmp_path / "cycleledger.toml"
+    toml.write_text('[serve]\nport = 9001\nthreads = 4\nmax_upload_mb = 64\n'
+                    'data_dir = "/srv/a"\n')
+    args = argparse.Namespace(config=str(toml), **dict.fromkeys(SERVE_OPTIONS))
+    args.threads = 2
+    env = {"CYCLELEDGER_PORT": "9002", "CYCLELEDGER_RATE_PER_S": "5"}
+    got = resolve_serve_options(args, env)
+    assert got["threads"] == 2                 # command line
+    assert got["port"] == 9002                 # environment over file
+    assert got["rate_per_s"] == 5.0            # environment
+    assert got["max_upload_mb"] == 64.0 and got["data_dir"] == "/srv/a"   # file
+    assert got["host"] == "127.0.0.1" and got["max_queued_jobs"] == 16    # defaults
+    with pytest.raises(ValueError) as err:
+        resolve_serve_options(args, {"CYCLELEDGER_PORT": "eighty"})
+    assert "CYCLELEDGER_PORT" in str(err.value)
+    toml.write_text("[serve]\nprot = 1\n")
+    with pytest.raises(ValueError) as err:
+        resolve_serve_options(args, {})
+    assert "prot" in str(err.value)

@@ -27,7 +27,7 @@ from .batch import _cmd_batch, _cmd_curves
 from .demo import _cmd_demo
 from .keys import _keys_parser
 from .remote import _cmd_post, _cmd_report
-from .serve import _cmd_serve
+from .serve import _cmd_serve, serve_arguments
 # The functions scripts and tests import from ``service.cli``.
 from .assess import assess_file
 from ._shared import print_report
@@ -88,31 +88,13 @@ def main(argv=None) -> int:
     p.set_defaults(func=_cmd_batch)
     p = sub.add_parser("curves", help="list the catalogue of published S-N curves")
     p.set_defaults(func=_cmd_curves)
-    p = sub.add_parser("serve", help="run the HTTP service (gunicorn, one process, threads)")
-    p.add_argument("--host", default="127.0.0.1", help="address to listen on")
-    p.add_argument("--port", type=int, default=8350)
-    p.add_argument("--data-dir", dest="data_dir",
-                   help="data directory (default: $CYCLELEDGER_DATA_DIR or ./cycleledger-data)")
-    p.add_argument("--threads", type=int, default=8, help="request threads")
-    p.add_argument("--job-workers", dest="job_workers", type=int,
-                   help="threads running large assessments (default 1)")
-    p.add_argument("--max-upload-mb", dest="max_upload_mb", type=float,
-                   help="largest request body; larger ones get 413 (default 512)")
-    p.add_argument("--async-samples", dest="async_samples", type=int,
-                   help="samples x points above which an assessment becomes a job "
-                        "(default 2000000)")
-    p.add_argument("--scheduler", help="Dask scheduler address: jobs' points run on that "
-                   "cluster (default: $CYCLELEDGER_DASK_SCHEDULER, else in this process)")
-    p.add_argument("--max-channels", dest="max_channels", type=int,
-                   help="channels in one request; more get 413 (default 256)")
-    p.add_argument("--max-samples-per-channel", dest="max_samples_per_channel", type=int,
-                   help="samples in one channel of a request; more get 413 (default 2e8)")
-    p.add_argument("--max-queued-jobs", dest="max_queued_jobs", type=int,
-                   help="jobs queued or running before new ones get 429 (default 16)")
-    p.add_argument("--rate-per-s", dest="rate_per_s", type=float,
-                   help="requests a second per API key before 429 (default 50; 0: no limit)")
-    p.add_argument("--rate-burst", dest="rate_burst", type=float,
-                   help="requests a key may send at once above its rate (default 100)")
+    p = sub.add_parser("serve", help="run the HTTP service (gunicorn, one process, threads)",
+                       description="Every option may also come from the environment "
+                       "(CYCLELEDGER_<OPTION>, e.g. CYCLELEDGER_PORT) or from a TOML file "
+                       "(--config, a [serve] table with the options' names, e.g. port = 8350);"
+                       " the command line wins over the environment, which wins over the "
+                       "file, which wins over the defaults.")
+    serve_arguments(p)
     p.set_defaults(func=_cmd_serve)
     _keys_parser(sub)
     add_admin_parsers(sub)

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import argparse
 import os
 import sys
 
@@ -52,6 +53,74 @@ def waitress_options(app) -> dict:
             "recv_bytes": 2**22}
 
 
+#: Options of ``serve``: name -> (type, default, help). Defaults apply last:
+#: command line, then environment (CYCLELEDGER_<NAME>), then the TOML file.
+SERVE_OPTIONS = {
+    "host": (str, "127.0.0.1", "address to listen on"),
+    "port": (int, 8350, "port to listen on"),
+    "data_dir": (str, "cycleledger-data", "data directory"),
+    "threads": (int, 8, "request threads"),
+    "job_workers": (int, 1, "threads running large assessments"),
+    "max_upload_mb": (float, 512.0, "largest request body; larger ones get 413"),
+    "async_samples": (int, 2_000_000, "samples x points above which an assessment becomes "
+                                      "a job"),
+    "scheduler": (str, None, "Dask scheduler address: jobs' points run on that cluster "
+                             "(default: in this process)"),
+    "max_channels": (int, 256, "channels in one request; more get 413"),
+    "max_samples_per_channel": (int, 200_000_000, "samples in one channel of a request; "
+                                                  "more get 413"),
+    "max_queued_jobs": (int, 16, "jobs queued or running before new ones get 429"),
+    "rate_per_s": (float, 50.0, "requests a second per API key before 429 (0: no limit)"),
+    "rate_burst": (float, 100.0, "requests a key may send at once above its rate"),
+}
+
+
+def serve_arguments(p) -> None:
+    """The options of ``serve`` (each also from the environment and a file)."""
+    p.add_argument("--config", help="a TOML file with a [serve] table of these options")
+    for name, (kind, default, text) in SERVE_OPTIONS.items():
+        p.add_argument("--" + name.replace("_", "-"), dest=name, type=kind, default=None,
+                       help=f"{text} (default {default}; env CYCLELEDGER_{name.upper()})")
+
+
+def resolve_serve_options(args, environ=None) -> dict:
+    """Every serve option from the command line, else the environment
+    (``CYCLELEDGER_<NAME>``), else the ``[serve]`` table of ``--config``,
+    else its default. Raises ValueError naming a bad value and where it
+    came from."""
+    import tomllib
+
+    environ = os.environ if environ is None else environ
+    table = {}
+    if getattr(args, "config", None):
+        with open(args.config, "rb") as f:
+            table = tomllib.load(f).get("serve", {})
+        unknown = set(table) - set(SERVE_OPTIONS)
+        if unknown:
+            raise ValueError(f"{args.config}: unknown serve option(s) {sorted(unknown)}; "
+                             f"known: {sorted(SERVE_OPTIONS)}")
+    out = {}
+    for name, (kind, default, _) in SERVE_OPTIONS.items():
+        given = getattr(args, name, None)
+        env = environ.get(f"CYCLELEDGER_{name.upper()}")
+        if given is not None:
+            out[name] = given
+            continue
+        for source, value in ((f"CYCLELEDGER_{name.upper()}", env),
+                              (args.config if table else "", table.get(name))):
+            if value is None:
+                continue
+            try:
+                out[name] = kind(value)
+            except (TypeError, ValueError):
+                raise ValueError(f"{name} {value!r} from {source} is not a "
+                                 f"{kind.__name__}") from None
+            break
+        else:
+            out[name] = default
+    return out
+
+
 def _cmd_serve(args) -> int:
     import logging
 
@@ -61,7 +130,13 @@ def _cmd_serve(args) -> int:
 
     from service.store import keys, sqlite
 
-    data_dir = args.data_dir or os.environ.get("CYCLELEDGER_DATA_DIR", "cycleledger-data")
+    try:
+        opts = resolve_serve_options(args)
+    except (OSError, ValueError) as exc:
+        print(f"error: {exc}", file=sys.stderr)
+        return 2
+    args = argparse.Namespace(**{**vars(args), **opts})
+    data_dir = args.data_dir
     sqlite.init(data_dir)
     con = sqlite.connect(data_dir)
     try:
@@ -77,24 +152,14 @@ def _cmd_serve(args) -> int:
         return 2
 
     logging.basicConfig(level=logging.INFO, format="%(asctime)s %(name)s %(message)s")
-    config = {"DATA_DIR": args.data_dir} if args.data_dir else {}
-    if args.max_upload_mb is not None:
-        config["MAX_UPLOAD_MB"] = args.max_upload_mb
-    if args.job_workers is not None:
-        config["JOB_WORKERS"] = args.job_workers
-    if args.async_samples is not None:
-        config["ASYNC_SAMPLES"] = args.async_samples
-    for flag, setting in (("max_channels", "MAX_CHANNELS"),
-                          ("max_samples_per_channel", "MAX_SAMPLES_PER_CHANNEL"),
-                          ("max_queued_jobs", "MAX_QUEUED_JOBS")):
-        if getattr(args, flag) is not None:
-            config[setting] = getattr(args, flag)
+    config = {"DATA_DIR": args.data_dir, "MAX_UPLOAD_MB": args.max_upload_mb,
+              "JOB_WORKERS": args.job_workers, "ASYNC_SAMPLES": args.async_samples,
+              "MAX_CHANNELS": args.max_channels,
+              "MAX_SAMPLES_PER_CHANNEL": args.max_samples_per_channel,
+              "MAX_QUEUED_JOBS": args.max_queued_jobs, "RATE_PER_S": args.rate_per_s,
+              "RATE_BURST": args.rate_burst}
     if args.scheduler:
         config["DASK_SCHEDULER"] = args.scheduler
-    if args.rate_per_s is not None:
-        config["RATE_PER_S"] = args.rate_per_s
-    if args.rate_burst is not None:
-        config["RATE_BURST"] = args.rate_burst
     access = ("API keys required" if keyed else
               "OPEN: no API keys, so it answers clients on this machine without one")
 
