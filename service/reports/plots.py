@@ -14,12 +14,10 @@ import io
 import math
 
 import matplotlib
+import numpy as np
+from matplotlib.figure import Figure
 
-matplotlib.use("Agg")  # no display; must precede pyplot
-import matplotlib.pyplot as plt  # noqa: E402
-import numpy as np  # noqa: E402
-
-from service.engine import histograms  # noqa: E402
+from service.engine import histograms
 
 #: The report's own palette: ink, teal, amber, rose, and a pale ground.
 INK, TEAL, AMBER, ROSE, GROUND = "#23313b", "#17707f", "#d48a0b", "#b0384f", "#eef3f4"
@@ -29,7 +27,16 @@ _STYLE = {
     "axes.facecolor": "white", "figure.facecolor": "white", "axes.grid": True,
     "grid.color": "#d5dee0", "grid.linewidth": 0.6, "axes.spines.top": False,
     "axes.spines.right": False, "svg.fonttype": "none",
+    # Element ids from a fixed salt: the same plot is the same bytes (for
+    # caches, and for the test that threads draw what they draw in turn).
+    "svg.hashsalt": "cycleledger",
 }
+# Figures are made with matplotlib's object API (``Figure``), never pyplot:
+# pyplot's figure manager and a temporary rc_context are process-wide state,
+# and two request threads drawing at once changed each other's style. The
+# report's style is set here once, when the module loads, and never changed
+# after, so every thread reads the same settings.
+matplotlib.rcParams.update(_STYLE)
 
 
 def envelope(x: np.ndarray, columns: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -50,20 +57,17 @@ def envelope(x: np.ndarray, columns: int) -> tuple[np.ndarray, np.ndarray, np.nd
 
 
 def render(fig, fmt: str = "svg") -> bytes:
-    """The figure as SVG or PNG bytes; the figure is closed."""
+    """The figure as SVG or PNG bytes (a ``Figure`` needs no closing: it is
+    not registered with pyplot, and goes with its last reference)."""
     buf = io.BytesIO()
-    try:
-        fig.savefig(buf, format=fmt, dpi=110, bbox_inches="tight",
-                    metadata={"Date": None} if fmt == "svg" else None)
-    finally:
-        plt.close(fig)
+    fig.savefig(buf, format=fmt, dpi=110, bbox_inches="tight",
+                metadata={"Date": None} if fmt == "svg" else None)
     return buf.getvalue()
 
 
 def _figure(w=7.0, h=2.6):
-    with plt.rc_context(_STYLE):
-        fig, ax = plt.subplots(figsize=(w, h))
-    return fig, ax
+    fig = Figure(figsize=(w, h))
+    return fig, fig.subplots()
 
 
 #: Colours of the screening findings marked on a history.
@@ -80,9 +84,8 @@ def history(samples: dict[str, np.ndarray], sample_rate_hz: float | None,
     grey), with the kinds named in the row's label.
     """
     names = list(samples)
-    with plt.rc_context(_STYLE):
-        fig, axes = plt.subplots(len(names), 1, figsize=(7.0, 1.3 + 1.1 * len(names)),
-                                 sharex=True, squeeze=False)
+    fig = Figure(figsize=(7.0, 1.3 + 1.1 * len(names)))
+    axes = fig.subplots(len(names), 1, sharex=True, squeeze=False)
     for ax, name in zip(axes[:, 0], names):
         idx, lo, hi = envelope(samples[name], columns)
         t = idx / sample_rate_hz if sample_rate_hz else idx

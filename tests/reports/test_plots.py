@@ -64,3 +64,22 @@ def test_each_plot_renders(assessed, kind, fmt):
         assert text.count("<path") > 5
     else:
         assert out[:8] == b"\x89PNG\r\n\x1a\n" and len(out) > 5000
+
+
+def test_plots_drawn_from_threads_at_once_equal_those_drawn_in_turn():
+    # Issue 18: figures come from matplotlib's object API and one fixed
+    # style, so threads drawing at once cannot change each other's output.
+    from concurrent.futures import ThreadPoolExecutor
+
+    from service.reports import plots
+
+    rng = np.random.default_rng(3)
+    xs = [rng.standard_normal(5000) * (10 + 5 * i) for i in range(8)]
+
+    def draw(i):
+        return plots.render(plots.history({f"g{i}": xs[i]}, 100.0), "svg")
+
+    alone = [draw(i) for i in range(8)]
+    with ThreadPoolExecutor(4) as pool:
+        together = list(pool.map(draw, range(8)))
+    assert together == alone
