@@ -6,7 +6,7 @@ from flask import Blueprint, Response, request
 
 from service.reports import build
 
-from . import data_dir, db
+from . import caching, data_dir, db
 from .assessments import load as load_assessment, resource as assessment_resource
 from .ledger import _asset, _point
 from .problems import ApiProblem, NotAcceptable, NotFound
@@ -37,9 +37,12 @@ def _html(text: str) -> Response:
 
 @bp.get("/v1/assessments/<assessment_id>/report")
 def assessment_report(assessment_id: str):
-    """A self-contained HTML page: summary, plots, settings and sources, cautions."""
-    row = load_assessment(assessment_id)
-    return _html(build.assessment_page(db(), data_dir(), row, assessment_resource(row)))
+    """A self-contained HTML page: summary, plots, settings and sources, cautions.
+    Fixed once made: a strong ETag, and 304 to ``If-None-Match``."""
+    row = load_assessment(assessment_id)  # 404 (or another project's: 404) first
+    etag = caching.etag_of("text/html")
+    return caching.not_modified(etag) or caching.immutable(
+        _html(build.assessment_page(db(), data_dir(), row, assessment_resource(row))), etag)
 
 
 @bp.get("/v1/assessments/<assessment_id>/plots/<plot>")
@@ -55,9 +58,13 @@ def assessment_plot(assessment_id: str, plot: str):
         if point not in points:
             raise ApiProblem(f"plot {plot!r} is per point: give point (one of "
                              f"{', '.join(points)})", field="point", valid=list(points))
+    etag = caching.etag_of(_IMAGE[fmt])
+    unchanged = caching.not_modified(etag)
+    if unchanged is not None:
+        return unchanged
     body = build.assessment_plot(db(), data_dir(), row, assessment_resource(row), plot,
                                  point, fmt)
-    return Response(body, mimetype=_IMAGE[fmt])
+    return caching.immutable(Response(body, mimetype=_IMAGE[fmt]), etag)
 
 
 @bp.get("/v1/assets/<asset>/report")

@@ -18,13 +18,30 @@ ASSESSMENT_PLOTS = {"damage": False, "history": False, "exceedance": False, "sn"
                     "range-mean": True}
 
 
-def _samples(con, data_dir, row: dict, point: str):
-    return runs.point_samples(data_dir, row, point, con)
+class _Reads:
+    """A point's samples and recounted cycles, read once for all the plots
+    of one page (a page draws each point's cycles in three plots)."""
+
+    def __init__(self, con, data_dir, row: dict):
+        self.con, self.data_dir, self.row = con, data_dir, row
+        self._samples, self._cycles = {}, {}
+
+    def samples(self, point: str):
+        if point not in self._samples:
+            self._samples[point] = runs.point_samples(self.data_dir, self.row, point, self.con)
+        return self._samples[point]
+
+    def cycles(self, point: str):
+        if point not in self._cycles:
+            self._cycles[point] = runs.point_cycles(self.data_dir, self.row, point, self.con)
+        return self._cycles[point]
 
 
 def assessment_plot(con, data_dir, row: dict, resource: dict, name: str,
-                    point: str | None, fmt: str = "svg") -> bytes:
-    """One plot of an assessment as SVG or PNG bytes."""
+                    point: str | None, fmt: str = "svg", reads: _Reads | None = None) -> bytes:
+    """One plot of an assessment as SVG or PNG bytes (``reads``: the page's
+    shared reads, when drawing a whole page)."""
+    reads = reads or _Reads(con, data_dir, row)
     points = resource["points"]
     if name == "damage":
         fig = plots.damage_by_point({p: v["damage"] for p, v in points.items()},
@@ -33,16 +50,15 @@ def assessment_plot(con, data_dir, row: dict, resource: dict, name: str,
     elif name == "history":
         rate = None
         if resource.get("duration_s"):
-            n = len(_samples(con, data_dir, row, next(iter(points))))
+            n = len(reads.samples(next(iter(points))))
             rate = n / resource["duration_s"]
-        fig = plots.history({p: _samples(con, data_dir, row, p) for p in points}, rate,
+        fig = plots.history({p: reads.samples(p) for p in points}, rate,
                             findings={p: (v.get("screening") or {}).get("findings") or []
                                       for p, v in points.items()})
     elif name == "exceedance":
-        fig = plots.exceedance({p: runs.point_cycles(data_dir, row, p, con)[0]
-                                for p in points})
+        fig = plots.exceedance({p: reads.cycles(p)[0] for p in points})
     else:
-        table, dmg = runs.point_cycles(data_dir, row, point, con)
+        table, dmg = reads.cycles(point)
         if name == "sn":
             curve, _, _ = point_from_dict(points[point]["settings_used"])
             fig = plots.sn_with_spectrum(curve, table, dmg)
@@ -52,13 +68,16 @@ def assessment_plot(con, data_dir, row: dict, resource: dict, name: str,
 
 
 def assessment_page(con, data_dir, row: dict, resource: dict) -> str:
+    reads = _Reads(con, data_dir, row)
     svgs = {}
     for name, per_point in ASSESSMENT_PLOTS.items():
         if per_point:
             for p in resource["points"]:
-                svgs[f"{name}-{p}"] = assessment_plot(con, data_dir, row, resource, name, p)
+                svgs[f"{name}-{p}"] = assessment_plot(con, data_dir, row, resource, name, p,
+                                                      reads=reads)
         else:
-            svgs[name] = assessment_plot(con, data_dir, row, resource, name, None)
+            svgs[name] = assessment_plot(con, data_dir, row, resource, name, None,
+                                         reads=reads)
     return pages.assessment_page(resource, svgs)
 
 

@@ -159,3 +159,23 @@ def test_screening_findings_on_the_page_and_marked_on_the_history(client):
     assert "id='screening'" in page and "data-kind='spike'" in page
     svg = client.get(f"/v1/assessments/{a['id']}/plots/history").get_data(as_text=True)
     assert "spike" in svg
+
+
+def test_reports_and_plots_are_cached_by_etag(client):
+    # Issue 18: what never changes once made has a strong ETag; a repeat
+    # with If-None-Match is 304 without drawing; another format is another
+    # representation (another ETag).
+    a = make_assessment(client)
+    r = client.get(f"/v1/assessments/{a['id']}/report")
+    etag = r.headers["ETag"]
+    assert r.status_code == 200 and etag and "immutable" in r.headers["Cache-Control"]
+    assert "private" in r.headers["Cache-Control"] and "Accept" in r.headers["Vary"]
+    again = client.get(f"/v1/assessments/{a['id']}/report", headers={"If-None-Match": etag})
+    assert again.status_code == 304 and again.data == b""
+    svg = client.get(f"/v1/assessments/{a['id']}/plots/damage?format=svg")
+    png = client.get(f"/v1/assessments/{a['id']}/plots/damage?format=png")
+    assert svg.headers["ETag"] != png.headers["ETag"]
+    assert client.get(f"/v1/assessments/{a['id']}/plots/damage?format=svg", headers={
+        "If-None-Match": svg.headers["ETag"]}).status_code == 304
+    # The same plot drawn again is the same bytes (what the ETag promises).
+    assert client.get(f"/v1/assessments/{a['id']}/plots/damage?format=svg").data == svg.data
