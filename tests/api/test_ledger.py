@@ -319,9 +319,23 @@ def test_metrics_exposition(client):
     text = client.get("/metrics").get_data(as_text=True)
     line = next(l for l in text.splitlines()
                 if l.startswith('cycleledger_point_damage{asset="arm",point="a"}'))
-    assert float(line.split()[-1]) == client.get("/v1/assets/arm/points/a").get_json()["damage"]
-    assert "# TYPE cycleledger_http_requests_total counter" in text
-    assert 'route="/v1/assets/<asset>/blocks",status="201"' in text
+    point = client.get("/v1/assets/arm/points/a").get_json()
+    assert float(line.split()[-1]) == point["damage"]
+    # prometheus_client's exposition (issue 18): latency histograms per route
+    # template and status, the build, the process, and per point what a
+    # silent rig is alerted on; units in the names.
+    assert "# TYPE cycleledger_http_request_duration_seconds histogram" in text
+    assert ('cycleledger_http_request_duration_seconds_count{method="POST",'
+            'route="/v1/assets/<asset>/blocks",status="201"} 1.0') in text
+    assert 'cycleledger_build_info{version="' in text
+    assert "process_cpu_seconds_total" in text
+    assert 'cycleledger_point_allowable_damage{asset="arm",point="a"} 1.0' in text
+    last = next(l for l in text.splitlines()
+                if l.startswith('cycleledger_point_last_block_timestamp_seconds{asset="arm"'))
+    assert abs(float(last.split()[-1]) - __import__("time").time()) < 600
+    rec = next(l for l in text.splitlines()
+               if l.startswith('cycleledger_point_recorded_seconds{asset="arm",point="a"}'))
+    assert float(rec.split()[-1]) == pytest.approx(point["recorded_hours"] * 3600)
     assert 'cycleledger_jobs{state="done"}' in text
 
 
