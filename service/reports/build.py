@@ -60,8 +60,10 @@ def assessment_plot(con, data_dir, row: dict, resource: dict, name: str,
     else:
         table, dmg = reads.cycles(point)
         if name == "sn":
-            curve, _, _ = point_from_dict(points[point]["settings_used"])
-            fig = plots.sn_with_spectrum(curve, table, dmg)
+            curve, opts, _ = point_from_dict(points[point]["settings_used"])
+            fig = plots.sn_with_spectrum(
+                curve, table, dmg, plots.entered_ranges(table, opts),
+                title=f"S-N curve and spectrum: point {point} (assessment {row['id']})")
         else:
             fig = plots.range_mean(table)
     return plots.render(fig, fmt)

@@ -140,36 +140,81 @@ def exceedance(tables: dict):
     return fig
 
 
-def sn_with_spectrum(curve, table, damage_per_cycle, corrected_range=None, bins: int = 20):
-    """The S-N curve, the counted spectrum, and each range bin's share of damage."""
+def entered_ranges(table, opts) -> np.ndarray:
+    """Each cycle's range as it enters the curve: the load factor on the
+    stresses, the mean-stress correction, then the thickness and strength
+    factors (what the damage used; ``inf`` for a static overload). [MPa]"""
+    from service.engine.mean_stress import equivalent_amplitude
+
+    lf = opts.load_factor
+    amp, _ = equivalent_amplitude(
+        table.stress_amplitude * lf, table.stress_mean * lf, opts.mean_stress_method,
+        ultimate_strength=opts.ultimate_strength, yield_strength=opts.yield_strength,
+        fatigue_strength_coefficient=opts.fatigue_strength_coefficient,
+        walker_exponent=opts.walker_exponent, compressive_mean=opts.compressive_mean)
+    return 2.0 * amp * opts.thickness_factor * opts.strength_factor
+
+
+def sn_with_spectrum(curve, table, damage_per_cycle, corrected_range=None, bins: int = 20,
+                     title: str | None = None):
+    """The S-N curve where the model defines it, the spectrum the damage
+    used, and each range bin's share of damage.
+
+    The curve is drawn from 1e3 cycles to its cut-off (then a dashed line
+    at the cut-off range: no damage below it) or on to 1e9 when it has none,
+    with its knees marked. ``corrected_range`` (see :func:`entered_ranges`)
+    is the spectrum plotted when given: the ranges as they enter the curve,
+    mean-corrected and factored; else the counted ranges.
+    """
     fig, ax = _figure(6.0, 4.0)
-    n = np.logspace(3, 9, 200)
+    end = curve.cutoff_cycles or 1e9
+    n = np.logspace(3, np.log10(end), 200)
     ax.loglog(n, curve.range_at(n), color=INK, linewidth=1.6, label=curve.name)
-    if len(table):
-        rng, cum = histograms.exceedance(table)
-        ax.step(np.maximum(cum, 1.0), rng, where="post", color=TEAL, label="counted spectrum")
-        edges = np.linspace(0.0, float(np.max(table.stress_range)) * 1.0001, bins + 1)
-        which = np.clip(np.searchsorted(edges, table.stress_range, side="right") - 1, 0,
-                        bins - 1)
-        finite = np.isfinite(damage_per_cycle)
+    knees = np.asarray(curve.knee_cycles, dtype=float)
+    if knees.size:
+        ax.plot(knees, curve.knee_ranges, "o", color=INK, markersize=4, label="knee")
+    if curve.cutoff_cycles:
+        ax.hlines(curve.cutoff_range, curve.cutoff_cycles, 1e10, colors=INK,
+                  linestyles="dashed", linewidth=1.0, label="cut-off: no damage below")
+    ranges = table.stress_range if corrected_range is None else np.asarray(corrected_range)
+    finite_ranges = ranges[np.isfinite(ranges)]
+    handles = []
+    if len(table) and finite_ranges.size:
+        order = np.argsort(-finite_ranges, kind="stable")
+        counts = table.count[np.isfinite(ranges)][order]
+        cum = np.cumsum(counts)
+        ax.step(np.maximum(cum, 1.0), finite_ranges[order], where="post", color=TEAL,
+                label=("spectrum as it enters the curve (mean-corrected, factored)"
+                       if corrected_range is not None else "counted spectrum"))
+        edges = np.linspace(0.0, float(finite_ranges.max()) * 1.0001, bins + 1)
+        which = np.clip(np.searchsorted(edges, np.where(np.isfinite(ranges), ranges, 0.0),
+                                        side="right") - 1, 0, bins - 1)
+        finite = np.isfinite(damage_per_cycle) & np.isfinite(ranges)
         share = np.bincount(which[finite], weights=damage_per_cycle[finite], minlength=bins)
         total = share.sum()
         if total > 0:
             ax2 = ax.twiny()
             ax2.barh(0.5 * (edges[1:] + edges[:-1]), 100 * share / total,
                      height=np.diff(edges) * 0.9, color=AMBER, alpha=0.55,
-                     label="damage share")
+                     label="share of damage by range bin")
             ax2.set_xlabel("share of damage by range bin [%]", color=AMBER)
             ax2.set_xlim(0, max(100 * share.max() / total * 1.6, 1.0))
             ax2.spines["top"].set_visible(True)
-    # Down to a third of the curve's cut-off (or its last knee): smaller
+            handles = ax2.get_legend_handles_labels()
+    # Down to a third of the curve's cut-off (or its range at 1e8): smaller
     # ranges do no damage and would only squash the plot.
     floor = curve.cutoff_range or float(curve.range_at(1e8))
     ax.set_ylim(bottom=max(floor / 3.0, 1e-3))
-    ax.set_xlabel("cycles")
-    ax.set_ylabel("stress range [MPa]")
-    ax.set_title("S-N curve and spectrum", color=INK, loc="left")
-    ax.legend(frameon=False, loc="lower left")
+    ax.set_xlim(1.0, 1e10)  # the spectrum's cumulative count starts at one cycle
+    ax.set_xlabel("cycles to failure / cumulative cycles [-] (log)")
+    ax.set_ylabel("stress range [MPa] (log)")
+    ax.set_title(title or "S-N curve and spectrum", color=INK, loc="left")
+    h, lab = ax.get_legend_handles_labels()
+    if handles:
+        h, lab = h + handles[0], lab + handles[1]
+    # Below the axes: inside, it would hide part of the curve or the bars.
+    ax.legend(h, lab, frameon=False, loc="upper center", bbox_to_anchor=(0.5, -0.16), ncol=2,
+              fontsize=7)
     return fig
 
 

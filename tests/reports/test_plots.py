@@ -83,3 +83,32 @@ def test_plots_drawn_from_threads_at_once_equal_those_drawn_in_turn():
     with ThreadPoolExecutor(4) as pool:
         together = list(pool.map(draw, range(8)))
     assert together == alone
+
+
+def test_sn_plot_draws_the_curve_where_defined_and_the_spectrum_the_damage_used():
+    # Issue 17: the curve stops at its cut-off (EN 1993-1-9: 1e8 cycles,
+    # eq. 7.2), with a dashed line below which nothing counts and its knee
+    # marked; the spectrum is the ranges as they enter the curve, so the
+    # damage of those ranges on the curve is the assessment's damage.
+    from service.engine.damage import AssessmentOptions
+    from service.engine.miner import palmgren_miner
+
+    curve = catalogue_curve("EN1993-1-9:71")
+    x = np.random.default_rng(5).standard_normal(3000) * 60 + 80
+    table = astm_e1049(x)
+    opts = AssessmentOptions(mean_stress_method="goodman", ultimate_strength=500.0,
+                             load_factor=1.1, strength_factor=1.2)
+    r = assess(table, curve, opts)
+    entered = plots.entered_ranges(table, opts)
+    d = palmgren_miner(table.count, curve.cycles_to_failure(entered)).sum()
+    assert d == pytest.approx(r.damage, rel=1e-9)
+    fig = plots.sn_with_spectrum(curve, table, r.damage_per_cycle, entered, title="p")
+    ax = fig.axes[0]
+    line = ax.get_lines()[0]
+    assert line.get_xdata()[-1] == pytest.approx(1e8)           # stops at the cut-off
+    labels = ax.get_legend().get_texts()
+    text = [t.get_text() for t in labels]
+    assert "knee" in text and any("cut-off" in t for t in text)
+    assert any("mean-corrected" in t for t in text)
+    spectrum = next(l for l in ax.get_lines() if "spectrum" in l.get_label())
+    assert max(spectrum.get_ydata()) == pytest.approx(entered.max())
