@@ -1,7 +1,11 @@
 """A small Python client for rig pipelines: upload, assess, wait, fetch as pandas.
 
 Standard library HTTP only (``urllib``), so a pipeline needs nothing beyond
-this package. Recordings go up as Parquet, the fast path of the service.
+this package. DataFrames go up as Parquet, the fast path of the service;
+files go up as they are (the service reads rig formats itself). Every POST
+carries an ``Idempotency-Key``, so a request whose answer was lost (a
+timeout, a dropped connection, a 429 or 503) is retried with back-off
+(``Retry-After`` honoured) and counted once.
 
 Example::
 
@@ -32,6 +36,7 @@ class ServiceError(Exception):
     def __init__(self, status: int, problem: dict):
         self.status = status
         self.problem = problem
+        self.retry_after_s: float | None = None  # the service's Retry-After, if it said
         super().__init__(f"{status} {problem.get('title', '')}: {problem.get('detail', '')}")
 
 
@@ -47,17 +52,47 @@ class Client:
     """
 
     def __init__(self, base_url: str = "http://127.0.0.1:8350", timeout_s: float = 300.0,
-                 api_key: str | None = None):
+                 api_key: str | None = None, retries: int = 3, backoff_s: float = 0.5):
         self.base_url = base_url.rstrip("/")
         self.timeout_s = timeout_s
         self.api_key = api_key if api_key is not None else os.environ.get(API_KEY_ENV) or None
+        self.retries = retries
+        self.backoff_s = backoff_s
 
     # ------------------------------------------------------------------ plumbing
+
+    #: Answers worth another try: the connection failed or the service was
+    #: busy (its 429 and 503 say when, in Retry-After).
+    RETRY_STATUSES = (0, 429, 502, 503, 504)
 
     def request(self, method: str, path: str, *, body: bytes | None = None,
                 content_type: str | None = None, params: dict | None = None,
                 headers: dict | None = None, accept: str = "application/json"):
-        """``(status, headers, body bytes)``; raises ServiceError on 4xx/5xx."""
+        """``(status, headers, body bytes)``; raises ServiceError on 4xx/5xx.
+
+        A POST gets an ``Idempotency-Key`` (unless one is given) so that it
+        can be retried safely; failed connections and 429/502/503/504 are
+        tried again up to ``retries`` times, waiting ``Retry-After`` when the
+        service says, else ``backoff_s`` doubled each time.
+        """
+        import uuid
+
+        headers = dict(headers or {})
+        if method == "POST" and "Idempotency-Key" not in headers:
+            headers["Idempotency-Key"] = f"client-{uuid.uuid4().hex}"
+        for attempt in range(self.retries + 1):
+            try:
+                return self._once(method, path, body=body, content_type=content_type,
+                                  params=params, headers=headers, accept=accept)
+            except ServiceError as exc:
+                if exc.status not in self.RETRY_STATUSES or attempt == self.retries:
+                    raise
+                wait = exc.retry_after_s
+                time.sleep(wait if wait is not None else self.backoff_s * 2 ** attempt)
+        raise AssertionError("unreachable")
+
+    def _once(self, method: str, path: str, *, body, content_type, params, headers, accept):
+        """One try of :meth:`request`."""
         url = self.base_url + path
         if params:
             url += "?" + urllib.parse.urlencode({k: v for k, v in params.items()
@@ -79,7 +114,12 @@ class Client:
                 problem = json.loads(raw)
             except ValueError:
                 problem = {"title": exc.reason, "detail": raw[:200].decode("utf-8", "replace")}
-            raise ServiceError(exc.code, problem) from None
+            err = ServiceError(exc.code, problem)
+            try:
+                err.retry_after_s = float(exc.headers.get("Retry-After"))
+            except (TypeError, ValueError):
+                pass
+            raise err from None
         except urllib.error.URLError as exc:
             raise ServiceError(0, {"title": "Unreachable", "detail": str(exc.reason)}) from None
         except (OSError, http.client.HTTPException) as exc:
@@ -179,3 +219,55 @@ class Client:
 
     def curves(self) -> list[dict]:
         return self.get_json("/v1/curves")["items"]
+
+    # ------------------------------------------------------------------ ledger
+
+    def create_asset(self, name: str, description: str | None = None) -> dict:
+        """Register an asset (the thing under test)."""
+        return self.post_json("/v1/assets", {"name": name, "description": description})[1]
+
+    def add_point(self, asset: str, name: str, *, unit: str, settings: dict,
+                  youngs_modulus: float | None = None) -> dict:
+        """Register a measured point of ``asset`` with its unit and settings."""
+        doc = {"name": name, "unit": unit, "settings": settings}
+        if youngs_modulus is not None:
+            doc["youngs_modulus"] = youngs_modulus
+        return self.post_json(f"/v1/assets/{urllib.parse.quote(asset, safe='')}/points",
+                              doc)[1]
+
+    def post_block(self, asset: str, seq: int, data, *, sample_rate_hz: float | None = None,
+                   recorded_at: str | None = None, idempotency_key: str | None = None,
+                   **options) -> dict:
+        """Post one block (a DataFrame, ``{point: array}`` or a file path) for
+        the asset's points; a retry is counted once (the key, and ``seq``)."""
+        if isinstance(data, (str, bytes)) or hasattr(data, "__fspath__"):
+            with open(data, "rb") as f:
+                body = f.read()
+            content_type = "application/octet-stream"
+        else:
+            import pandas as pd
+
+            df = data if isinstance(data, pd.DataFrame) else pd.DataFrame(dict(data))
+            buf = io.BytesIO()
+            df.to_parquet(buf, index=False)
+            body, content_type = buf.getvalue(), PARQUET
+        headers = {"Idempotency-Key": idempotency_key} if idempotency_key else None
+        _, _, raw = self.request(
+            "POST", f"/v1/assets/{urllib.parse.quote(asset, safe='')}/blocks", body=body,
+            content_type=content_type, headers=headers,
+            params={"seq": seq, "sample_rate_hz": sample_rate_hz, "recorded_at": recorded_at,
+                    **options})
+        return json.loads(raw)
+
+    def point(self, asset: str, point: str) -> dict:
+        """A ledger point's running figures and projections."""
+        return self.get_json(f"/v1/assets/{urllib.parse.quote(asset, safe='')}/points/"
+                             f"{urllib.parse.quote(point, safe='')}")
+
+    def feed(self, asset: str | None = None, since: str | None = None):
+        """The dashboard feed as a DataFrame (one row per point)."""
+        import pandas as pd
+
+        doc = self.get_json("/v1/feeds/points", **{k: v for k, v in
+                                                   (("asset", asset), ("since", since)) if v})
+        return pd.DataFrame(doc["items"], columns=doc["columns"])

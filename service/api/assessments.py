@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import csv
+import hashlib
 import io
 
 import numpy as np
@@ -11,7 +12,7 @@ from flask import Blueprint, Response, current_app, jsonify, request, url_for
 from service import runs
 from service.store import parquet, sqlite
 
-from . import created, data_dir, db, json_object, uploads
+from . import created, data_dir, db, idempotency, json_object, uploads
 from .access import project
 from .histories import load as load_history, page_args
 from .problems import ApiProblem, NotAcceptable, NotFound, TooManyJobs
@@ -56,7 +57,18 @@ def load(assessment_id: str) -> dict:
 
 @bp.post("/v1/assessments")
 def create():
-    """Assess a stored history (``history_id``) or inline ``samples``; 201 with results."""
+    """Assess a stored history (``history_id``) or inline ``samples``; 201 with results
+    (or 202 with a job). An ``Idempotency-Key`` makes a retry answer as the first time."""
+    idem_key = idempotency.key()
+    request_hash = idempotency.request_hash(
+        hashlib.sha256(request.get_data(cache=True)).hexdigest())
+    again = idempotency.replay(idem_key, request_hash)
+    if again is not None:
+        return again
+    return idempotency.remember(idem_key, request_hash, _create())
+
+
+def _create():
     body = json_object()
     if ("history_id" in body) == ("samples" in body):
         raise ApiProblem("give exactly one of history_id or samples", field="history_id")

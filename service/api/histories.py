@@ -2,13 +2,14 @@
 
 from __future__ import annotations
 
+import hashlib
 from pathlib import Path
 
 from flask import Blueprint, jsonify, request, url_for
 
 from service.store import parquet, sqlite
 
-from . import created, data_dir, db, uploads
+from . import created, data_dir, db, idempotency, uploads
 from .access import project
 from .problems import NotFound
 
@@ -34,9 +35,15 @@ def load(history_id: str) -> dict:
 def upload():
     """Store one recording: every channel checked and converted to MPa."""
     uploads.check_media_type(request.content_type)
+    idem_key = idempotency.key()
     folder = data_dir() / parquet.HISTORIES
-    spooled = spool_body(folder)
+    digest = hashlib.sha256()
+    spooled = spool_body(folder, digest)
     try:
+        request_hash = idempotency.request_hash(digest.hexdigest())
+        again = idempotency.replay(idem_key, request_hash)
+        if again is not None:
+            return again
         up = uploads.parse(spooled, request.content_type, request.args.to_dict())
         hid = sqlite.new_id("h")
         if up.stored_as_sent:
@@ -52,7 +59,7 @@ def upload():
            "sample_count": up.sample_count, "sample_rate_hz": up.sample_rate_hz,
            "duration_s": up.duration_s, "channels": channels, "file": rel}
     sqlite.insert_owning_file(db(), sqlite.insert_history, row, data_dir(), rel)
-    return created(resource(row), 201)
+    return idempotency.remember(idem_key, request_hash, created(resource(row), 201))
 
 
 @bp.get("/v1/histories")

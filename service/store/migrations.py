@@ -29,8 +29,13 @@ def _to_7(con) -> None:
             con.execute(f"ALTER TABLE jobs ADD COLUMN {column} TEXT")
 
 
+def _to_8(con) -> None:
+    """Idempotency keys on histories and assessments: a new table, made by
+    ``schema.sql`` itself; nothing to change in the existing ones."""
+
+
 #: version -> the step from the version before it.
-MIGRATIONS = {7: _to_7}
+MIGRATIONS = {7: _to_7, 8: _to_8}
 #: The oldest version a directory may have to be upgraded.
 OLDEST = min(MIGRATIONS) - 1
 

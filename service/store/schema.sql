@@ -1,6 +1,6 @@
 -- Metadata of the embedded store. Long arrays live in Parquet files beside
 -- the database; a row here names its file. Times are UTC ISO 8601 strings.
-PRAGMA user_version = 7;
+PRAGMA user_version = 8;
 
 -- Every stored thing belongs to a project (a namespace); an API key sees
 -- its own project's rows only. Without keys the service runs as project
@@ -194,3 +194,18 @@ CREATE TABLE IF NOT EXISTS point_totals (
     cycles          REAL NOT NULL
 );
 CREATE INDEX IF NOT EXISTS point_totals_point ON point_totals(asset_id, point, at);
+
+-- Answers to POSTs that carried an Idempotency-Key (histories, assessments):
+-- a retry with the same key and the same request gets the same answer and
+-- creates nothing; the same key with another request is a conflict.
+CREATE TABLE IF NOT EXISTS idempotency (
+    project         TEXT NOT NULL,
+    route           TEXT NOT NULL,
+    key             TEXT NOT NULL,
+    request_hash    TEXT NOT NULL,   -- sha256 of the query and the body
+    status          INTEGER NOT NULL,
+    body            TEXT NOT NULL,   -- the JSON answered
+    location        TEXT,
+    created_at      TEXT NOT NULL,
+    PRIMARY KEY (project, route, key)
+);

@@ -60,7 +60,7 @@ def connect(data_dir: str | Path) -> sqlite3.Connection:
 
 
 #: Version of schema.sql (its PRAGMA user_version).
-SCHEMA_VERSION = 7
+SCHEMA_VERSION = 8
 
 
 class IncompatibleStore(RuntimeError):
@@ -266,6 +266,24 @@ def referenced_files(con) -> set[str]:
                 "SELECT input_file FROM jobs WHERE input_file IS NOT NULL"):
         out.update(r[0] for r in con.execute(sql))
     return out
+
+
+def idempotent_answer(con, project: str, route: str, key: str) -> dict | None:
+    """The stored answer to an earlier POST with this Idempotency-Key."""
+    r = con.execute("SELECT * FROM idempotency WHERE project = ? AND route = ? AND key = ?",
+                    (project, route, key)).fetchone()
+    return None if r is None else dict(r) | {"body": json.loads(r["body"])}
+
+
+def keep_idempotent_answer(con, project: str, route: str, key: str, request_hash: str,
+                           status: int, body: dict, location: str | None) -> None:
+    """Remember the answer to a POST made with an Idempotency-Key (the first
+    answer wins when two arrive together)."""
+    with write(con):
+        con.execute("INSERT OR IGNORE INTO idempotency (project, route, key, request_hash, "
+                    "status, body, location, created_at) VALUES (?, ?, ?, ?, ?, ?, ?, ?)",
+                    (project, route, key, request_hash, status, json.dumps(body), location,
+                     now()))
 
 
 def interrupted_jobs(con) -> list[dict]:

@@ -154,3 +154,57 @@ def test_a_data_directory_of_another_schema_is_refused(tmp_path):
     con.close()
     with pytest.raises(IncompatibleStore, match="schema version 1"):
         create_app({"DATA_DIR": str(d), "WARM_KERNELS": False})
+
+
+def test_idempotency_key_makes_a_retry_answer_as_the_first_time(client, app):
+    # Issue 18: a pipeline that lost the answer posts again with the same
+    # key: the same resource, nothing more stored; another request under the
+    # same key is a conflict.
+    from pathlib import Path
+
+    body = b"g1\n0\n100\n-50\n"
+    first = client.post("/v1/histories?unit=MPa", data=body, content_type="text/csv",
+                        headers={"Idempotency-Key": "rig3-run42"})
+    again = client.post("/v1/histories?unit=MPa", data=body, content_type="text/csv",
+                        headers={"Idempotency-Key": "rig3-run42"})
+    assert first.status_code == again.status_code == 201
+    assert again.get_json() == first.get_json() and again.headers["Location"]
+    assert again.headers["Idempotent-Replayed"] == "true"
+    assert len(list((Path(app.config["DATA_DIR"]) / "histories").glob("h_*"))) == 1
+    other = client.post("/v1/histories?unit=MPa", data=b"g1\n0\n5\n", content_type="text/csv",
+                        headers={"Idempotency-Key": "rig3-run42"})
+    assert_problem(other, 409, "idempotency-conflict", field="Idempotency-Key")
+    a1 = client.post("/v1/assessments", json={"history_id": first.get_json()["id"],
+                                              "settings": {"curve": "EN1993-1-9:71"}},
+                     headers={"Idempotency-Key": "a-1"})
+    a2 = client.post("/v1/assessments", json={"history_id": first.get_json()["id"],
+                                              "settings": {"curve": "EN1993-1-9:71"}},
+                     headers={"Idempotency-Key": "a-1"})
+    assert a1.get_json()["id"] == a2.get_json()["id"]
+    assert len(client.get("/v1/assessments").get_json()["items"]) == 1
+
+
+def test_client_retries_with_the_same_key_and_honours_retry_after(monkeypatch):
+    from service.client import Client, ServiceError
+
+    c = Client("http://127.0.0.1:1", backoff_s=0.001)
+    calls = []
+
+    def once(method, path, **kw):
+        calls.append(kw["headers"].get("Idempotency-Key"))
+        if len(calls) < 3:
+            err = ServiceError(429 if len(calls) == 1 else 0, {"title": "busy"})
+            err.retry_after_s = 0.01 if len(calls) == 1 else None
+            raise err
+        return 201, {}, b"{}"
+
+    monkeypatch.setattr(c, "_once", once)
+    assert c.request("POST", "/v1/histories", body=b"x")[0] == 201
+    assert len(calls) == 3 and len(set(calls)) == 1 and calls[0].startswith("client-")
+
+    def refused(method, path, **kw):
+        raise ServiceError(422, {"title": "bad"})
+
+    monkeypatch.setattr(c, "_once", refused)
+    with pytest.raises(ServiceError):
+        c.request("POST", "/v1/histories", body=b"x")        # a 4xx is not retried
