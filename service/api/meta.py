@@ -10,7 +10,7 @@ import service
 from service.engine import units
 from service.engine.mean_stress import COMPRESSIVE_MEAN_POLICIES, MEAN_STRESS_METHODS
 from service.engine.rainflow import RESIDUE_TREATMENTS
-from service.engine.cautions import CAUTION_TEXTS
+from service.engine.cautions import CAUTION_TEXTS, SEVERITIES
 from service.engine.equivalents import REDUCTION_NAMES
 from service.engine.rosette import ROSETTE_LAYOUTS
 from service.engine.screening import FINDING_KINDS, SCREENING_POLICIES
@@ -64,7 +64,8 @@ def methods():
                    finding_kinds=list(FINDING_KINDS),
                    plots=list(ASSESSMENT_PLOTS),
                    plot_formats=["svg", "png"],
-                   cautions=sorted(CAUTION_TEXTS))
+                   cautions=sorted(CAUTION_TEXTS),
+                   caution_severities=list(SEVERITIES))
 
 
 @bp.get("/openapi.yaml")

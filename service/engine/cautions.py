@@ -42,8 +42,8 @@ CAUTION_TEXTS = {
                                 "included), exceeds {limit:.4g} MPa ({rule}), the limit "
                                 "EN 1993-1-9:2005 sec. 8(1) sets before its fatigue curves "
                                 "apply ({check}).",
-    "yield_not_checked": "yield_strength was not given: peak stresses were not checked against "
-                         "yield{extra}.",
+    "yield_not_checked": "The yield strength (yield_strength) was not given: peak stresses were "
+                         "not checked against yield{extra}.",
     "reserve_limited_by_static_strength": "The reserve factor {reserve:.4g} is set by static "
                                           "strength (a peak reaches the ultimate strength or "
                                           "the mean-stress correction breaks down), not by "
@@ -90,11 +90,33 @@ CAUTION_TEXTS = {
                       "cleaning was {before:.4g}. Faults that cannot be cleaned (clipping, held "
                       "runs, undersampling) stay in the signal.",
     # Inputs.
-    "implausible_value": "{field} = {value:.6g} {unit} is unusual for {what}; {hint}.",
+    "implausible_value": "The value {field} = {value:.6g} {unit} is unusual for {what}; {hint}.",
 }
 
 #: The three cautions every result carries.
 GENERAL_CODES = ("estimate_scatter", "method_choice", "engineer_sign_off")
+
+#: Severity of each caution, in the order lists show them: ``critical`` (the
+#: number is not a fatigue result, or the part does not stay elastic),
+#: ``warning`` (the result may be wrong by a large factor: check before use),
+#: ``general`` (true of every result), ``note`` (how the result was made).
+SEVERITIES = ("critical", "warning", "general", "note")
+_SEVERITY = {
+    "static_overload": "critical", "above_yield": "critical",
+    "range_above_static_limit": "critical", "reserve_limited_by_static_strength": "critical",
+    "below_limit_damage": "warning", "tensile_mean_uncorrected": "warning",
+    "mean_stress_on_welded_curve": "warning", "sign_ambiguous": "warning",
+    "non_proportional": "warning", "signal_findings": "warning", "residue_share": "warning",
+    "implausible_value": "warning", "estimate_not_steel": "warning",
+    "low_cycle_regime": "warning", "below_fatigue_limit": "warning",
+    "yield_not_checked": "warning",
+    "estimate_scatter": "general", "method_choice": "general", "engineer_sign_off": "general",
+}
+
+
+def severity(code: str) -> str:
+    """The severity of a caution code (``note`` unless listed)."""
+    return _SEVERITY.get(code, "note")
 
 
 @dataclass(frozen=True)
@@ -105,7 +127,7 @@ class Caution:
     text: str
 
     def as_dict(self) -> dict:
-        return {"code": self.code, "text": self.text}
+        return {"code": self.code, "severity": severity(self.code), "text": self.text}
 
 
 def caution(code: str, **values) -> Caution:
@@ -126,7 +148,8 @@ def _make(code: str, values: dict) -> Caution:
     if code not in CAUTION_TEXTS:
         raise unknown("caution", code, CAUTION_TEXTS)
     values.setdefault("check", _CHECK)
-    return Caution(code, CAUTION_TEXTS[code].format(**values))
+    text = CAUTION_TEXTS[code].format(**values)
+    return Caution(code, text[:1].upper() + text[1:])  # sentence case, whatever fills it
 
 
 #: The general cautions, as objects.
@@ -134,7 +157,10 @@ GENERAL = tuple(caution(c) for c in GENERAL_CODES)
 
 
 def general() -> list[dict]:
-    """The general cautions as plain dicts (``points`` empty: every point)."""
+    """The general cautions as plain dicts (``points`` empty: every point).
+
+    Sentences are in sentence case; every code has a severity
+    (:func:`severity`)."""
     return [{**c.as_dict(), "points": []} for c in GENERAL]
 
 
@@ -144,8 +170,8 @@ def as_dict(value) -> dict:
     if isinstance(value, Caution):
         return value.as_dict()
     if isinstance(value, dict):
-        return value
-    return {"code": "note", "text": str(value)}
+        return {**value, "severity": value.get("severity") or severity(value["code"])}
+    return {"code": "note", "severity": "note", "text": str(value)}
 
 
 def unique(cautions) -> tuple:
@@ -162,8 +188,9 @@ def unique(cautions) -> tuple:
 
 def merge(per_point: dict) -> list[dict]:
     """One list for many points: ``{point: [caution dicts]}`` in, each
-    caution once (by code and text) with the sorted ``points`` it concerns,
-    the general ones first (they concern every point: ``points`` empty)."""
+    caution once (by code and text) with the sorted ``points`` it concerns
+    (the general ones concern every point: ``points`` empty), ordered by
+    severity (:data:`SEVERITIES`), then as they first appear."""
     out: dict = {}
     for c in GENERAL:
         out[(c.code, c.text)] = {**c.as_dict(), "points": []}
@@ -172,6 +199,7 @@ def merge(per_point: dict) -> list[dict]:
             key = (c["code"], c["text"])
             if key in out and not out[key]["points"] and c["code"] in GENERAL_CODES:
                 continue
-            out.setdefault(key, {"code": c["code"], "text": c["text"], "points": []})
+            out.setdefault(key, {**as_dict(c), "points": []})
             out[key]["points"].append(name)
-    return list(out.values())
+    rank = {s: i for i, s in enumerate(SEVERITIES)}
+    return sorted(out.values(), key=lambda c: rank[c["severity"]])

@@ -433,3 +433,19 @@ def test_strength_in_psi_is_refused_and_a_low_one_cautioned():
     r = assess(spectrum([20.0], [10]), EN71, AssessmentOptions(yield_strength=40.0))
     note = [c for c in r.cautions if c.code == "implausible_value"]
     assert note and "275.8 MPa" in note[0].text        # 40 ksi
+
+
+def test_cautions_have_codes_severities_and_sentence_case():
+    # Issue 17: each caution a stable code, a severity, a sentence starting
+    # with a capital; lists ordered by severity.
+    from service.engine.cautions import CAUTION_TEXTS, SEVERITIES, caution, merge, severity
+
+    for code in CAUTION_TEXTS:
+        assert severity(code) in SEVERITIES
+    c = caution("curve_note", note="estimated from tensile data")
+    assert c.text == "Estimated from tensile data"
+    x = np.tile([590.0, 610.0], 50)
+    r = assess_history(x, EN71, AssessmentOptions(ultimate_strength=700.0))
+    merged = merge({"p": r.caution_dicts()})
+    ranks = [SEVERITIES.index(m["severity"]) for m in merged]
+    assert ranks == sorted(ranks) and merged[0]["severity"] == "critical"
