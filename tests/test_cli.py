@@ -185,3 +185,37 @@ def test_serve_options_from_command_line_environment_file_and_defaults(tmp_path)
     with pytest.raises(ValueError) as err:
         resolve_serve_options(args, {})
     assert "prot" in str(err.value)
+
+
+def test_every_option_has_help_and_shows_its_default():
+    # Issue 17: every CLI option says what it does, and its default when it
+    # has one (argparse's %(default)s or the words "default").
+    import argparse
+
+    import service.cli as cli
+
+    parsers = []
+    real = argparse.ArgumentParser.parse_args
+
+    def capture(self, args=None, namespace=None):
+        parsers.append(self)
+        raise SystemExit(0)
+
+    argparse.ArgumentParser.parse_args = capture
+    try:
+        with pytest.raises(SystemExit):
+            cli.main(["--help"])
+    finally:
+        argparse.ArgumentParser.parse_args = real
+    missing = []
+    for action in parsers[0]._subparsers._group_actions[0].choices.items():
+        name, sub = action
+        for a in sub._actions:
+            if not a.option_strings or a.dest in ("help",):
+                continue
+            text = a.help or ""
+            if not text:
+                missing.append(f"{name} {a.option_strings[0]}: no help")
+            elif a.default not in (None, False) and "default" not in text:
+                missing.append(f"{name} {a.option_strings[0]}: default {a.default!r} not shown")
+    assert not missing, missing

@@ -47,7 +47,8 @@ def main(argv=None) -> int:
     p.set_defaults(func=_cmd_assess)
     p = sub.add_parser("demo", help="start the service, post the bundled demo, keep serving")
     p.add_argument("--out", help="where to write the demo CSV")
-    p.add_argument("--port", type=int, default=8350, help="port on 127.0.0.1 (0: any free)")
+    p.add_argument("--port", type=int, default=8350,
+                   help="port on 127.0.0.1 (0: any free; default %(default)s)")
     p.add_argument("--data-dir", dest="data_dir",
                    help="data directory (default: $CYCLELEDGER_DATA_DIR or ./cycleledger-data)")
     p.add_argument("--no-wait", dest="no_wait", action="store_true",
@@ -57,13 +58,15 @@ def main(argv=None) -> int:
     p.set_defaults(func=_cmd_demo)
     p = sub.add_parser("post", help="upload a recording to a running service and assess it")
     _recording_args(p, "unit of the samples (required by the service)")
-    p.add_argument("--url", default="http://127.0.0.1:8350", help="the service")
+    p.add_argument("--url", default="http://127.0.0.1:8350",
+                   help="the service (default %(default)s)")
     p.set_defaults(func=_cmd_post)
     p = sub.add_parser("report", help="write an assessment's or an asset's HTML page")
     who = p.add_mutually_exclusive_group(required=True)
     who.add_argument("assessment", nargs="?", help="assessment id (a_...)")
     who.add_argument("--asset", help="a ledger asset instead")
-    p.add_argument("--url", default="http://127.0.0.1:8350", help="the service")
+    p.add_argument("--url", default="http://127.0.0.1:8350",
+                   help="the service (default %(default)s)")
     p.add_argument("--out", help="file to write (default: <id>.html)")
     p.set_defaults(func=_cmd_report)
     p = sub.add_parser("batch", help="assess every point of a Parquet dataset on Dask")
@@ -72,7 +75,8 @@ def main(argv=None) -> int:
     p.add_argument("--settings", help="JSON file: settings for every point")
     p.add_argument("--points", help="JSON file: settings per point over --settings")
     p.add_argument("--curve", help="catalogue designation for every point")
-    p.add_argument("--mean-stress-method", dest="mean_stress_method")
+    p.add_argument("--mean-stress-method", dest="mean_stress_method",
+                   help="mean-stress correction for every point (default none: range only)")
     p.add_argument("--unit", default="MPa", help="unit of the samples (default MPa)")
     p.add_argument("--youngs-modulus", dest="youngs_modulus", type=float,
                    help="E in MPa, for strain units")
@@ -80,7 +84,8 @@ def main(argv=None) -> int:
                    help="when there is no time_s column")
     p.add_argument("--gate", type=float, help="hysteresis gate in MPa")
     p.add_argument("--partition-points", dest="partition_points", type=int, default=64,
-                   help="points a task holds (memory per task: one file of them)")
+                   help="points a task holds (memory per task: one file of them; default "
+                        "%(default)s)")
     p.add_argument("--scheduler", help="Dask scheduler address (default: "
                    "$CYCLELEDGER_DASK_SCHEDULER, else a local cluster in this process)")
     p.add_argument("--threads", type=int, help="threads of the local cluster (default: cores)")

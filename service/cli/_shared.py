@@ -54,12 +54,15 @@ def _recording_args(p, unit_help: str) -> None:
                    "HDF5, or any of them gzipped")
     p.add_argument("--points", help="JSON file with settings per channel")
     p.add_argument("--curve", help="catalogue designation for every channel")
-    p.add_argument("--mean-stress-method", dest="mean_stress_method")
+    p.add_argument("--mean-stress-method", dest="mean_stress_method",
+                   help="mean-stress correction for every channel (default none: range only)")
     p.add_argument("--unit", help=unit_help)
     p.add_argument("--youngs-modulus", dest="youngs_modulus", type=float,
                    help="E in MPa, for strain units")
-    p.add_argument("--gate-fraction", dest="gate_fraction", type=float)
-    p.add_argument("--sample-rate-hz", dest="sample_rate_hz", type=float)
+    p.add_argument("--gate-fraction", dest="gate_fraction", type=float,
+                   help="hysteresis gate as a fraction of each channel's range (default 0)")
+    p.add_argument("--sample-rate-hz", dest="sample_rate_hz", type=float,
+                   help="samples a second, when the file has no time column [Hz]")
     p.add_argument("--time-column", dest="time_column",
                    help="the time column (default: time_s, time, t or zeit if present)")
     p.add_argument("--delimiter", help="CSV delimiter if not found (';', ',', tab, '|')")
