@@ -57,6 +57,7 @@ ROUTE_SCOPES = {
     "ledger.create_point": "admin",
     "ledger.put_settings": "admin",
     "ledger.void_block": "admin",
+    "audit.audit_trail": "admin",
 }
 
 

@@ -40,11 +40,12 @@ def _keys_store(args):
 
 
 def _cmd_keys_create(args) -> int:
-    from service.store import keys
+    from service.store import keys, sqlite
 
     con = _keys_store(args)
     try:
         row, secret = keys.create(con, args.project, args.scope, args.name, args.rate_per_s)
+        sqlite.record_audit(con, args.project, "keys.create", target=row["id"])
     except ValueError as exc:
         print(f"error: {exc}", file=sys.stderr)
         return 2
@@ -80,11 +81,15 @@ def _cmd_keys_list(args) -> int:
 
 
 def _cmd_keys_revoke(args) -> int:
-    from service.store import keys
+    from service.store import keys, sqlite
 
     con = _keys_store(args)
     try:
+        held = con.execute("SELECT project FROM api_keys WHERE id = ?",
+                           (args.key_id,)).fetchone()
         ok = keys.revoke(con, args.key_id)
+        if ok:
+            sqlite.record_audit(con, held[0], "keys.revoke", target=args.key_id)
     finally:
         con.close()
     if not ok:

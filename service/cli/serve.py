@@ -151,7 +151,13 @@ def _cmd_serve(args) -> int:
               f"127.0.0.1.", file=sys.stderr)
         return 2
 
-    logging.basicConfig(level=logging.INFO, format="%(asctime)s %(name)s %(message)s")
+    from service.api.audit import JsonFormatter
+
+    # One JSON object a line on stderr (request log, job and error logs):
+    # what a log collector or journald reads without parsing text.
+    handler = logging.StreamHandler()
+    handler.setFormatter(JsonFormatter())
+    logging.basicConfig(level=logging.INFO, handlers=[handler])
     config = {"DATA_DIR": args.data_dir, "MAX_UPLOAD_MB": args.max_upload_mb,
               "JOB_WORKERS": args.job_workers, "ASYNC_SAMPLES": args.async_samples,
               "MAX_CHANNELS": args.max_channels,
@@ -172,7 +178,7 @@ def _cmd_serve(args) -> int:
                     "bind": f"{args.host}:{args.port}", "workers": 1,
                     "worker_class": "gthread", "threads": args.threads,
                     "timeout": 600, "graceful_timeout": 30, "keepalive": 5,
-                    "control_socket_disable": True, "accesslog": "-",
+                    "control_socket_disable": True, "accesslog": None,
                     "errorlog": "-"}.items():
                 self.cfg.set(key, value)
 

@@ -34,8 +34,12 @@ def _to_8(con) -> None:
     ``schema.sql`` itself; nothing to change in the existing ones."""
 
 
+def _to_9(con) -> None:
+    """The audit trail: a new table, made by ``schema.sql`` itself."""
+
+
 #: version -> the step from the version before it.
-MIGRATIONS = {7: _to_7, 8: _to_8}
+MIGRATIONS = {7: _to_7, 8: _to_8, 9: _to_9}
 #: The oldest version a directory may have to be upgraded.
 OLDEST = min(MIGRATIONS) - 1
 

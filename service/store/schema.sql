@@ -1,6 +1,6 @@
 -- Metadata of the embedded store. Long arrays live in Parquet files beside
 -- the database; a row here names its file. Times are UTC ISO 8601 strings.
-PRAGMA user_version = 8;
+PRAGMA user_version = 9;
 
 -- Every stored thing belongs to a project (a namespace); an API key sees
 -- its own project's rows only. Without keys the service runs as project
@@ -209,3 +209,18 @@ CREATE TABLE IF NOT EXISTS idempotency (
     created_at      TEXT NOT NULL,
     PRIMARY KEY (project, route, key)
 );
+
+-- Who changed what: every request that changed something (POST, PUT,
+-- DELETE answered 2xx) and every key made or revoked on the command line.
+CREATE TABLE IF NOT EXISTS audit (
+    seq             INTEGER PRIMARY KEY AUTOINCREMENT,
+    project         TEXT NOT NULL,
+    at              TEXT NOT NULL,
+    key_id          TEXT,            -- the API key that asked (null: open mode or the CLI)
+    action          TEXT NOT NULL,   -- e.g. ledger.post_block, histories.delete, keys.revoke
+    method          TEXT,
+    path            TEXT,
+    status          INTEGER,
+    target          TEXT             -- the id of what was made or changed, when known
+);
+CREATE INDEX IF NOT EXISTS audit_project ON audit(project, seq);

@@ -60,7 +60,7 @@ def connect(data_dir: str | Path) -> sqlite3.Connection:
 
 
 #: Version of schema.sql (its PRAGMA user_version).
-SCHEMA_VERSION = 8
+SCHEMA_VERSION = 9
 
 
 class IncompatibleStore(RuntimeError):
@@ -266,6 +266,22 @@ def referenced_files(con) -> set[str]:
                 "SELECT input_file FROM jobs WHERE input_file IS NOT NULL"):
         out.update(r[0] for r in con.execute(sql))
     return out
+
+
+def record_audit(con, project: str, action: str, *, key_id=None, method=None, path=None,
+                 status=None, target=None) -> None:
+    """Append one entry to the project's audit trail."""
+    with write(con):
+        con.execute("INSERT INTO audit (project, at, key_id, action, method, path, status, "
+                    "target) VALUES (?, ?, ?, ?, ?, ?, ?, ?)",
+                    (project, now(), key_id, action, method, path, status, target))
+
+
+def list_audit(con, project: str, limit: int, offset: int) -> list[dict]:
+    """The project's audit trail, newest first."""
+    return [dict(r) for r in con.execute(
+        "SELECT * FROM audit WHERE project = ? ORDER BY seq DESC LIMIT ? OFFSET ?",
+        (project, limit, offset))]
 
 
 def idempotent_answer(con, project: str, route: str, key: str) -> dict | None:

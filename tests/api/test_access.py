@@ -172,6 +172,7 @@ def cases(a: dict) -> list[tuple]:
         ("GET", "/v1/superpositions/<sup_id>/nodes", f"/v1/superpositions/{sid}/nodes", {},
          404),
         ("GET", "/metrics", "/metrics", {}, "hidden"),
+        ("GET", "/v1/audit", "/v1/audit", {}, "hidden"),
         ("POST", "/v1/assets/<asset>/blocks/<block_id>/void",
          f"/v1/assets/a-asset/blocks/{bid}/void", {}, 404),
         ("DELETE", "/v1/user-curves/<name>", "/v1/user-curves/a-curve", {}, 404),

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import io
+import json
 import threading
 import uuid
 
@@ -443,3 +444,26 @@ def test_screening_of_blocks_refuses_reports_or_cleans(client):
     # blocks, so its projection is unknown (runout false), not infinite.
     rows = {ln.split(",")[1]: ln for ln in csv.splitlines()[1:]}
     assert ",false," in rows["r"] and ",True," not in csv
+
+
+def test_audit_trail_and_request_log(client, caplog):
+    # Issue 18: who changed what, readable by an admin; each request one
+    # JSON log record with its id, echoed in X-Request-Id.
+    import logging
+
+    from service.api.audit import JsonFormatter
+
+    setup_asset(client, "rig", ("a",))
+    x = np.random.default_rng(3).standard_normal(300) * 40
+    b = post(client, "rig", 1, {"a": x}).get_json()["block"]["id"]
+    assert client.post(f"/v1/assets/rig/blocks/{b}/void").status_code == 200
+    with caplog.at_level(logging.INFO, logger="cycleledger.requests"):
+        r = client.get("/v1/audit", headers={"X-Request-Id": "req-42"})
+    assert r.headers["X-Request-Id"] == "req-42"
+    actions = [(e["action"], e["target"]) for e in r.get_json()["items"]]
+    assert actions[:2] == [("ledger.void_block", b), ("ledger.post_block", b)]
+    assert actions[2:] == [("ledger.create_point", "a"), ("ledger.create_asset", "rig")]
+    record = next(rec for rec in caplog.records if rec.name == "cycleledger.requests")
+    line = json.loads(JsonFormatter().format(record))
+    assert line["request_id"] == "req-42" and line["route"] == "/v1/audit"
+    assert line["status"] == 200 and line["project"] == "default" and line["ms"] >= 0
