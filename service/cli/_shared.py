@@ -7,19 +7,12 @@ import math
 import sys
 from pathlib import Path
 
+from service import formatting
 
-def _fmt(v, digits=3) -> str:
-    if v is None:
-        return "-"
-    if isinstance(v, float):
-        if math.isinf(v):
-            return "inf"
-        if v == 0:
-            return "0"
-        if abs(v) >= 1e5 or abs(v) < 1e-3:
-            return f"{v:.{digits}e}"
-        return f"{v:.{digits}g}" if abs(v) < 1 else f"{v:,.{max(digits - 2, 1)}f}"
-    return str(v)
+
+def _fmt(v) -> str:
+    """A number for the table (``service.formatting``'s one policy)."""
+    return formatting.number(v)
 
 
 def from_json(entry: dict, has_duration: bool) -> dict:
@@ -105,7 +98,7 @@ def print_report(report: dict, out=None) -> None:
           file=out)
     print("".join(f"{c:<{w}}" for c, w in cols), file=out)
     for name, p in report["points"].items():
-        row = [name, p["curve"], _fmt(p["cycles_counted"]), _fmt(p["max_range"]),
+        row = [name, p["curve"], formatting.count(p["cycles_counted"]), _fmt(p["max_range"]),
                _fmt(p["damage"]), _fmt(p["life_repeats"]), _fmt(p["life_hours"]),
                _fmt(p["reserve_factor"]), _fmt(p["equivalent_range"]),
                ",".join(p["flags"]) or "-"]

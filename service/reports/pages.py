@@ -8,8 +8,8 @@ ones the API returns for the same resource.
 from __future__ import annotations
 
 import html
-import math
 
+from service import formatting
 from service.engine.cautions import as_dict as caution_dict
 from service.engine.cautions import caution
 from service.engine.cautions import general as general_cautions
@@ -43,16 +43,11 @@ dt { font-weight: 600; }
 """
 
 
-def fmt(v, digits: int = 4) -> str:
-    """A number for a table: '-' for missing, 'inf' for infinite, 4 significant digits."""
-    if v is None:
-        return "-"
-    if isinstance(v, bool):
-        return "yes" if v else "no"
-    if isinstance(v, (int, float)):
-        if isinstance(v, float) and math.isinf(v):
-            return "inf"
-        return f"{v:.{digits}g}"
+def fmt(v) -> str:
+    """A value for a table: numbers by the one policy of ``service.formatting``
+    (counts as counts are formatted by the caller), text escaped."""
+    if v is None or isinstance(v, (bool, int, float)):
+        return formatting.number(v)
     return html.escape(str(v))
 
 
@@ -102,7 +97,9 @@ def assessment_page(resource: dict, plots: dict[str, bytes]) -> str:
     head = "".join(f"<th>{label}</th>" for _, label in SUMMARY_COLUMNS)
     rows = []
     for name, p in points.items():
-        cells = "".join(f"<td data-field='{k}'>{fmt(p.get(k))}</td>" for k, _ in SUMMARY_COLUMNS)
+        cells = "".join(f"<td data-field='{k}'>"
+                        f"{formatting.count(p.get(k)) if k == 'cycles_counted' else fmt(p.get(k))}"
+                        "</td>" for k, _ in SUMMARY_COLUMNS)
         flags = ", ".join(p["flags"]) or "-"
         rows.append(f"<tr data-point='{html.escape(name)}'><td>{html.escape(name)}</td>{cells}"
                     f"<td class='flag'>{html.escape(flags)}</td></tr>")
