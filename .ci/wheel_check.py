@@ -67,6 +67,9 @@ def main() -> int:
         packaged = resources.files("service.api").joinpath("openapi.yaml").read_bytes()
         assert status == 200 and body == packaged, "the contract served is not the package's"
         print("contract served from package data")
+        status, body = get(f"{url}/")
+        assert status == 200 and b"Assess a recording" in body, "no start page at /"
+        print("start page served from package data")
         csv = demo.write(here / "demo.csv")
         points = here / "points.json"
         points.write_text(json.dumps(demo.points()))

@@ -37,7 +37,7 @@ from .problems import Forbidden, TooManyRequests, Unauthorized
 OPEN_PROJECT = "default"
 
 #: Routes anyone may call, key or not.
-PUBLIC = frozenset({"meta.health", "meta.ready", "meta.version", "meta.methods",
+PUBLIC = frozenset({"meta.start", "meta.health", "meta.ready", "meta.version", "meta.methods",
                     "meta.openapi"})
 
 #: Routes that need more than ``read`` (every other route is a GET needing read).

@@ -24,6 +24,20 @@ from .problems import NotFound
 bp = Blueprint("meta", __name__)
 #: The contract, package data beside this module.
 OPENAPI = resources.files(__package__).joinpath("openapi.yaml")
+#: The start page, package data beside this module (no network needed: one file).
+START_PAGE = resources.files(__package__).joinpath("start.html")
+
+
+@bp.get("/")
+def start():
+    """The start page: assets and their used life, the latest assessments, a form to
+    assess a recording. Public itself; its data come from the API with the key the
+    user types (kept in the browser tab's session storage only)."""
+    return Response(START_PAGE.read_bytes(), mimetype="text/html",
+                    headers={"Cache-Control": "no-cache",
+                             "Content-Security-Policy": "default-src 'self'; "
+                             "style-src 'unsafe-inline'; script-src 'unsafe-inline'; img-src 'self' data:; "
+                             "frame-ancestors 'none'"})
 
 
 @bp.get("/v1/health")

@@ -45,7 +45,8 @@ def _cmd_demo(args) -> int:
         finally:
             con.close()
         print(f"\nService on {url} (data in {app.config['DATA_DIR']}; {mode}). Look at:")
-        for path in (f"/v1/assessments/{a}/report", "/v1/assessments/" + a,
+        for path in ("/  (the start page: assets, assessments, a form to assess a recording)",
+                     f"/v1/assessments/{a}/report", "/v1/assessments/" + a,
                      f"/v1/assessments/{a}/summary?format=csv",
                      f"/v1/assessments/{a}/points/pin_lug/cycles?format=csv",
                      f"/v1/assessments/{a}/points/pin_lug/range-mean", "/v1/curves",
