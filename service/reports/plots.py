@@ -19,8 +19,22 @@ from matplotlib.figure import Figure
 
 from service.engine import histograms
 
-#: The report's own palette: ink, teal, amber, rose, and a pale ground.
+#: The report's own palette: ink, teal, amber, rose, and a pale ground. Rose is
+#: the alarm colour: only for what is past a limit (damage over the allowable
+#: sum, static overload, the allowable line itself), never for a series.
 INK, TEAL, AMBER, ROSE, GROUND = "#23313b", "#17707f", "#d48a0b", "#b0384f", "#eef3f4"
+#: Series colours (several points on one plot): the colour-blind-safe set of
+#: Okabe and Ito (2008, "Color Universal Design"), black replaced by the ink and
+#: the yellow darkened for contrast on white; eight colours, no repeat within
+#: eight series. The ninth and later series repeat them dashed.
+SERIES = ("#0072b2", "#e69f00", "#009e73", "#cc79a7", "#56b4e9", "#d55e00", "#23313b",
+          "#b8a500")
+
+
+def series_style(k: int) -> dict:
+    """Colour and line style of the ``k``-th series (0-based)."""
+    return {"color": SERIES[k % len(SERIES)],
+            "linestyle": "-" if k < len(SERIES) else (0, (5, 2))}
 _STYLE = {
     "font.family": "DejaVu Sans", "font.size": 9, "axes.edgecolor": INK,
     "axes.labelcolor": INK, "xtick.color": INK, "ytick.color": INK,
@@ -126,11 +140,10 @@ def range_mean(table, range_bins: int = 24, mean_bins: int = 24):
 def exceedance(tables: dict):
     """Range exceedance spectra: cycles at or above each range, log cycles."""
     fig, ax = _figure(5.4, 3.6)
-    colors = [TEAL, AMBER, ROSE, INK]
     for k, (name, table) in enumerate(tables.items()):
         rng, cum = histograms.exceedance(table)
         if rng.size:
-            ax.step(cum, rng, where="post", color=colors[k % len(colors)], label=name)
+            ax.step(cum, rng, where="post", label=name, **series_style(k))
     ax.set_xscale("log")
     ax.set_xlabel("cycles at or above the range")
     ax.set_ylabel("range [MPa]")
@@ -241,19 +254,51 @@ def damage_by_point(damage: dict[str, float | None], allowable: dict[str, float]
 
 
 def ledger_point(history_rows: list[dict], allowable: float, rate_per_hour: float | None):
-    """Cumulative damage over recorded hours, with the projection to the allowable sum."""
-    fig, ax = _figure(6.0, 3.2)
+    """Cumulative damage over recorded hours, with the projection to the allowable sum.
+
+    Measured damage is a solid step line ending in a dot ("now"); the projection
+    is dashed. When the projection runs more than :data:`ZOOM_RATIO` times past
+    the recorded hours, the measured part would be a sliver at the origin: a
+    second panel on the left then shows it alone, on its own scales.
+    """
     hours = np.array([r["hours"] for r in history_rows], dtype=float)
     dmg = np.array([np.nan if r["damage"] is None else r["damage"] for r in history_rows])
+    h_end = None
+    if (hours.size and rate_per_hour and rate_per_hour > 0 and np.isfinite(dmg[-1])
+            and dmg[-1] < allowable):
+        h_end = hours[-1] + (allowable - dmg[-1]) / rate_per_hour
+    zoom = h_end is not None and h_end > ZOOM_RATIO * max(hours[-1], 1e-12)
+    if zoom:
+        fig = Figure(figsize=(8.4, 3.2), layout="constrained")
+        near, ax = fig.subplots(1, 2, width_ratios=[1, 1.6])
+        _measured(near, hours, dmg)
+        near.set_xlabel("recorded hours [h]")
+        near.set_ylabel("damage [-]")
+        near.set_title("Measured (own scales)", color=INK, loc="left")
+        if np.nanmax(dmg, initial=0.0) < allowable:
+            near.text(0.02, 0.95, f"allowable sum {allowable:g}: above this scale",
+                      transform=near.transAxes, va="top", fontsize=7, color=INK)
+    else:
+        fig, ax = _figure(6.0, 3.2)
     if hours.size:
-        ax.step(hours, dmg, where="post", color=TEAL, label="cumulative damage")
-        if rate_per_hour and rate_per_hour > 0 and np.isfinite(dmg[-1]) and dmg[-1] < allowable:
-            h_end = hours[-1] + (allowable - dmg[-1]) / rate_per_hour
+        _measured(ax, hours, dmg)
+        if h_end is not None:
             ax.plot([hours[-1], h_end], [dmg[-1], allowable], color=AMBER, linestyle="--",
                     label="projection at the recorded rate")
     ax.axhline(allowable, color=ROSE, linewidth=1.2, label="allowable damage sum")
     ax.set_xlabel("recorded hours [h]")
     ax.set_ylabel("damage [-]")
     ax.set_title("Running damage", color=INK, loc="left")
-    ax.legend(frameon=False)
+    ax.legend(frameon=False, fontsize=7)
     return fig
+
+
+#: Projection length (times the recorded hours) past which the running-damage
+#: plot adds a panel of the measured part alone.
+ZOOM_RATIO = 20.0
+
+
+def _measured(ax, hours: np.ndarray, dmg: np.ndarray) -> None:
+    ax.step(hours, dmg, where="post", color=TEAL, linewidth=1.6, label="measured damage")
+    if np.isfinite(dmg[-1]):
+        ax.plot(hours[-1:], dmg[-1:], "o", color=TEAL, markersize=4, label="now")

@@ -112,3 +112,34 @@ def test_sn_plot_draws_the_curve_where_defined_and_the_spectrum_the_damage_used(
     assert any("mean-corrected" in t for t in text)
     spectrum = next(l for l in ax.get_lines() if "spectrum" in l.get_label())
     assert max(spectrum.get_ydata()) == pytest.approx(entered.max())
+
+
+def test_series_colours_are_distinct_for_eight_and_never_the_alarm_colour():
+    # Issue 17: eight series, eight colours (Okabe & Ito 2008 set); rose is the alarm
+    # colour and never marks a series; the ninth series is told apart by its dashes.
+    from matplotlib.colors import to_hex
+
+    rng = np.random.default_rng(4)
+    tables = {f"p{k}": astm_e1049(rng.standard_normal(400) * (10 + k)) for k in range(9)}
+    fig = plots.exceedance(tables)
+    lines = fig.axes[0].get_lines()
+    colours = [to_hex(line.get_color()) for line in lines]
+    assert len(set(colours[:8])) == 8
+    assert plots.ROSE not in colours
+    assert lines[8].get_linestyle() != lines[0].get_linestyle()
+
+
+def test_running_damage_keeps_the_measured_part_visible_when_the_projection_is_long():
+    # A quarter of an hour recorded, a projection 4000 times longer: the measured
+    # line gets its own panel whose scales span it; a short projection needs none.
+    rows = [{"hours": h, "damage": 2e-5 * h} for h in (0.05, 0.1, 0.2, 0.25)]
+    fig = plots.ledger_point(rows, 1.0, 2e-5 / 1.0 * 0.001)
+    assert len(fig.axes) == 2
+    near = fig.axes[0]
+    lo, hi = near.get_ylim()
+    assert hi < 1e-4 and near.get_xlim()[1] < 1.0  # the measured part fills its panel
+    labels = [line.get_label() for line in fig.axes[1].get_lines()]
+    assert "measured damage" in labels and "projection at the recorded rate" in labels
+    short = plots.ledger_point([{"hours": h, "damage": 0.1 * h} for h in (1, 2, 3)], 1.0, 0.1)
+    assert len(short.axes) == 1
+    assert plots.render(fig, "svg").count(b"<path") > 5
