@@ -83,9 +83,9 @@ CAUTION_TEXTS = {
     "projection_assumes_same_loads": "Projections assume the future loads like the recorded "
                                      "ones.",
     # Signal screening.
-    "signal_findings": "The signal of this point has {kinds}{share}: the faults are counted as "
-                       "if they were load unless cleaned; check the gauge and the recording "
-                       "before trusting the damage.",
+    "signal_findings": "Signal screening flagged this point's recording ({kinds}){share}: the "
+                       "faults are counted as if they were load unless cleaned; check the "
+                       "gauge and the recording before trusting the damage.",
     "signal_cleaned": "The signal was cleaned before counting ({done}); the damage before "
                       "cleaning was {before:.4g}. Faults that cannot be cleaned (clipping, held "
                       "runs, undersampling) stay in the signal.",

@@ -33,6 +33,8 @@ th { font-weight: 600; background: var(--ground); }
 td.flag { color: var(--rose); text-align: left; }
 .caution { border-left: 4px solid var(--amber); background: #fff8ea; padding: 10px 14px; }
 .caution ul { margin: 6px 0 0 18px; padding: 0; }
+.caution h3 { font-size: 13px; margin: 10px 0 0; }
+td.text { text-align: left; }
 .plots { display: grid; grid-template-columns: repeat(auto-fit, minmax(440px, 1fr)); gap: 12px; }
 figure { margin: 0; } figure svg { width: 100%; height: auto; }
 figcaption { font-size: 12px; opacity: .75; }
@@ -56,22 +58,49 @@ def _svg(svg: bytes) -> str:
     return text[text.find("<svg"):]  # drop the XML prolog: inline in HTML
 
 
-def _page(title: str, subtitle: str, body: list[str], cautions) -> str:
-    def item(c) -> str:
-        c = caution_dict(c)
-        where = (f" <span class='points'>({html.escape(', '.join(c['points']))})</span>"
-                 if c.get("points") else "")
-        return (f"<li data-code='{html.escape(c['code'])}'>{html.escape(c['text'])}{where}"
-                "</li>")
+def _flags_cell(flags) -> str:
+    """Flags in the alarm colour; none is a plain ``-`` (the colour means an alarm)."""
+    if not flags:
+        return "<td class='text' data-field='flags'>-</td>"
+    return f"<td class='flag' data-field='flags'>{html.escape(', '.join(flags))}</td>"
 
-    items = "".join(item(c) for c in cautions)
+
+def _caution_groups(cautions) -> list[tuple[str, list[dict]]]:
+    """Cautions grouped by point: those for every point (the general ones, and
+    any that concern all the points named) first, then each point's own, each
+    group in severity order (as given: :func:`service.engine.cautions.merge`
+    sorts them)."""
+    cautions = [caution_dict(c) for c in cautions]
+    named = sorted({p for c in cautions for p in c.get("points") or ()})
+    groups: dict[str, list[dict]] = {"All points": []}
+    for c in cautions:
+        pts = c.get("points") or []
+        if not pts or (len(named) > 1 and sorted(pts) == named):
+            groups["All points"].append(c)
+            continue
+        for p in pts:
+            groups.setdefault(f"Point {p}", []).append(c)
+    return [(k, v) for k, v in groups.items() if v]
+
+
+def _page(title: str, subtitle: str, body: list[str], cautions) -> str:
+    def item(c: dict) -> str:
+        tag = "" if c["severity"] == "general" else f"<b>{html.escape(c['severity'])}:</b> "
+        return (f"<li data-code='{html.escape(c['code'])}' data-severity='{c['severity']}'>"
+                f"{tag}{html.escape(c['text'])}</li>")
+
+    groups = _caution_groups(cautions)
+    items = "".join(
+        (f"<h3 data-group='{html.escape(name)}'>{html.escape(name)}</h3>"
+         if len(groups) > 1 else "")
+        + f"<ul>{''.join(item(c) for c in group)}</ul>" for name, group in groups)
     return (
         "<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'>"
         f"<meta name='viewport' content='width=device-width, initial-scale=1'>"
         f"<title>{html.escape(title)}</title><style>{_CSS}</style></head><body>"
         f"<header><h1>{html.escape(title)}</h1><p>{html.escape(subtitle)}</p></header><main>"
-        f"<section class='caution' id='cautions'><strong>Read before use.</strong><ul>{items}"
-        "</ul></section>" + "".join(body) + "</main></body></html>")
+        f"<section class='caution' id='cautions'><strong>Read before use.</strong>{items}"
+        "</section>" + "".join(body) + "</main></body></html>")
 
 
 def _figure(plot_id: str, svg: bytes, caption: str) -> str:
@@ -100,9 +129,8 @@ def assessment_page(resource: dict, plots: dict[str, bytes]) -> str:
         cells = "".join(f"<td data-field='{k}'>"
                         f"{formatting.count(p.get(k)) if k == 'cycles_counted' else fmt(p.get(k))}"
                         "</td>" for k, _ in SUMMARY_COLUMNS)
-        flags = ", ".join(p["flags"]) or "-"
         rows.append(f"<tr data-point='{html.escape(name)}'><td>{html.escape(name)}</td>{cells}"
-                    f"<td class='flag'>{html.escape(flags)}</td></tr>")
+                    f"{_flags_cell(p['flags'])}</tr>")
     summary = ("<section id='summary'><h2>Per point</h2><table><thead><tr><th>point</th>"
                f"{head}<th>flags</th></tr></thead><tbody>{''.join(rows)}</tbody></table>"
                "<p>Damage is the Miner sum of one pass of the recording (what is left open at "
@@ -186,7 +214,7 @@ def asset_page(asset: dict, points: list[dict], plots: dict[str, bytes]) -> str:
     rows = "".join(
         f"<tr data-point='{html.escape(p['point'])}'><td>{html.escape(p['point'])}</td>"
         + "".join(f"<td data-field='{k}'>{fmt(p.get(k))}</td>" for k, _ in cols)
-        + f"<td class='flag'>{html.escape(', '.join(p['flags']) or '-')}</td></tr>"
+        + f"{_flags_cell(p['flags'])}</tr>"
         for p in points)
     figs = "".join(_figure(f"plot-ledger-{p['point']}", plots[f"ledger-{p['point']}"],
                            f"{p['point']}: cumulative damage and projection.")

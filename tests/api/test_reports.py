@@ -179,3 +179,33 @@ def test_reports_and_plots_are_cached_by_etag(client):
         "If-None-Match": svg.headers["ETag"]}).status_code == 304
     # The same plot drawn again is the same bytes (what the ETag promises).
     assert client.get(f"/v1/assessments/{a['id']}/plots/damage?format=svg").data == svg.data
+
+
+def test_cautions_on_the_page_are_grouped_by_point_in_severity_order(client):
+    # Issue 17: cautions for every point once, then each point's own, each group
+    # ordered critical, warning, general, note (service.engine.cautions.SEVERITIES).
+    from service.engine.cautions import SEVERITIES
+
+    x = np.random.default_rng(7).standard_normal(4000) * 60 + 40
+    r = client.post("/v1/assessments", json={
+        "samples": {"plain": x.tolist(), "corrected": x.tolist()}, "unit": "MPa",
+        "sample_rate_hz": 100, "settings": {"curve": "EN1993-1-9:71"},
+        "points": {"plain": {}, "corrected": {"mean_stress_method": "goodman",
+                                              "ultimate_strength": 510.0}}})
+    assert r.status_code == 201
+    a = r.get_json()
+    page = client.get(f"/v1/assessments/{a['id']}/report").get_data(as_text=True)
+    section = re.search(r"<section class='caution' id='cautions'>(.*?)</section>", page,
+                        flags=re.S).group(1)
+    groups = dict(re.findall(r"<h3 data-group='([^']+)'>[^<]*</h3><ul>(.*?)</ul>", section))
+    assert list(groups)[0] == "All points" and "Point corrected" in groups
+    own = re.findall(r"data-code='([^']+)'", groups["Point corrected"])
+    assert "mean_stress_on_welded_curve" in own
+    assert "mean_stress_on_welded_curve" not in groups.get("Point plain", "")
+    assert "mean_stress_on_welded_curve" not in groups["All points"]
+    for body in groups.values():
+        ranks = [SEVERITIES.index(s) for s in re.findall(r"data-severity='([^']+)'", body)]
+        assert ranks == sorted(ranks)
+    # Every caution of the resource is on the page, in some group.
+    assert {c["code"] for c in a["cautions"]} <= set(re.findall(r"data-code='([^']+)'",
+                                                                section))
