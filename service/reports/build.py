@@ -43,10 +43,12 @@ def assessment_plot(con, data_dir, row: dict, resource: dict, name: str,
     shared reads, when drawing a whole page)."""
     reads = reads or _Reads(con, data_dir, row)
     points = resource["points"]
+    of = f"assessment {row['id']}"
     if name == "damage":
         fig = plots.damage_by_point({p: v["damage"] for p, v in points.items()},
                                     {p: v["settings"]["allowable_damage"]
-                                     for p, v in points.items()})
+                                     for p, v in points.items()},
+                                    title=f"Damage by point ({of})")
     elif name == "history":
         rate = None
         if resource.get("duration_s"):
@@ -54,18 +56,20 @@ def assessment_plot(con, data_dir, row: dict, resource: dict, name: str,
             rate = n / resource["duration_s"]
         fig = plots.history({p: reads.samples(p) for p in points}, rate,
                             findings={p: (v.get("screening") or {}).get("findings") or []
-                                      for p, v in points.items()})
+                                      for p, v in points.items()},
+                            title=f"History, min/max envelope per column ({of})")
     elif name == "exceedance":
-        fig = plots.exceedance({p: reads.cycles(p)[0] for p in points})
+        fig = plots.exceedance({p: reads.cycles(p)[0] for p in points},
+                               title=f"Exceedance spectrum ({of})")
     else:
         table, dmg = reads.cycles(point)
         if name == "sn":
             curve, opts, _ = point_from_dict(points[point]["settings_used"])
             fig = plots.sn_with_spectrum(
                 curve, table, dmg, plots.entered_ranges(table, opts),
-                title=f"S-N curve and spectrum: point {point} (assessment {row['id']})")
+                title=f"S-N curve and spectrum: point {point} ({of})")
         else:
-            fig = plots.range_mean(table)
+            fig = plots.range_mean(table, title=f"Rainflow matrix: point {point} ({of})")
     return plots.render(fig, fmt)
 
 
@@ -87,7 +91,8 @@ def ledger_plot(con, asset_id: str, point: str, fmt: str = "svg") -> bytes:
     row = ledger_sql.get_point(con, asset_id, point)
     status = ledger.status(row)
     fig = plots.ledger_point(ledger_sql.point_history(con, asset_id, point),
-                             status["allowable_damage"], status["damage_rate_per_hour"])
+                             status["allowable_damage"], status["damage_rate_per_hour"],
+                             title=f"Running damage: point {point} (asset {status['asset']})")
     return plots.render(fig, fmt)
 
 

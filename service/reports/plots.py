@@ -90,7 +90,7 @@ FINDING_COLOURS = {"spike": "#c0392b", "clipping": "#8e44ad", "held": "#7f8c8d",
 
 
 def history(samples: dict[str, np.ndarray], sample_rate_hz: float | None,
-            columns: int = 800, findings: dict | None = None):
+            columns: int = 800, findings: dict | None = None, title: str | None = None):
     """Every point's history as an envelope, one row each. [MPa]
 
     ``findings`` ({point: [finding dicts]}) are marked where they are: a
@@ -118,12 +118,12 @@ def history(samples: dict[str, np.ndarray], sample_rate_hz: float | None,
             label += "\n" + ", ".join(sorted({f["kind"] for f in marked}))
         ax.set_ylabel(label, rotation=0, ha="right", va="center")
     axes[-1, 0].set_xlabel("time [s]" if sample_rate_hz else "sample")
-    fig.suptitle("History (min/max envelope per column)", color=INK, fontsize=10, x=0.02,
+    fig.suptitle(title or "History (min/max envelope per column)", color=INK, fontsize=10, x=0.02,
                  ha="left")
     return fig
 
 
-def range_mean(table, range_bins: int = 24, mean_bins: int = 24):
+def range_mean(table, range_bins: int = 24, mean_bins: int = 24, title: str | None = None):
     """The range-mean rainflow matrix as a heat map (cycles per bin)."""
     fig, ax = _figure(5.4, 4.0)
     if len(table):
@@ -133,11 +133,11 @@ def range_mean(table, range_bins: int = 24, mean_bins: int = 24):
         fig.colorbar(mesh, ax=ax, label="cycles")
     ax.set_xlabel("mean [MPa]")
     ax.set_ylabel("range [MPa]")
-    ax.set_title("Rainflow matrix", color=INK, loc="left")
+    ax.set_title(title or "Rainflow matrix", color=INK, loc="left")
     return fig
 
 
-def exceedance(tables: dict):
+def exceedance(tables: dict, title: str | None = None):
     """Range exceedance spectra: cycles at or above each range, log cycles."""
     fig, ax = _figure(5.4, 3.6)
     for k, (name, table) in enumerate(tables.items()):
@@ -147,7 +147,7 @@ def exceedance(tables: dict):
     ax.set_xscale("log")
     ax.set_xlabel("cycles at or above the range")
     ax.set_ylabel("range [MPa]")
-    ax.set_title("Exceedance spectrum", color=INK, loc="left")
+    ax.set_title(title or "Exceedance spectrum", color=INK, loc="left")
     if tables:
         ax.legend(frameon=False)
     return fig
@@ -231,7 +231,8 @@ def sn_with_spectrum(curve, table, damage_per_cycle, corrected_range=None, bins:
     return fig
 
 
-def damage_by_point(damage: dict[str, float | None], allowable: dict[str, float]):
+def damage_by_point(damage: dict[str, float | None], allowable: dict[str, float],
+                    title: str | None = None):
     """Damage of each point with its allowable damage sum marked."""
     names = list(damage)
     fig, ax = _figure(6.0, 0.8 + 0.35 * max(len(names), 1))
@@ -249,11 +250,12 @@ def damage_by_point(damage: dict[str, float | None], allowable: dict[str, float]
     ax.invert_yaxis()
     ax.set_xscale("symlog", linthresh=1e-6)
     ax.set_xlabel("Miner damage of the recording (bar) and the allowable sum (line) [-]")
-    ax.set_title("Damage by point", color=INK, loc="left")
+    ax.set_title(title or "Damage by point", color=INK, loc="left")
     return fig
 
 
-def ledger_point(history_rows: list[dict], allowable: float, rate_per_hour: float | None):
+def ledger_point(history_rows: list[dict], allowable: float, rate_per_hour: float | None,
+                 title: str | None = None):
     """Cumulative damage over recorded hours, with the projection to the allowable sum.
 
     Measured damage is a solid step line ending in a dot ("now"); the projection
@@ -288,7 +290,7 @@ def ledger_point(history_rows: list[dict], allowable: float, rate_per_hour: floa
     ax.axhline(allowable, color=ROSE, linewidth=1.2, label="allowable damage sum")
     ax.set_xlabel("recorded hours [h]")
     ax.set_ylabel("damage [-]")
-    ax.set_title("Running damage", color=INK, loc="left")
+    ax.set_title(title or "Running damage", color=INK, loc="left")
     ax.legend(frameon=False, fontsize=7)
     return fig
 

@@ -59,6 +59,22 @@ def test_plots_alone_as_svg_and_png(client):
     assert_problem(client.get(f"{base}/damage?format=gif"), 400, "bad-request")
 
 
+def test_a_plot_fetched_alone_names_its_subject_and_units(client):
+    # Issue 17: a plot saved on its own still says what it is of.
+    a = make_assessment(client)
+    base = f"/v1/assessments/{a['id']}/plots"
+    for plot in ("damage", "history", "exceedance", "sn?point=b", "range-mean?point=b"):
+        text = client.get(f"{base}/{plot}").get_data(as_text=True)
+        assert f"assessment {a['id']}" in text, plot
+        if "point=" in plot:
+            assert "point b" in text, plot
+        assert "MPa" in text or plot == "damage", plot
+    setup_asset(client, "boom", ("pin",))
+    post(client, "boom", 1, {"pin": np.random.default_rng(2).standard_normal(2000) * 80})
+    text = client.get("/v1/assets/boom/points/pin/plot").get_data(as_text=True)
+    assert "point pin (asset boom)" in text and "[h]" in text
+
+
 def test_asset_report_and_point_plot(client):
     setup_asset(client, "arm", ("a",))
     for i in range(3):
