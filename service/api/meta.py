@@ -11,6 +11,7 @@ from service.engine import units
 from service.engine.mean_stress import COMPRESSIVE_MEAN_POLICIES, MEAN_STRESS_METHODS
 from service.engine.rainflow import RESIDUE_TREATMENTS
 from service.engine.cautions import CAUTION_TEXTS, SEVERITIES
+from service.engine.damage import FLAGS
 from service.engine.equivalents import REDUCTION_NAMES
 from service.engine.rosette import ROSETTE_LAYOUTS
 from service.engine.screening import FINDING_KINDS, SCREENING_POLICIES
@@ -78,6 +79,7 @@ def methods():
                    finding_kinds=list(FINDING_KINDS),
                    plots=list(ASSESSMENT_PLOTS),
                    plot_formats=["svg", "png"],
+                   flags=list(FLAGS),
                    cautions=sorted(CAUTION_TEXTS),
                    caution_severities=list(SEVERITIES))
 

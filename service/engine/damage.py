@@ -42,6 +42,11 @@ CAUTIONS = tuple(c.text for c in GENERAL)
 FLAG_CAUTIONS = ("static_overload", "below_fatigue_limit", "no_cycles", "low_cycle_regime",
                  "above_yield", "range_above_static_limit")
 
+#: Every flag a point's result can carry (an assessment's point or a ledger
+#: point): one vocabulary for both, listed at /v1/methods.
+FLAGS = ("no_cycles", "static_overload", "below_fatigue_limit", "low_cycle_regime",
+         "allowable_reached", "above_yield", "range_above_static_limit", "no_blocks")
+
 _LOW_CYCLE_LIMIT = 1e4
 
 #: Shares (of damage) from which a validity caution is shown: below this the
@@ -282,6 +287,8 @@ def _assemble(table, per_cycle, top_rows, damage, overloads, max_inv_life, max_r
         flags.append("below_fatigue_limit")
     if not overloads and max_inv_life > 1.0 / _LOW_CYCLE_LIMIT:
         flags.append("low_cycle_regime")
+    if math.isfinite(damage) and damage >= opts.allowable_damage:
+        flags.append("allowable_reached")  # as the ledger says of its running sum
     per_repeat, cycles_per_repeat, residue_share = _per_repeat(
         table, per_cycle, damage, total_count, args, opts.load_factor)
     life = math.inf if per_repeat == 0 else opts.allowable_damage / per_repeat

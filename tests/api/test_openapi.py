@@ -143,3 +143,16 @@ def test_every_enumeration_of_the_contract_is_listed_at_methods(client):
 
     missing = {v for v in enums(DOC) if isinstance(v, str)} - listed - formats - internal
     assert not missing, sorted(missing)
+
+
+def test_every_flag_the_code_sets_is_listed_at_methods(client):
+    # One vocabulary of flags for assessments and the ledger (issue 17): every
+    # flag the service can set appears at /v1/methods.
+    import re
+    from pathlib import Path
+
+    listed = set(client.get("/v1/methods").get_json()["flags"])
+    root = Path(__file__).resolve().parents[2] / "service"
+    set_in_code = {m for f in root.rglob("*.py")
+                   for m in re.findall(r'flags\.append\("([a-z_]+)"\)', f.read_text())}
+    assert set_in_code and set_in_code <= listed, set_in_code - listed

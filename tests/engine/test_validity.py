@@ -449,3 +449,18 @@ def test_cautions_have_codes_severities_and_sentence_case():
     merged = merge({"p": r.caution_dicts()})
     ranks = [SEVERITIES.index(m["severity"]) for m in merged]
     assert ranks == sorted(ranks) and merged[0]["severity"] == "critical"
+
+
+def test_a_point_past_its_allowable_sum_is_flagged_as_the_ledger_flags_it():
+    # Issue 17: the assessment and the ledger use one flag, allowable_reached.
+    # EN 1993-1-9 cat. 71: 2e6 cycles of 71 MPa is damage 1.0 (the detail
+    # category's definition, sec. 7.1); half of them is 0.5.
+    from service.engine.damage import FLAGS
+
+    full = assess(spectrum([71.0], [2e6]), EN71)
+    assert full.damage == pytest.approx(1.0) and "allowable_reached" in full.flags
+    half = assess(spectrum([71.0], [1e6]), EN71)
+    assert "allowable_reached" not in half.flags
+    stricter = assess(spectrum([71.0], [1e6]), EN71, AssessmentOptions(allowable_damage=0.5))
+    assert "allowable_reached" in stricter.flags
+    assert set(full.flags) <= set(FLAGS)
