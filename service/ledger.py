@@ -369,7 +369,7 @@ def status(row: dict) -> dict:
         "damage_if_ended": damage + float(row["residue_damage"]),
         "allowable_damage": allowable,
         "consumed_percent": 100.0 * damage / allowable,
-        "recorded_hours": hours, "cycles": float(row["cycles"]),
+        "recorded_hours": hours, "cycles_counted": float(row["cycles"]),
         "damage_rate_per_hour": rate,
         "projected_hours_remaining": remaining,
         "runout": remaining is not None and math.isinf(remaining),

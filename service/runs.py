@@ -489,4 +489,4 @@ def point_samples(data_dir, assessment: dict, point: str, con=None) -> np.ndarra
 def range_mean(table: CycleTable, range_bins, mean_bins) -> dict:
     m = histograms.range_mean_matrix(table, range_bins=range_bins, mean_bins=mean_bins)
     return {"range_edges_mpa": m.row_edges.tolist(), "mean_edges_mpa": m.col_edges.tolist(),
-            "counts": m.counts.tolist(), "outside": m.outside}
+            "cycles": m.counts.tolist(), "outside": m.outside}

@@ -283,13 +283,13 @@ def range_mean(assessment_id: str, point: str):
     table, _ = _point(assessment_id, point)
     m = runs.range_mean(table, rb, mb)
     if fmt == "json":
-        return jsonify(point=point, units={"stress": "MPa", "counts": "cycles"}, **m)
+        return jsonify(point=point, units={"stress": "MPa", "cycles": "cycles"}, **m)
     # CSV and Parquet: one row a bin (long format), the same columns.
     r, me = np.asarray(m["range_edges_mpa"]), np.asarray(m["mean_edges_mpa"])
     i, j = np.meshgrid(np.arange(r.size - 1), np.arange(me.size - 1), indexing="ij")
     i, j = i.ravel(), j.ravel()
     cols = {"range_lo_mpa": r[i], "range_hi_mpa": r[i + 1], "mean_lo_mpa": me[j],
-            "mean_hi_mpa": me[j + 1], "cycles": np.asarray(m["counts"]).ravel()}
+            "mean_hi_mpa": me[j + 1], "cycles": np.asarray(m["cycles"]).ravel()}
     if fmt == "parquet":
         return _parquet(cols)
     return _csv(tuple(cols), zip(*(c.tolist() for c in cols.values())))

@@ -154,7 +154,7 @@ def point_history(asset: str, point: str):
     asset_id = _point(asset, point)["asset_id"]
     rows = [runs.json_safe(r) for r in sql.point_history(db(), asset_id, point)]
     cols = ("at", "reason", "block_id", "settings_version", "damage", "residue_damage",
-            "hours", "cycles")
+            "hours", "cycles_counted")
     if fmt == "csv":
         return _csv(cols, [["" if r[c] is None else r[c] for c in cols] for r in rows])
     return jsonify(asset=asset, point=point, items=rows)

@@ -112,7 +112,8 @@ def save_totals(con, asset_id: str, point: str, totals: dict, reason: str,
 
 def point_history(con, asset_id: str, point: str) -> list[dict]:
     return [dict(r) for r in con.execute(
-        "SELECT at, reason, block_id, settings_version, damage, residue_damage, hours, cycles "
+        "SELECT at, reason, block_id, settings_version, damage, residue_damage, hours, "
+        "cycles AS cycles_counted "
         "FROM point_totals WHERE asset_id = ? AND point = ? ORDER BY rowid",
         (asset_id, point))]
 

@@ -135,11 +135,11 @@ def test_summary_cycles_and_matrix_formats(client):
 
     m = client.get(f"/v1/assessments/{aid}/points/a/range-mean?range_bins=4&mean_bins=3")
     m = m.get_json()
-    assert np.sum(m["counts"]) + m["outside"] == pytest.approx(ref.total_count)
-    assert len(m["counts"]) == 4 and len(m["counts"][0]) == 3
+    assert np.sum(m["cycles"]) + m["outside"] == pytest.approx(ref.total_count)
+    assert len(m["cycles"]) == 4 and len(m["cycles"][0]) == 3
     base = f"/v1/assessments/{aid}/points/a/range-mean?range_bins=4&mean_bins=3"
     long = pq.read_table(io.BytesIO(client.get(base + "&format=parquet").data)).to_pandas()
-    assert len(long) == 12 and long["cycles"].sum() == pytest.approx(np.sum(m["counts"]))
+    assert len(long) == 12 and long["cycles"].sum() == pytest.approx(np.sum(m["cycles"]))
     rows = client.get(base + "&format=csv").get_data(as_text=True).strip().splitlines()
     assert rows[0] == "range_lo_mpa,range_hi_mpa,mean_lo_mpa,mean_hi_mpa,cycles"
     assert len(rows) == 13
