@@ -33,6 +33,21 @@ def test_assess_json_matches_the_engine(tmp_path, capsys):
     assert report["duration_s"] == pytest.approx(40.0)
 
 
+def test_assess_takes_an_absolute_gate_or_a_fraction_not_both(tmp_path, capsys):
+    # Issue 17: `gate` and `gate_fraction` are offered wherever a gate is.
+    rng = np.random.default_rng(9)
+    x = 50 * rng.standard_normal(4000)
+    path = tmp_path / "rec.csv"
+    path.write_text("time_s,g1\n" + "\n".join(f"{i / 100:.2f},{float(v)!r}" for i, v in enumerate(x)))
+    assert main(["assess", str(path), "--curve", "EN1993-1-9:71", "--gate", "30", "--json"]) == 0
+    got = json.loads(capsys.readouterr().out)["points"]["g1"]
+    expected = assess_history(x, catalogue_curve("EN1993-1-9:71"), duration_s=40.0, gate=30.0)
+    assert got["damage"] == pytest.approx(expected.damage, rel=1e-12)
+    assert got["cycles_counted"] == expected.cycles_counted
+    with pytest.raises(SystemExit):
+        main(["assess", str(path), "--gate", "30", "--gate-fraction", "0.1"])
+
+
 def test_assess_strain_channel_with_modulus(tmp_path, capsys):
     path = tmp_path / "rec.csv"
     path.write_text("g1\n0\n500\n-500\n500\n0\n")

@@ -52,8 +52,11 @@ def _recording_args(p, unit_help: str) -> None:
     p.add_argument("--unit", help=unit_help)
     p.add_argument("--youngs-modulus", dest="youngs_modulus", type=float,
                    help="E in MPa, for strain units")
-    p.add_argument("--gate-fraction", dest="gate_fraction", type=float,
-                   help="hysteresis gate as a fraction of each channel's range (default 0)")
+    gate = p.add_mutually_exclusive_group()
+    gate.add_argument("--gate", type=float,
+                      help="hysteresis gate for every channel [MPa] (default 0: none)")
+    gate.add_argument("--gate-fraction", dest="gate_fraction", type=float,
+                      help="hysteresis gate as a fraction of each channel's range (default 0)")
     p.add_argument("--sample-rate-hz", dest="sample_rate_hz", type=float,
                    help="samples a second, when the file has no time column [Hz]")
     p.add_argument("--time-column", dest="time_column",
@@ -80,7 +83,7 @@ READER_KEYS = ("delimiter", "decimal", "header_row", "channels", "group", "gauge
 def _recording_config(args) -> dict:
     """The points file (if any) with the command-line options over it."""
     config = json.loads(Path(args.points).read_text()) if args.points else {}
-    for key in ("unit", "youngs_modulus", "curve", "mean_stress_method", "gate_fraction",
+    for key in ("unit", "youngs_modulus", "curve", "mean_stress_method", "gate", "gate_fraction",
                 "sample_rate_hz", "time_column") + READER_KEYS:
         value = getattr(args, key, None)
         if value is not None:

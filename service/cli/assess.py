@@ -44,6 +44,7 @@ def assess_file(path: Path, config: dict) -> dict:
     points = config.get("points") or {c: {} for c in up.channels}
     defaults = {k: v for k, v in config.items() if k in ("curve", "mean_stress_method")}
     report = {"file": str(path), "duration_s": duration, "points": {}}
+    gate = float(config["gate"]) if config.get("gate") is not None else None
     gate_fraction = float(config.get("gate_fraction", 0.0)) or None
     for name, settings in points.items():
         if name not in up.channels:
@@ -52,7 +53,7 @@ def assess_file(path: Path, config: dict) -> dict:
         merged = {**defaults, **settings}
         point_from_dict(merged)
         # The service's own path for one point: screening, assessment, cautions.
-        out, _ = runs.assess_point(runs.PlannedPoint(name, up.channels[name], merged), None,
+        out, _ = runs.assess_point(runs.PlannedPoint(name, up.channels[name], merged), gate,
                                    gate_fraction, "half_cycles", duration)
         entry = {**out, "curve": out["curve"]["name"], "curve_source": out["curve"]["source"]}
         report["points"][name] = from_json(entry, duration is not None)
