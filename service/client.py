@@ -1,7 +1,7 @@
 """A small Python client for rig pipelines: upload, assess, wait, fetch as pandas.
 
-Standard library HTTP only (``urllib``), so a pipeline needs nothing beyond
-this package. DataFrames go up as Parquet, the fast path of the service;
+Standard library HTTP only (``http.client``, one kept-alive connection per
+thread), so a pipeline needs nothing beyond this package. DataFrames go up as Parquet, the fast path of the service;
 files go up as they are (the service reads rig formats itself). Every POST
 carries an ``Idempotency-Key``, so a request whose answer was lost (a
 timeout, a dropped connection, a 429 or 503) is retried with back-off
@@ -22,10 +22,10 @@ import http.client
 import io
 import json
 import os
+import socket
+import threading
 import time
-import urllib.error
 import urllib.parse
-import urllib.request
 
 PARQUET = "application/vnd.apache.parquet"
 
@@ -58,6 +58,12 @@ class Client:
         self.api_key = api_key if api_key is not None else os.environ.get(API_KEY_ENV) or None
         self.retries = retries
         self.backoff_s = backoff_s
+        # A path prefix (a service behind a proxy at /something) and one
+        # kept-alive connection per thread (http.client is not thread-safe).
+        self._prefix = urllib.parse.urlsplit(self.base_url).path.rstrip("/")
+        self._local = threading.local()
+        self._open: set = set()
+        self._lock = threading.Lock()
 
     # ------------------------------------------------------------------ plumbing
 
@@ -91,41 +97,97 @@ class Client:
                 time.sleep(wait if wait is not None else self.backoff_s * 2 ** attempt)
         raise AssertionError("unreachable")
 
+    def _connection(self) -> tuple[http.client.HTTPConnection, bool]:
+        """This thread's connection to the service (kept alive between
+        requests), and whether it has served a request before."""
+        conn = getattr(self._local, "conn", None)
+        if conn is None:
+            u = urllib.parse.urlsplit(self.base_url)
+            cls = http.client.HTTPSConnection if u.scheme == "https" else \
+                http.client.HTTPConnection
+            conn = cls(u.hostname, u.port, timeout=self.timeout_s)
+            self._local.conn, self._local.used = conn, False
+        with self._lock:
+            self._open.add(conn)  # again after close(): http.client reconnects on use
+        return conn, self._local.used
+
+    def _drop(self) -> None:
+        """Close this thread's connection (the next request opens another)."""
+        conn = getattr(self._local, "conn", None)
+        if conn is not None:
+            conn.close()
+            self._local.conn = None
+            with self._lock:
+                self._open.discard(conn)
+
+    def close(self) -> None:
+        """Close every connection of this client, of every thread."""
+        with self._lock:
+            conns, self._open = list(self._open), set()
+        for conn in conns:
+            conn.close()
+        self._local.conn = None
+
+    def __del__(self):
+        # Connections are closed with the client, not left to the collector.
+        if getattr(self, "_open", None):
+            self.close()
+
+    def __enter__(self):
+        return self
+
+    def __exit__(self, *exc) -> None:
+        self.close()
+
     def _once(self, method: str, path: str, *, body, content_type, params, headers, accept):
-        """One try of :meth:`request`."""
-        url = self.base_url + path
+        """One try of :meth:`request`, on this thread's kept-alive connection.
+
+        A connection the service closed while it sat idle fails on its next
+        use before any answer: that is not the service failing, so one new
+        connection is tried at once (without a back-off)."""
+        target = self._prefix + path
         if params:
-            url += "?" + urllib.parse.urlencode({k: v for k, v in params.items()
-                                                 if v is not None})
-        req = urllib.request.Request(url, data=body, method=method)
-        req.add_header("Accept", accept)
+            target += "?" + urllib.parse.urlencode({k: v for k, v in params.items()
+                                                    if v is not None})
+        send = {"Accept": accept}
         if self.api_key:
-            req.add_header("Authorization", f"Bearer {self.api_key}")
+            send["Authorization"] = f"Bearer {self.api_key}"
         if content_type:
-            req.add_header("Content-Type", content_type)
-        for k, v in (headers or {}).items():
-            req.add_header(k, v)
-        try:
-            with urllib.request.urlopen(req, timeout=self.timeout_s) as resp:
-                return resp.status, dict(resp.headers), resp.read()
-        except urllib.error.HTTPError as exc:
-            raw = exc.read()
+            send["Content-Type"] = content_type
+        send.update(headers or {})
+        for _ in range(2):
+            conn, reused = self._connection()
+            try:
+                conn.request(method, target, body=body, headers=send)
+                resp = conn.getresponse()
+                raw = resp.read()
+            except (ConnectionRefusedError, OSError, http.client.HTTPException) as exc:
+                self._drop()
+                if reused and isinstance(exc, (http.client.RemoteDisconnected,
+                                               ConnectionResetError, BrokenPipeError)):
+                    continue  # an idle connection the service had closed
+                if isinstance(exc, (ConnectionRefusedError, socket.gaierror)):
+                    raise ServiceError(0, {"title": "Unreachable", "detail": str(exc)}) from None
+                # The connection broke mid-request: the answer (if any) is lost;
+                # a pipeline retries, and the service counts a retry once.
+                raise ServiceError(0, {"title": "Connection lost", "detail": str(exc)}) from None
+            self._local.used = True
+            if resp.will_close:
+                self._drop()
+            if resp.status < 400:
+                return resp.status, dict(resp.headers), raw
             try:
                 problem = json.loads(raw)
             except ValueError:
-                problem = {"title": exc.reason, "detail": raw[:200].decode("utf-8", "replace")}
-            err = ServiceError(exc.code, problem)
+                problem = {"title": resp.reason, "detail": raw[:200].decode("utf-8", "replace")}
+            err = ServiceError(resp.status, problem)
             try:
-                err.retry_after_s = float(exc.headers.get("Retry-After"))
+                err.retry_after_s = float(resp.headers.get("Retry-After"))
             except (TypeError, ValueError):
                 pass
-            raise err from None
-        except urllib.error.URLError as exc:
-            raise ServiceError(0, {"title": "Unreachable", "detail": str(exc.reason)}) from None
-        except (OSError, http.client.HTTPException) as exc:
-            # The connection broke mid-request: the answer (if any) is lost;
-            # a pipeline retries, and the service counts a retry once.
-            raise ServiceError(0, {"title": "Connection lost", "detail": str(exc)}) from None
+            raise err
+        raise ServiceError(0, {"title": "Connection lost",
+                               "detail": "the service closed the connection twice"})
 
     def get_json(self, path: str, **params) -> dict:
         return json.loads(self.request("GET", path, params=params)[2])

@@ -6,6 +6,7 @@ from __future__ import annotations
 
 import json
 import threading
+import time
 
 import numpy as np
 import pandas as pd
@@ -29,6 +30,29 @@ def served(tmp_path):
     yield f"http://127.0.0.1:{server.effective_port}"
     stop_waitress(server, thread)
     app.extensions["cycleledger.jobs"].shutdown()
+
+
+def test_client_keeps_its_connection_alive_and_survives_a_closed_one(served):
+    # Issue 18: one connection per thread for many requests (no TCP set-up
+    # each time); a connection dropped while idle is replaced at once.
+    import socket
+
+    with Client(served, timeout_s=60) as c:
+        assert c.ready()
+        port = c._local.conn.sock.getsockname()[1]
+        for _ in range(5):
+            assert c.get_json("/v1/version")["name"] == "cycleledger"
+        assert c._local.conn.sock.getsockname()[1] == port  # the same connection
+        c._local.conn.sock.shutdown(socket.SHUT_RDWR)  # as if the service had closed it
+        t0 = time.monotonic()
+        assert c.get_json("/v1/version")["api"] == "v1"
+        assert time.monotonic() - t0 < c.backoff_s  # a new connection, not a back-off
+        assert c._local.conn.sock.getsockname()[1] != port
+    assert c._local.conn is None  # closed on leaving the block
+    unreachable = Client("http://127.0.0.1:1", retries=0)
+    with pytest.raises(ServiceError) as err:
+        unreachable.get_json("/v1/version")
+    assert err.value.status == 0 and err.value.problem["title"] == "Unreachable"
 
 
 def test_client_round_trip_with_a_job(served):
