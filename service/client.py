@@ -44,6 +44,20 @@ class ServiceError(Exception):
 API_KEY_ENV = "CYCLELEDGER_API_KEY"
 
 
+def _body(data) -> tuple[bytes, str]:
+    """A file path's bytes as they are (the service recognises the format), or
+    a DataFrame / ``{channel: array}`` as Parquet; with its content type."""
+    if isinstance(data, (str, bytes)) or hasattr(data, "__fspath__"):
+        with open(data, "rb") as f:
+            return f.read(), "application/octet-stream"
+    import pandas as pd
+
+    df = data if isinstance(data, pd.DataFrame) else pd.DataFrame(dict(data))
+    buf = io.BytesIO()
+    df.to_parquet(buf, index=False)
+    return buf.getvalue(), PARQUET
+
+
 class Client:
     """Talk to one cycleledger service at ``base_url``.
 
@@ -214,17 +228,7 @@ class Client:
         ``options`` are the reader's (``delimiter``, ``decimal``,
         ``header_row``, ``channels``, ``group``, ``gauge_factor_set``,
         ``gauge_factor``)."""
-        if isinstance(data, (str, bytes)) or hasattr(data, "__fspath__"):
-            with open(data, "rb") as f:
-                body = f.read()
-            content_type = "application/octet-stream"
-        else:
-            import pandas as pd
-
-            df = data if isinstance(data, pd.DataFrame) else pd.DataFrame(dict(data))
-            buf = io.BytesIO()
-            df.to_parquet(buf, index=False)
-            body, content_type = buf.getvalue(), PARQUET
+        body, content_type = _body(data)
         params = {"unit": unit, "youngs_modulus": youngs_modulus,
                   "sample_rate_hz": sample_rate_hz, "name": name, "time_column": time_column,
                   **options}
@@ -302,17 +306,7 @@ class Client:
                    **options) -> dict:
         """Post one block (a DataFrame, ``{point: array}`` or a file path) for
         the asset's points; a retry is counted once (the key, and ``seq``)."""
-        if isinstance(data, (str, bytes)) or hasattr(data, "__fspath__"):
-            with open(data, "rb") as f:
-                body = f.read()
-            content_type = "application/octet-stream"
-        else:
-            import pandas as pd
-
-            df = data if isinstance(data, pd.DataFrame) else pd.DataFrame(dict(data))
-            buf = io.BytesIO()
-            df.to_parquet(buf, index=False)
-            body, content_type = buf.getvalue(), PARQUET
+        body, content_type = _body(data)
         headers = {"Idempotency-Key": idempotency_key} if idempotency_key else None
         _, _, raw = self.request(
             "POST", f"/v1/assets/{urllib.parse.quote(asset, safe='')}/blocks", body=body,
