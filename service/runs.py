@@ -355,8 +355,34 @@ def assess_point(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
         screening=signal,
     )
     if block is not None:
-        out["multiaxial"] = block
+        out["multiaxial"] = _echo(block)
     return json_safe(out), r.damage_per_cycle
+
+
+def _echo(spec: dict) -> dict:
+    """A multiaxial point's block in the request's own names: ``rosette`` and
+    ``gauges``, or ``components`` as ``{component: channel}``."""
+    out = dict(spec)
+    channels = out.pop("channels")
+    if out["kind"] == "rosette":
+        out["rosette"], out["gauges"] = out.pop("layout"), channels
+    else:
+        out["components"] = dict(zip(out["components"], channels))
+    return out
+
+
+def _unecho(block: dict) -> dict:
+    """The planned spec from a stored block (either naming: results stored
+    before the echo used the request's names hold ``layout``/``channels``)."""
+    if "channels" in block:
+        return block
+    spec = dict(block)
+    if spec["kind"] == "rosette":
+        spec["layout"], spec["channels"] = spec.pop("rosette"), spec.pop("gauges")
+    else:
+        comps = spec.pop("components")
+        spec["components"], spec["channels"] = list(comps), list(comps.values())
+    return spec
 
 
 def _screened(channel: str, samples, rate, policy: str, thresholds) -> list:
@@ -469,6 +495,7 @@ def point_samples(data_dir, assessment: dict, point: str, con=None) -> np.ndarra
     multiaxial point the governing reduction (or plane) rebuilt from its
     stored channels. [MPa]"""
     spec = assessment["result"]["points"][point].get("multiaxial")
+    spec = _unecho(spec) if spec else None
     names = spec["channels"] if spec else [point]
     if assessment["samples_file"]:
         read = parquet.read_channels(data_dir, assessment["samples_file"], names)

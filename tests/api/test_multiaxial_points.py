@@ -44,7 +44,7 @@ def test_rosette_point_is_reduced_assessed_and_recounted(client):
     assert set(a["points"]) == {"g1", "toe"}  # the gauges are not points of their own
     toe = a["points"]["toe"]
     m = toe["multiaxial"]
-    assert m["kind"] == "rosette" and m["channels"] == ["ra", "rb", "rc"]
+    assert m["kind"] == "rosette" and m["rosette"] == "rectangular" and m["gauges"] == ["ra", "rb", "rc"]
     assert set(m["damages"]) == {"signed_von_mises", "abs_max_principal", "critical_plane"}
     # Engine path on the same numbers (the service converts microstrain x E to MPa).
     ra, rb, rc = (np.asarray(gauges[k]) * 1e-6 * E for k in ("ra", "rb", "rc"))
@@ -92,6 +92,8 @@ def test_plane_stress_components_from_a_stored_history(client):
     web = r.get_json()["points"]["web"]
     assert set(r.get_json()["points"]) == {"web"}
     assert web["multiaxial"]["non_proportional"]
+    # Echoed in the request's names (issue 17).
+    assert web["multiaxial"]["components"] == {"sxx": "sx", "syy": "sy", "sxy": "txy"}
     assert any(c["code"] == "non_proportional" for c in web["cautions"])
     ref = assess_multiaxial(np.stack([cols["sx"], cols["sy"], cols["txy"]], 1), EN71,
                             plane_step_deg=5, duration_s=h["duration_s"])
@@ -192,3 +194,18 @@ def test_shear_planes_over_http(client):
         "multiaxial": {"shaft": {"components": {"sxx": "sx", "syy": "sy", "sxy": "txy"},
                                  "reductions": ["critical_plane_shear"]}}})
     assert_problem(r, 422, "invalid-parameter", field="shear_settings")
+
+
+def test_the_echo_in_request_names_reads_back_as_the_plan_and_old_results_still_read():
+    from service.runs import _echo, _unecho
+
+    rosette = {"kind": "rosette", "layout": "delta", "channels": ["a", "b", "c"],
+               "poisson_ratio": 0.3, "reduction": "signed_von_mises"}
+    tensor = {"kind": "plane_stress", "components": ["sxx", "syy", "sxy"],
+              "channels": ["x", "y", "t"], "reduction": "critical_plane"}
+    for spec in (rosette, tensor):
+        echoed = _echo(spec)
+        assert "channels" not in echoed and "layout" not in echoed
+        assert _unecho(echoed) == spec
+        assert _unecho(spec) == spec  # a result stored before the echo
+    assert _echo(rosette)["rosette"] == "delta" and _echo(rosette)["gauges"] == ["a", "b", "c"]
