@@ -349,7 +349,7 @@ def assess_point(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
         top_cycles=r.top_cycles,
         curve=r.curve,
         estimate=estimate.as_dict() if estimate is not None else None,
-        settings={**r.options, "residue": residue},
+        options={**r.options, "residue": residue},
         settings_used=settings_used,
         cautions=r.caution_dicts() + [c.as_dict() for c in extra_cautions],
         screening=signal,
@@ -357,6 +357,13 @@ def assess_point(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
     if block is not None:
         out["multiaxial"] = _echo(block)
     return json_safe(out), r.damage_per_cycle
+
+
+def options_of(point_result: dict) -> dict:
+    """Every assessment option a point ran with, defaults filled. Results
+    stored before the rename called them ``settings`` (issue 17: ``settings``
+    is what a user sends, ``settings_used`` those resolved, ``options`` all)."""
+    return point_result.get("options") or point_result["settings"]
 
 
 def _echo(spec: dict) -> dict:
@@ -484,7 +491,7 @@ def point_cycles(data_dir, assessment: dict, point: str,
     """
     res = assessment["result"]["points"][point]
     samples = point_samples(data_dir, assessment, point, con)
-    table = astm_e1049(samples, gate=res["gate_mpa"], residue=res["settings"]["residue"])
+    table = astm_e1049(samples, gate=res["gate_mpa"], residue=options_of(res)["residue"])
     curve, opts, _ = point_from_dict(res["settings_used"])
     r = assess(table, curve, replace(opts, reserve_factor=False, top_cycles=0))
     return table, r.damage_per_cycle

@@ -142,7 +142,7 @@ def assessment_page(resource: dict, plots: dict[str, bytes]) -> str:
                "</section>")
     settings = []
     for name, p in points.items():
-        s = p["settings"]
+        s = p.get("options") or p["settings"]  # stored before the rename: settings
         curve = p["curve"]
         est = p.get("estimate")
         factors = ""

@@ -82,7 +82,7 @@ def test_points_override_settings_and_subset(client):
     pts = client.post("/v1/assessments", json=body).get_json()["points"]
     assert set(pts) == {"a", "b"}
     assert pts["b"]["curve"]["name"] == "IIW:FAT80"
-    assert pts["b"]["settings"]["allowable_damage"] == 0.5
+    assert pts["b"]["options"]["allowable_damage"] == 0.5
 
 
 def test_inline_samples_in_strain(client):

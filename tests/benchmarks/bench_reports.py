@@ -42,7 +42,7 @@ def plots_in_memory(resource: dict, samples: dict, cycles: dict, rate: float) ->
     """Every plot of the page from data already read and counted."""
     points = resource["points"]
     plots.render(plots.damage_by_point({p: v["damage"] for p, v in points.items()},
-                                       {p: v["settings"]["allowable_damage"]
+                                       {p: v["options"]["allowable_damage"]
                                         for p, v in points.items()}))
     plots.render(plots.history(samples, rate))
     plots.render(plots.exceedance({p: c[0] for p, c in cycles.items()}))
