@@ -12,7 +12,7 @@ from flask import Blueprint, Response, current_app, jsonify, request, url_for
 from service import runs
 from service.store import parquet, sqlite
 
-from . import created, data_dir, db, idempotency, json_object, uploads
+from . import caching, created, data_dir, db, idempotency, json_object, uploads
 from .access import project
 from .histories import load as load_history, page_args
 from .problems import ApiProblem, NotAcceptable, NotFound, TooManyJobs
@@ -176,6 +176,7 @@ def list_all():
 
 
 @bp.get("/v1/assessments/<assessment_id>")
+@caching.by_content
 def get_one(assessment_id: str):
     return jsonify(resource(load(assessment_id)))
 
@@ -224,6 +225,7 @@ def _csv(header, rows) -> Response:
 
 
 @bp.get("/v1/assessments/<assessment_id>/summary")
+@caching.by_content
 def summary(assessment_id: str):
     """One row per point: the figures a dashboard or report needs."""
     fmt = _format(("json", "csv"))
@@ -254,6 +256,7 @@ def _point(assessment_id: str, point: str):
 
 
 @bp.get("/v1/assessments/<assessment_id>/points/<point>/cycles")
+@caching.by_content
 def cycles(assessment_id: str, point: str):
     """Every counted cycle of a point with its damage (JSON, CSV or Parquet)."""
     fmt = _format(("json", "csv", "parquet"))
@@ -269,6 +272,7 @@ def cycles(assessment_id: str, point: str):
 
 
 @bp.get("/v1/assessments/<assessment_id>/points/<point>/range-mean")
+@caching.by_content
 def range_mean(assessment_id: str, point: str):
     """Range-mean matrix of a point's cycles (``range_bins``, ``mean_bins``)."""
     fmt = _format(("json", "csv", "parquet"))

@@ -12,6 +12,7 @@ project: shared caches must not keep them) with a long ``max-age`` and
 
 from __future__ import annotations
 
+import functools
 import hashlib
 
 from flask import Response, request
@@ -45,3 +46,27 @@ def immutable(resp: Response, etag: str) -> Response:
     resp.vary.add("Accept")
     resp.vary.add("Authorization")
     return resp
+
+
+def by_content(view):
+    """A view's 200 answers get a strong ETag from their bytes and
+    ``Cache-Control: private, no-cache``: a client revalidates every time and
+    gets 304 without the body when nothing changed. For resources that are
+    fixed in practice but could change (an assessment whose history was
+    deleted loses that link), where a path-based ETag would be wrong."""
+
+    @functools.wraps(view)
+    def wrapped(*args, **kwargs):
+        resp = view(*args, **kwargs)
+        if not isinstance(resp, Response) or resp.status_code != 200 or resp.is_streamed:
+            return resp
+        etag = hashlib.sha256(resp.get_data()).hexdigest()[:32]
+        if etag in request.if_none_match:
+            resp = Response(status=304)
+        resp.set_etag(etag)
+        resp.headers["Cache-Control"] = "private, no-cache"
+        resp.vary.add("Accept")
+        resp.vary.add("Authorization")
+        return resp
+
+    return wrapped

@@ -197,6 +197,23 @@ def test_reports_and_plots_are_cached_by_etag(client):
     assert client.get(f"/v1/assessments/{a['id']}/plots/damage?format=svg").data == svg.data
 
 
+@pytest.mark.parametrize("path", ["", "/summary", "/summary?format=csv",
+                                  "/points/a/cycles?format=parquet", "/points/a/range-mean"])
+def test_results_revalidate_by_their_bytes(client, path):
+    # Issue 18: an assessment's JSON, summary, cycles and matrix carry an
+    # ETag of their bytes; a client holding them gets 304 without a body, and
+    # one holding anything else gets the body again.
+    a = make_assessment(client)
+    url = f"/v1/assessments/{a['id']}{path}"
+    first = client.get(url)
+    etag = first.headers["ETag"]
+    assert first.status_code == 200 and first.headers["Cache-Control"] == "private, no-cache"
+    again = client.get(url, headers={"If-None-Match": etag})
+    assert again.status_code == 304 and again.data == b"" and again.headers["ETag"] == etag
+    stale = client.get(url, headers={"If-None-Match": '"0123"'})
+    assert stale.status_code == 200 and stale.data == first.data
+
+
 def test_cautions_on_the_page_are_grouped_by_point_in_severity_order(client):
     # Issue 17: cautions for every point once, then each point's own, each group
     # ordered critical, warning, general, note (service.engine.cautions.SEVERITIES).
