@@ -22,6 +22,7 @@ import http.client
 import io
 import json
 import os
+import pathlib
 import socket
 import threading
 import time
@@ -44,12 +45,15 @@ class ServiceError(Exception):
 API_KEY_ENV = "CYCLELEDGER_API_KEY"
 
 
-def _body(data) -> tuple[bytes, str]:
-    """A file path's bytes as they are (the service recognises the format), or
-    a DataFrame / ``{channel: array}`` as Parquet; with its content type."""
+def _body(data) -> tuple[bytes | pathlib.Path, str]:
+    """A file as its path (streamed as it is when sent: the service recognises
+    the format), or a DataFrame / ``{channel: array}`` as Parquet bytes; with
+    its content type."""
     if isinstance(data, (str, bytes)) or hasattr(data, "__fspath__"):
-        with open(data, "rb") as f:
-            return f.read(), "application/octet-stream"
+        path = pathlib.Path(os.fsdecode(data))
+        if not path.is_file():
+            raise FileNotFoundError(f"no file {path}")
+        return path, "application/octet-stream"
     import pandas as pd
 
     df = data if isinstance(data, pd.DataFrame) else pd.DataFrame(dict(data))
@@ -171,8 +175,13 @@ class Client:
         send.update(headers or {})
         for _ in range(2):
             conn, reused = self._connection()
+            # A file goes up from disk in blocks, never whole in memory; each
+            # try reads it again from the start.
+            stream = open(body, "rb") if isinstance(body, pathlib.PurePath) else None
+            if stream is not None:
+                send["Content-Length"] = str(os.fstat(stream.fileno()).st_size)
             try:
-                conn.request(method, target, body=body, headers=send)
+                conn.request(method, target, body=stream or body, headers=send)
                 resp = conn.getresponse()
                 raw = resp.read()
             except (ConnectionRefusedError, OSError, http.client.HTTPException) as exc:
@@ -185,6 +194,9 @@ class Client:
                 # The connection broke mid-request: the answer (if any) is lost;
                 # a pipeline retries, and the service counts a retry once.
                 raise ServiceError(0, {"title": "Connection lost", "detail": str(exc)}) from None
+            finally:
+                if stream is not None:
+                    stream.close()
             self._local.used = True
             if resp.will_close:
                 self._drop()

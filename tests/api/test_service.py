@@ -55,6 +55,33 @@ def test_client_keeps_its_connection_alive_and_survives_a_closed_one(served):
     assert err.value.status == 0 and err.value.problem["title"] == "Unreachable"
 
 
+def test_client_streams_a_file_from_disk_and_again_on_a_retry(served, tmp_path, monkeypatch):
+    # Issue 18: a recording goes up as it is, read from disk in blocks (never
+    # whole in memory); a retry sends it again from its start.
+    import http.client
+
+    x = np.random.default_rng(6).standard_normal(20_000) * 40
+    path = tmp_path / "run.csv"
+    path.write_text("time_s,g1\n" + "\n".join(f"{i / 100:.2f},{v:.3f}" for i, v in enumerate(x)))
+    sent = []
+    real = http.client.HTTPConnection.request
+
+    def request(self, method, url, body=None, headers=None, **kw):
+        sent.append((type(body).__name__, headers.get("Content-Length")))
+        if len(sent) == 1 and method == "POST":  # the first try is lost on the way
+            self.close()
+            raise ConnectionResetError("lost")
+        return real(self, method, url, body=body, headers=headers, **kw)
+
+    monkeypatch.setattr(http.client.HTTPConnection, "request", request)
+    with Client(served, timeout_s=60, backoff_s=0.01) as c:
+        h = c.upload(path, unit="MPa")
+    assert sent[0] == sent[1] == ("BufferedReader", str(path.stat().st_size))
+    assert h["sample_count"] == x.size and h["channels"][0]["name"] == "g1"
+    with pytest.raises(FileNotFoundError):
+        Client(served).upload(tmp_path / "missing.csv")
+
+
 def test_client_round_trip_with_a_job(served):
     c = Client(served, timeout_s=60)
     assert c.ready()
