@@ -117,27 +117,33 @@ def _prefers_async() -> bool:
 def _queue(body, channels, duration, hid, n_points, samples_file, names):
     job_id = sqlite.new_id("j")
     con = db()
-    limit = current_app.config["MAX_QUEUED_JOBS"]
     # What re-runs the job after a restart: the request, and inline samples
     # (already in MPa) in a file of their own, removed when the job ends.
     stored = {"body": {k: v for k, v in body.items() if k != "samples"}, "history_id": hid,
               "samples_file": samples_file, "duration_s": duration, "channels": names}
     input_file = None if hid else parquet.write_columns(data_dir(), JOB_INPUTS, job_id,
                                                         channels())
+    admit_job(con, job_id, "assessment", n_points, stored, input_file)
+    current_app.extensions["cycleledger.jobs"].submit_assessment(
+        job_id, body, channels, duration, hid, samples_file, project=project())
+    return created(job_resource(sqlite.get_job(con, project(), job_id)), 202)
+
+
+def admit_job(con, job_id: str, kind: str, size: int, stored: dict,
+              input_file: str | None) -> None:
+    """Store a job for the queue, or 429 when ``MAX_QUEUED_JOBS`` are queued
+    or running (its input file, already written, is then removed)."""
+    limit = current_app.config["MAX_QUEUED_JOBS"]
     try:
         with sqlite.write(con):
             waiting = sqlite.count_jobs(con, ("queued", "running"))
             if waiting >= limit:
                 raise TooManyJobs(f"{waiting} jobs are queued or running (limit {limit}); "
                                   f"retry later", retry_after_s=5, limit=limit)
-            sqlite.insert_job(con, project(), job_id, "assessment", n_points, stored,
-                              input_file)
+            sqlite.insert_job(con, project(), job_id, kind, size, stored, input_file)
     except BaseException:
         parquet.remove(data_dir(), input_file)
         raise
-    current_app.extensions["cycleledger.jobs"].submit_assessment(
-        job_id, body, channels, duration, hid, samples_file, project=project())
-    return created(job_resource(sqlite.get_job(con, project(), job_id)), 202)
 
 
 def job_resource(job: dict) -> dict:

@@ -20,9 +20,9 @@ from service.store import parquet, sqlite
 
 from . import created, data_dir, db, json_object
 from .access import project
-from .assessments import JOB_INPUTS, _csv, _format, job_resource
+from .assessments import JOB_INPUTS, _csv, _format, admit_job, job_resource
 from .histories import page_args, spool_body
-from .problems import ApiProblem, InvalidUpload, MalformedBody, NotFound, TooManyJobs
+from .problems import ApiProblem, InvalidUpload, MalformedBody, NotFound
 
 bp = Blueprint("superpositions", __name__)
 _TYPES = {"application/vnd.apache.parquet": "parquet", "application/x-parquet": "parquet",
@@ -113,7 +113,6 @@ def create():
     unit_set = _load_unit_set(sid)
     checked = sup.check_request(body, unit_set)
     con = db()
-    limit = current_app.config["MAX_QUEUED_JOBS"]
     job_id = sqlite.new_id("j")
     # What re-runs the job after a restart: the checked request, and the
     # loads in a file of their own (removed when the job ends).
@@ -121,17 +120,7 @@ def create():
               "checked": {k: v for k, v in checked.items() if k != "loads"}}
     input_file = parquet.write_columns(data_dir(), JOB_INPUTS, job_id, dict(
         zip(unit_set["load_cases"], checked["loads"])))
-    try:
-        with sqlite.write(con):
-            waiting = sqlite.count_jobs(con, ("queued", "running"))
-            if waiting >= limit:
-                raise TooManyJobs(f"{waiting} jobs are queued or running (limit {limit}); "
-                                  f"retry later", retry_after_s=5, limit=limit)
-            sqlite.insert_job(con, project(), job_id, "superposition", unit_set["nodes"],
-                              stored, input_file)
-    except BaseException:
-        parquet.remove(data_dir(), input_file)
-        raise
+    admit_job(con, job_id, "superposition", unit_set["nodes"], stored, input_file)
     current_app.extensions["cycleledger.jobs"].submit_superposition(job_id, project(),
                                                                     unit_set, checked)
     return created(job_resource(sqlite.get_job(con, project(), job_id)), 202)
