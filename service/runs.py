@@ -359,13 +359,6 @@ def assess_point(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
     return json_safe(out), r.damage_per_cycle
 
 
-def options_of(point_result: dict) -> dict:
-    """Every assessment option a point ran with, defaults filled. Results
-    stored before the rename called them ``settings`` (issue 17: ``settings``
-    is what a user sends, ``settings_used`` those resolved, ``options`` all)."""
-    return point_result.get("options") or point_result["settings"]
-
-
 def _echo(spec: dict) -> dict:
     """A multiaxial point's block in the request's own names: ``rosette`` and
     ``gauges``, or ``components`` as ``{component: channel}``."""
@@ -379,10 +372,8 @@ def _echo(spec: dict) -> dict:
 
 
 def _unecho(block: dict) -> dict:
-    """The planned spec from a stored block (either naming: results stored
-    before the echo used the request's names hold ``layout``/``channels``)."""
-    if "channels" in block:
-        return block
+    """The planned spec from a stored block (:func:`_echo` undone; results
+    stored before the echo are rewritten by store migration 10)."""
     spec = dict(block)
     if spec["kind"] == "rosette":
         spec["layout"], spec["channels"] = spec.pop("rosette"), spec.pop("gauges")
@@ -491,7 +482,7 @@ def point_cycles(data_dir, assessment: dict, point: str,
     """
     res = assessment["result"]["points"][point]
     samples = point_samples(data_dir, assessment, point, con)
-    table = astm_e1049(samples, gate=res["gate_mpa"], residue=options_of(res)["residue"])
+    table = astm_e1049(samples, gate=res["gate_mpa"], residue=res["options"]["residue"])
     curve, opts, _ = point_from_dict(res["settings_used"])
     r = assess(table, curve, replace(opts, reserve_factor=False, top_cycles=0))
     return table, r.damage_per_cycle

@@ -10,9 +10,8 @@ from pathlib import Path
 from service import formatting
 
 
-def _fmt(v) -> str:
-    """A number for the table (``service.formatting``'s one policy)."""
-    return formatting.number(v)
+#: A number for the table (``service.formatting``'s one policy).
+_fmt = formatting.number
 
 
 def from_json(entry: dict, has_duration: bool) -> dict:

@@ -46,7 +46,7 @@ def assessment_plot(con, data_dir, row: dict, resource: dict, name: str,
     of = f"assessment {row['id']}"
     if name == "damage":
         fig = plots.damage_by_point({p: v["damage"] for p, v in points.items()},
-                                    {p: runs.options_of(v)["allowable_damage"]
+                                    {p: v["options"]["allowable_damage"]
                                      for p, v in points.items()},
                                     title=f"Damage by point ({of})")
     elif name == "history":

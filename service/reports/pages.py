@@ -142,7 +142,7 @@ def assessment_page(resource: dict, plots: dict[str, bytes]) -> str:
                "</section>")
     settings = []
     for name, p in points.items():
-        s = p.get("options") or p["settings"]  # stored before the rename: settings
+        s = p["options"]
         curve = p["curve"]
         est = p.get("estimate")
         factors = ""

@@ -9,6 +9,7 @@ oldest migration, is refused with a message.
 
 from __future__ import annotations
 
+import json
 import sqlite3
 
 
@@ -38,8 +39,31 @@ def _to_9(con) -> None:
     """The audit trail: a new table, made by ``schema.sql`` itself."""
 
 
+def _to_10(con) -> None:
+    """Stored assessment results in the names of issue 17: a point's full
+    options ``settings`` -> ``options`` (``settings`` now always means what a
+    user sent), and a multiaxial point's echo in the request's names
+    (``layout``/``channels`` -> ``rosette``/``gauges``, or ``components`` as
+    ``{component: channel}``). Written out here, not imported: a migration is
+    a fixed step, whatever the code does later."""
+    rows = con.execute("SELECT id, result FROM assessments WHERE result IS NOT NULL").fetchall()
+    for aid, text in rows:
+        result = json.loads(text)
+        for p in (result.get("points") or {}).values():
+            if "settings" in p and "options" not in p:
+                p["options"] = p.pop("settings")
+            m = p.get("multiaxial")
+            if m and "channels" in m:
+                channels = m.pop("channels")
+                if m.get("kind") == "rosette":
+                    m["rosette"], m["gauges"] = m.pop("layout"), channels
+                else:
+                    m["components"] = dict(zip(m["components"], channels))
+        con.execute("UPDATE assessments SET result = ? WHERE id = ?", (json.dumps(result), aid))
+
+
 #: version -> the step from the version before it.
-MIGRATIONS = {7: _to_7, 8: _to_8, 9: _to_9}
+MIGRATIONS = {7: _to_7, 8: _to_8, 9: _to_9, 10: _to_10}
 #: The oldest version a directory may have to be upgraded.
 OLDEST = min(MIGRATIONS) - 1
 

@@ -1,6 +1,6 @@
 -- Metadata of the embedded store. Long arrays live in Parquet files beside
 -- the database; a row here names its file. Times are UTC ISO 8601 strings.
-PRAGMA user_version = 9;
+PRAGMA user_version = 10;
 
 -- Every stored thing belongs to a project (a namespace); an API key sees
 -- its own project's rows only. Without keys the service runs as project

@@ -60,7 +60,7 @@ def connect(data_dir: str | Path) -> sqlite3.Connection:
 
 
 #: Version of schema.sql (its PRAGMA user_version).
-SCHEMA_VERSION = 9
+SCHEMA_VERSION = 10
 
 
 class IncompatibleStore(RuntimeError):

@@ -196,8 +196,12 @@ def test_shear_planes_over_http(client):
     assert_problem(r, 422, "invalid-parameter", field="shear_settings")
 
 
-def test_the_echo_in_request_names_reads_back_as_the_plan_and_old_results_still_read():
+def test_the_echo_in_request_names_reads_back_as_the_plan_and_old_results_are_rewritten():
+    import json
+    import sqlite3
+
     from service.runs import _echo, _unecho
+    from service.store.migrations import MIGRATIONS
 
     rosette = {"kind": "rosette", "layout": "delta", "channels": ["a", "b", "c"],
                "poisson_ratio": 0.3, "reduction": "signed_von_mises"}
@@ -207,5 +211,18 @@ def test_the_echo_in_request_names_reads_back_as_the_plan_and_old_results_still_
         echoed = _echo(spec)
         assert "channels" not in echoed and "layout" not in echoed
         assert _unecho(echoed) == spec
-        assert _unecho(spec) == spec  # a result stored before the echo
     assert _echo(rosette)["rosette"] == "delta" and _echo(rosette)["gauges"] == ["a", "b", "c"]
+    # Results stored before the echo (and before `options`) are rewritten once,
+    # by store migration 10, into what the code reads now.
+    con = sqlite3.connect(":memory:")
+    con.execute("CREATE TABLE assessments (id TEXT, result TEXT)")
+    old = {"points": {"r": {"settings": {"residue": "half_cycles"}, "multiaxial": rosette},
+                      "t": {"settings": {"residue": "repeating_block"}, "multiaxial": tensor},
+                      "u": {"settings": {"residue": "half_cycles"}}}}
+    con.execute("INSERT INTO assessments VALUES ('a_1', ?), ('a_2', NULL)", (json.dumps(old),))
+    MIGRATIONS[10](con)
+    new = json.loads(con.execute("SELECT result FROM assessments WHERE id = 'a_1'").fetchone()[0])
+    assert new["points"]["r"]["multiaxial"] == _echo(rosette)
+    assert new["points"]["t"]["multiaxial"] == _echo(tensor)
+    assert new["points"]["t"]["options"] == {"residue": "repeating_block"}
+    assert all("settings" not in p for p in new["points"].values())
