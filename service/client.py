@@ -1,9 +1,10 @@
 """A small Python client for rig pipelines: upload, assess, wait, fetch as pandas.
 
 Standard library HTTP only (``http.client``, one kept-alive connection per
-thread), so a pipeline needs nothing beyond this package. DataFrames go up as Parquet, the fast path of the service;
-files go up as they are (the service reads rig formats itself). Every POST
-carries an ``Idempotency-Key``, so a request whose answer was lost (a
+thread), so a pipeline needs nothing beyond this package. DataFrames go up
+as Parquet, the fast path of the service; files are streamed as they are
+(the service reads rig formats itself). Every POST carries an
+``Idempotency-Key``, so a request whose answer was lost (a
 timeout, a dropped connection, a 429 or 503) is retried with back-off
 (``Retry-After`` honoured) and counted once.
 
@@ -184,7 +185,7 @@ class Client:
                 conn.request(method, target, body=stream or body, headers=send)
                 resp = conn.getresponse()
                 raw = resp.read()
-            except (ConnectionRefusedError, OSError, http.client.HTTPException) as exc:
+            except (OSError, http.client.HTTPException) as exc:
                 self._drop()
                 if reused and isinstance(exc, (http.client.RemoteDisconnected,
                                                ConnectionResetError, BrokenPipeError)):

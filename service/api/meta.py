@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import functools
 from importlib import resources
 
 from flask import Blueprint, Response, jsonify
@@ -29,12 +30,22 @@ OPENAPI = resources.files(__package__).joinpath("openapi.yaml")
 START_PAGE = resources.files(__package__).joinpath("start.html")
 
 
+@functools.cache
+def _start_page() -> str:
+    """The start page with the style it shares with the report pages."""
+    from service.reports.pages import BASE_CSS
+
+    return START_PAGE.read_text(encoding="utf-8").replace(
+        "<!-- the pages' shared style goes here (service.reports.pages.BASE_CSS) -->",
+        f"<style>{BASE_CSS}</style>", 1)
+
+
 @bp.get("/")
 def start():
     """The start page: assets and their used life, the latest assessments, a form to
     assess a recording. Public itself; its data come from the API with the key the
     user types (kept in the browser tab's session storage only)."""
-    return Response(START_PAGE.read_bytes(), mimetype="text/html",
+    return Response(_start_page(), mimetype="text/html",
                     headers={"Cache-Control": "no-cache",
                              "Content-Security-Policy": "default-src 'self'; "
                              "style-src 'unsafe-inline'; script-src 'unsafe-inline'; img-src 'self' data:; "

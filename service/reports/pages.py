@@ -14,7 +14,8 @@ from service.engine.cautions import as_dict as caution_dict
 from service.engine.cautions import caution
 from service.engine.cautions import general as general_cautions
 
-_CSS = """
+#: The style every page shares (report pages and the start page).
+BASE_CSS = """
 :root { --ink:#23313b; --teal:#17707f; --amber:#d48a0b; --rose:#b0384f; --ground:#eef3f4; }
 * { box-sizing: border-box; }
 body { margin: 0; font: 14px/1.45 "DejaVu Sans", "Segoe UI", sans-serif; color: var(--ink);
@@ -97,7 +98,7 @@ def _page(title: str, subtitle: str, body: list[str], cautions) -> str:
     return (
         "<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'>"
         f"<meta name='viewport' content='width=device-width, initial-scale=1'>"
-        f"<title>{html.escape(title)}</title><style>{_CSS}</style></head><body>"
+        f"<title>{html.escape(title)}</title><style>{BASE_CSS}</style></head><body>"
         f"<header><h1>{html.escape(title)}</h1><p>{html.escape(subtitle)}</p></header><main>"
         f"<section class='caution' id='cautions'><strong>Read before use.</strong>{items}"
         "</section>" + "".join(body) + "</main></body></html>")

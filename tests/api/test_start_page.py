@@ -32,6 +32,9 @@ def test_the_page_is_public_and_self_contained(tmp_path):
     page = r.get_data(as_text=True)
     assert "<script" in page and "src=" not in page.split("<script")[1][:20]  # inline only
     assert "http://" not in page and "https://" not in page  # nothing fetched from elsewhere
+    from service.reports.pages import BASE_CSS
+
+    assert BASE_CSS in page and "shared style goes here" not in page  # the pages' one style
     assert "default-src 'self'" in r.headers["Content-Security-Policy"]
     assert c.get("/v1/assets").status_code == 401
     app.extensions["cycleledger.jobs"].shutdown()
