@@ -32,7 +32,7 @@ def main() -> int:
     config = points()
     client = Client(args.url)
     try:
-        history = client.upload(args.recording, unit=config["unit"],
+        history = client.upload_history(args.recording, unit=config["unit"],
                                 youngs_modulus=config["youngs_modulus"])
         print(f"uploaded {history['id']}: {history['sample_count']} samples x "
               f"{len(history['channels'])} channels, {history['duration_s']} s")

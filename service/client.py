@@ -12,7 +12,7 @@ Example::
 
     from service.client import Client
     c = Client("http://127.0.0.1:8350")
-    h = c.upload(df, unit="microstrain", youngs_modulus=206000, sample_rate_hz=500)
+    h = c.upload_history(df, unit="microstrain", youngs_modulus=206000, sample_rate_hz=500)
     a = c.assess(history_id=h["id"], settings={"curve": "EN1993-1-9:71"})
     table = c.summary(a["id"])          # one row per point (DataFrame)
 """
@@ -28,6 +28,7 @@ import socket
 import threading
 import time
 import urllib.parse
+import warnings
 
 PARQUET = "application/vnd.apache.parquet"
 
@@ -232,7 +233,7 @@ class Client:
         except ServiceError:
             return False
 
-    def upload(self, data, *, unit: str | None = None, units: dict | None = None,
+    def upload_history(self, data, *, unit: str | None = None, units: dict | None = None,
                youngs_modulus: float | None = None, sample_rate_hz: float | None = None,
                name: str | None = None, time_column: str | None = None, **options) -> dict:
         """Upload a DataFrame or ``{channel: array}`` (sent as Parquet), or a
@@ -305,7 +306,7 @@ class Client:
         """Register an asset (the thing under test)."""
         return self.post_json("/v1/assets", {"name": name, "description": description})[1]
 
-    def add_point(self, asset: str, name: str, *, unit: str, settings: dict,
+    def create_point(self, asset: str, name: str, *, unit: str, settings: dict,
                   youngs_modulus: float | None = None) -> dict:
         """Register a measured point of ``asset`` with its unit and settings."""
         doc = {"name": name, "unit": unit, "settings": settings}
@@ -327,6 +328,19 @@ class Client:
             params={"seq": seq, "sample_rate_hz": sample_rate_hz, "recorded_at": recorded_at,
                     **options})
         return json.loads(raw)
+
+    # Names before the glossary pass (issue 17): the resources' nouns now.
+    def upload(self, *args, **kwargs) -> dict:
+        """Deprecated name of :meth:`upload_history`."""
+        warnings.warn("Client.upload is now Client.upload_history", DeprecationWarning,
+                      stacklevel=2)
+        return self.upload_history(*args, **kwargs)
+
+    def add_point(self, *args, **kwargs) -> dict:
+        """Deprecated name of :meth:`create_point`."""
+        warnings.warn("Client.add_point is now Client.create_point", DeprecationWarning,
+                      stacklevel=2)
+        return self.create_point(*args, **kwargs)
 
     def point(self, asset: str, point: str) -> dict:
         """A ledger point's running figures and projections."""

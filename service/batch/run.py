@@ -13,10 +13,12 @@ import time
 from dataclasses import dataclass, field
 from pathlib import Path
 
+import numpy as np
 import pyarrow as pa
 import pyarrow.parquet as pq
 
 from service.engine import cautions as _cautions
+from service.engine.rainflow import resolve_gate
 from service.runs import json_safe
 from service.engine.settings import point_from_dict
 
@@ -61,7 +63,7 @@ class BatchResult:
 def run_batch(dataset: Dataset, settings: dict, client, *,
               partition_points: int = DEFAULT_PARTITION_POINTS, unit: str = "MPa",
               youngs_modulus: float | None = None, gate: float = 0.0,
-              overrides: dict | None = None, progress=None,
+              gate_fraction: float | None = None, overrides: dict | None = None, progress=None,
               measure_memory: bool = False) -> BatchResult:
     """Assess every point of ``dataset`` on ``client``'s cluster.
 
@@ -71,6 +73,7 @@ def run_batch(dataset: Dataset, settings: dict, client, *,
     from distributed import as_completed
 
     point_from_dict(settings)
+    resolve_gate(np.zeros(1), gate, gate_fraction)  # a bad gate fails here, not per task
     if partition_points < 1:
         raise ValueError("partition_points must be at least 1")
     groups = partitions(dataset.points, partition_points)
@@ -80,6 +83,7 @@ def run_batch(dataset: Dataset, settings: dict, client, *,
         fut = client.submit(assess_group, list(dataset.files), dataset.layout, g, settings,
                             unit=unit, youngs_modulus=youngs_modulus,
                             sample_rate_hz=dataset.sample_rate_hz, gate=gate,
+                            gate_fraction=gate_fraction,
                             overrides={p: overrides[p] for p in g if p in (overrides or {})},
                             measure_memory=measure_memory, pure=False)
         futures[fut] = g
@@ -114,7 +118,7 @@ def write_results(result: BatchResult, dataset: Dataset, settings: dict, out_dir
     cols = {c: [r[c] for r in result.rows] for c in RESULT_COLUMNS}
     types = {"point": pa.string(), "status": pa.string(), "flags": pa.string(),
              "cautions": pa.string(), "reserve_limited_by": pa.string(),
-             "error": pa.string(), "overload_cycles": pa.int64(), "samples": pa.int64()}
+             "error": pa.string(), "overload_cycles": pa.int64(), "samples": pa.int64()}  # gate_mpa: float64
     table = pa.table({c: pa.array(v, type=types.get(c, pa.float64())) for c, v in cols.items()})
     tmp = out / ".points.parquet.tmp"
     pq.write_table(table, tmp)

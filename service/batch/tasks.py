@@ -15,10 +15,11 @@ import resource
 import threading
 import time
 
+import numpy as np
 from service.engine import units as engine_units
 from service.engine.damage import assess
 from service.engine.errors import EngineError
-from service.engine.rainflow import CycleTable, close_residue, count_block
+from service.engine.rainflow import CycleTable, close_residue, count_block, resolve_gate
 from service.engine.settings import point_from_dict
 
 from .dataset import read_group
@@ -27,18 +28,25 @@ from .dataset import read_group
 RESULT_COLUMNS = ("point", "status", "damage", "damage_per_repeat", "life_repeats",
                   "life_hours", "life_cycles", "reserve_factor", "reserve_limited_by",
                   "equivalent_range", "cycles_counted", "max_range", "overload_cycles",
-                  "samples", "flags", "cautions", "error")
+                  "samples", "gate_mpa", "flags", "cautions", "error")
 
 
 def assess_group(files, layout: str, points: list[str], settings: dict, *,
                  unit: str = "MPa", youngs_modulus: float | None = None,
                  sample_rate_hz: float | None = None, gate: float = 0.0,
+                 gate_fraction: float | None = None,
                  overrides: dict | None = None, measure_memory: bool = False) -> dict:
     """Assess ``points`` of a dataset; returns ``{"rows": [...], "pid",
     "peak_rss_kb", "seconds", "rss_rise_bytes"}``, one row per point
     (``status`` ok or failed, with ``error``). ``measure_memory`` samples
     the process's resident memory every 2 ms to report how far the task
-    raised it (``rss_rise_bytes``; None when not measured)."""
+    raised it (``rss_rise_bytes``; None when not measured).
+
+    ``gate`` is one absolute hysteresis gate [MPa] for every point;
+    ``gate_fraction`` [-] instead gates each point at that share of its own
+    range (max - min over the whole dataset), which costs a first pass over
+    the files to find the ranges (the samples are read twice, memory stays
+    one file of the group)."""
     t0 = time.perf_counter()
     probe = _RssProbe() if measure_memory else None
     overrides = overrides or {}
@@ -49,6 +57,7 @@ def assess_group(files, layout: str, points: list[str], settings: dict, *,
         except EngineError as exc:
             failed[p] = exc.message
     live = [p for p in points if p not in failed]
+    gates = _gates(files, layout, live, unit, youngs_modulus, gate, gate_fraction, failed)
     for f in files:
         data = read_group(f, layout, live)
         for p, x in data.items():
@@ -56,7 +65,7 @@ def assess_group(files, layout: str, points: list[str], settings: dict, *,
                 continue
             try:
                 mpa = engine_units.to_mpa(x, unit, youngs_modulus)
-                table, states[p] = count_block(mpa, states.get(p), gate=gate)
+                table, states[p] = count_block(mpa, states.get(p), gate=gates[p])
             except EngineError as exc:
                 # count_block numbers samples across the whole history.
                 at = exc.details.get("sample_index")
@@ -87,12 +96,37 @@ def assess_group(files, layout: str, points: list[str], settings: dict, *,
             "reserve_factor", "equivalent_range", "cycles_counted", "max_range")},
             "reserve_limited_by": s["reserve_limited_by"],
             "overload_cycles": int(s["overload_cycles"]), "samples": counts[p],
-            "flags": ";".join(s["flags"]),
+            "gate_mpa": gates[p], "flags": ";".join(s["flags"]),
             "cautions": ";".join(c["code"] for c in r.caution_dicts()), "error": None}
     return {"rows": [rows[p] for p in points], "pid": os.getpid(),
             "peak_rss_kb": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss,
             "seconds": time.perf_counter() - t0,
             "rss_rise_bytes": probe.stop() if probe else None}
+
+
+def _gates(files, layout, points, unit, youngs_modulus, gate, gate_fraction, failed) -> dict:
+    """The absolute gate [MPa] of each point: ``gate`` for all, or
+    ``gate_fraction`` of each point's range over every file (a first pass).
+    A point whose samples cannot be read as stress lands in ``failed``."""
+    if gate_fraction is None:
+        g = resolve_gate(None, gate)
+        return dict.fromkeys(points, g)
+    resolve_gate(np.zeros(1), gate, gate_fraction)  # the checks, before any reading
+    lo = dict.fromkeys(points, np.inf)
+    hi = dict.fromkeys(points, -np.inf)
+    for f in files:
+        for p, x in read_group(f, layout, points).items():
+            if p in failed or not x.size:
+                continue
+            try:
+                mpa = engine_units.to_mpa(x, unit, youngs_modulus)
+            except EngineError as exc:
+                failed[p] = f"{f}: {exc.message}"
+                continue
+            lo[p] = min(lo[p], float(np.min(mpa)))
+            hi[p] = max(hi[p], float(np.max(mpa)))
+    span = {p: hi[p] - lo[p] for p in points}
+    return {p: gate_fraction * span[p] if np.isfinite(span[p]) else 0.0 for p in points}
 
 
 class _RssProbe:

@@ -82,7 +82,12 @@ def main(argv=None) -> int:
                    help="E in MPa, for strain units")
     p.add_argument("--sample-rate-hz", dest="sample_rate_hz", type=float,
                    help="when there is no time_s column")
-    p.add_argument("--gate", type=float, help="hysteresis gate in MPa")
+    gate = p.add_mutually_exclusive_group()
+    gate.add_argument("--gate", type=float,
+                      help="hysteresis gate for every point [MPa] (default 0: none)")
+    gate.add_argument("--gate-fraction", dest="gate_fraction", type=float,
+                      help="hysteresis gate as a fraction of each point's range over the "
+                           "dataset (reads the samples twice; default 0)")
     p.add_argument("--partition-points", dest="partition_points", type=int, default=64,
                    help="points a task holds (memory per task: one file of them; default "
                         "%(default)s)")

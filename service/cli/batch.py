@@ -38,7 +38,8 @@ def _cmd_batch(args) -> int:
     with connect(args.scheduler, args.threads) as client:
         result = run_batch(ds, settings, client, partition_points=args.partition_points,
                            unit=args.unit, youngs_modulus=args.youngs_modulus,
-                           gate=args.gate or 0.0, overrides=overrides,
+                           gate=args.gate or 0.0, gate_fraction=args.gate_fraction,
+                           overrides=overrides,
                            progress=None if args.json else bar)
     if not args.json:
         print(file=sys.stderr)

@@ -13,7 +13,7 @@ def post_file(client, path: Path, config: dict, progress=None) -> dict:
     """Upload a recording and assess it through the service; returns the report dict
     that :func:`print_report` prints (plus ``assessment_id``)."""
     options = {k: config[k] for k in READER_KEYS if config.get(k) is not None}
-    h = client.upload(path, unit=config.get("unit"), units=config.get("units"),
+    h = client.upload_history(path, unit=config.get("unit"), units=config.get("units"),
                       youngs_modulus=config.get("youngs_modulus"),
                       sample_rate_hz=config.get("sample_rate_hz"),
                       time_column=config.get("time_column"), name=Path(path).name, **options)

@@ -168,6 +168,38 @@ def test_cli_batch_writes_results_and_names_failures(tmp_path, capsys):
     assert main(["batch", str(tmp_path / "missing"), "--out", str(out)]) == 2
 
 
+def test_cli_batch_gate_fraction_gates_each_point_on_its_own_range(tmp_path, capsys):
+    # The gate of a point is the fraction of its range over the whole dataset
+    # (max - min across every file), as the API's gate_fraction does for one
+    # history; the result equals the engine on the whole history with that
+    # absolute gate (common practice: a gate in per cent of the range).
+    from service.cli import main
+
+    full = histories(4, 1500)
+    full["p02"] *= 3.0  # ranges differ: one gate for all would not do
+    data = tmp_path / "data"
+    data.mkdir()
+    write_wide(data, full, pieces=3)
+    out = tmp_path / "out"
+    assert main(["batch", str(data), "--out", str(out), "--curve", "EN1993-1-9:71",
+                 "--gate-fraction", "0.05", "--threads", "2", "--json"]) == 0
+    capsys.readouterr()
+    rows = {r["point"]: r for r in pq.read_table(out / "points.parquet").to_pylist()}
+    for p, x in full.items():
+        g = 0.05 * (x.max() - x.min())
+        ref = assess_history(x, EN71, gate=g, duration_s=15.0)
+        assert rows[p]["gate_mpa"] == pytest.approx(g, rel=1e-12)
+        assert rows[p]["cycles_counted"] == ref.cycles_counted
+        assert rows[p]["damage"] == pytest.approx(ref.damage, rel=1e-12)
+    ungated = assess_history(full["p02"], EN71, duration_s=15.0)
+    assert rows["p02"]["cycles_counted"] < ungated.cycles_counted  # the gate did act
+    # Both at once is a usage error (argparse), a fraction of 1 or more is refused.
+    with pytest.raises(SystemExit):
+        main(["batch", str(data), "--out", str(out), "--gate", "1", "--gate-fraction", "0.1"])
+    with connect(threads=1) as c, pytest.raises(Exception, match="gate_fraction"):
+        run_batch(open_dataset(data), SETTINGS, c, gate_fraction=1.5)
+
+
 def test_api_jobs_run_on_the_cluster(tmp_path, two_workers):
     # The API's async jobs use the configured scheduler: same results as
     # the in-process job, and progress from the cluster's tasks.
