@@ -110,10 +110,13 @@ def history(samples: dict[str, np.ndarray], sample_rate_hz: float | None,
             for a, b in f.get("events") or [[f["first_sample"], f["last_sample"]]]:
                 x0, x1 = (a / sample_rate_hz, (b + 1) / sample_rate_hz) if sample_rate_hz \
                     else (a, b + 1)
-                # At least a pixel column wide, so a one-sample spike shows.
-                width = (t[-1] - t[0]) / columns if len(t) > 1 else 1.0
+                # At least three envelope columns wide, and a marker over
+                # the axes, so a one-sample spike shows at any length.
+                width = 3 * (t[-1] - t[0]) / columns if len(t) > 1 else 1.0
                 ax.axvspan(x0 - width / 2, max(x1, x0 + width / 2),
                            color=FINDING_COLOURS[f["kind"]], alpha=0.35, linewidth=0)
+                ax.plot([(x0 + x1) / 2], [1.0], marker="v", markersize=6, clip_on=False,
+                        color=FINDING_COLOURS[f["kind"]], transform=ax.get_xaxis_transform())
         if marked:
             label += "\n" + ", ".join(sorted({f["kind"] for f in marked}))
         ax.set_ylabel(label, rotation=0, ha="right", va="center")
@@ -145,7 +148,7 @@ def exceedance(tables: dict, title: str | None = None):
         if rng.size:
             ax.step(cum, rng, where="post", label=name, **series_style(k))
     ax.set_xscale("log")
-    ax.set_xlabel("cycles at or above the range")
+    ax.set_xlabel("cycles at or above the range [-] (log)")
     ax.set_ylabel("range [MPa]")
     ax.set_title(title or "Exceedance spectrum", color=INK, loc="left")
     if tables:
@@ -249,7 +252,12 @@ def damage_by_point(damage: dict[str, float | None], allowable: dict[str, float]
     ax.set_yticks(y, names)
     ax.invert_yaxis()
     ax.set_xscale("symlog", linthresh=1e-6)
-    ax.set_xlabel("Miner damage of the recording (bar) and the allowable sum (line) [-]")
+    # Room to the right of the allowable line (and of any bar past it), so
+    # the line is never hidden in the frame.
+    top = max([allowable[p] for p in names] + [v for v in finite if np.isfinite(v)] + [1e-6])
+    ax.set_xlim(0, top * 3.0)
+    ax.set_xlabel("Miner damage of the recording (bar) and the allowable sum (line) [-] "
+                  "(log above 1e-6)")
     ax.set_title(title or "Damage by point", color=INK, loc="left")
     return fig
 
