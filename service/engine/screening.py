@@ -174,10 +174,26 @@ def _pass(x, step_limit, spike_samples, spikes, runs, fill):
     return ns, nr, hi, lo
 
 
+@kernel
+def _suspect_steps(x, step_limit):
+    """How many steps exceed ``step_limit`` or are exactly zero: the only
+    steps the rules of :func:`_pass` act on. A branch-free count (the
+    compiler vectorises it), so a clean signal costs one streaming read."""
+    c = 0
+    for i in range(x.shape[0] - 1):
+        d = x[i + 1] - x[i]
+        c += (d > step_limit) | (d < -step_limit) | (d == 0.0)
+    return c
+
+
 def _scan(x, step_limit, spike_samples, held_min):
     """``(spikes (k, 3): first, last, height; clip_top, clip_bottom (runs, 2);
-    held (runs, 3): first, last, value; max; min)`` of ``x``."""
+    held (runs, 3): first, last, value; max; min)`` of ``x``; max and min
+    are None when no step is suspect (nothing there needs them)."""
     none3 = np.empty((0, 3))
+    none2 = np.empty((0, 2), np.int64)
+    if _suspect_steps(x, step_limit) == 0:
+        return none3, none2, none2, none3, None, None
     ns, nr, hi, lo = _pass(x, step_limit, spike_samples, none3, none3, False)
     spikes, runs = none3, none3
     if ns or nr:
@@ -192,50 +208,71 @@ def _scan(x, step_limit, spike_samples, held_min):
     return spikes, top, bottom, held, hi, lo
 
 
-def _samples_per_reversal(x: np.ndarray) -> float:
+#: Samples taken evenly over a record for the statistics of the whole-record
+#: rules (the median of that many is within about 1 % of the whole's).
+_SAMPLE = 20_000
+
+
+@dataclass(frozen=True)
+class _Stats:
+    """Statistics of a record from ~:data:`_SAMPLE` samples spread over it
+    (one gather, shared by the rules)."""
+
+    step_scale: float     # robust sd of the first differences (MAD / 0.6745)
+    trend_change: float   # rise of the least-squares line from start to end
+    p1: float             # 1st and 99th percentiles
+    p99: float
+    sd_signal: float      # standard deviations of the signal and of its steps
+    sd_steps: float
+
+
+def _stats(x: np.ndarray) -> _Stats:
+    n = x.shape[0]
+    stride = max(1, n // _SAMPLE)
+    y = x[::stride]
+    d = x[stride::stride] - x[stride - 1:-1:stride] if stride > 1 else np.diff(x)
+    scale = 0.0
+    if d.shape[0]:
+        # Medians by selection (np.partition), not a sort: the upper median.
+        m = d.shape[0] // 2
+        med = np.partition(d, m)[m]
+        scale = float(np.partition(np.abs(d - med), m)[m]) / 0.6745
+    k = y.shape[0]
+    lo_k, hi_k = int(round(0.01 * (k - 1))), int(round(0.99 * (k - 1)))
+    part = np.partition(y, [lo_k, hi_k])
+    i = np.arange(0, n, stride, dtype=np.float64)[:k]
+    ic = i - i.mean()
+    denom = float(np.dot(ic, ic))
+    slope = float(np.dot(ic, y - y.mean()) / denom) if denom > 0 else 0.0
+    return _Stats(scale, slope * (n - 1), float(part[lo_k]), float(part[hi_k]),
+                  float(np.std(y)), float(np.std(d)) if d.shape[0] else 0.0)
+
+
+def _samples_per_reversal(st: _Stats) -> float:
     r"""Samples between reversals of the sine that has this signal's ratio
     of step spread to spread, :math:`r = \sigma_{\Delta x}/\sigma_x`.
 
     For :math:`x = A\sin(2\pi f n / f_s)` the steps have the spread
     :math:`2\sin(\pi f/f_s)\,\sigma_x`, so :math:`f_s/(2f) =
-    \pi / (2\arcsin(r/2))` (closed form); white noise gives 2. On up to
-    ~2e4 samples spread over the record. [samples]
+    \pi / (2\arcsin(r/2))` (closed form); white noise gives 2. [samples]
     """
-    stride = max(1, x.shape[0] // 20_000)
-    sx = float(np.std(x[::stride]))
-    d = x[stride::stride] - x[stride - 1:-1:stride] if stride > 1 else np.diff(x)
-    sd = float(np.std(d))
-    if sx == 0.0 or sd == 0.0:
+    if st.sd_signal == 0.0 or st.sd_steps == 0.0:
         return math.inf
-    return math.pi / (2.0 * math.asin(min(sd / sx / 2.0, 1.0)))
+    return math.pi / (2.0 * math.asin(min(st.sd_steps / st.sd_signal / 2.0, 1.0)))
 
 
 def _trend(x: np.ndarray) -> tuple[float, float, float]:
     """``(change, p1, p99)``: the rise from start to end of the least-squares
-    line through the record, and its 1st and 99th percentiles, on up to
-    ~2e4 samples spread over it. A stationary load of many cycles fits a
-    line of almost no slope; a drifting zero does not."""
-    n = x.shape[0]
-    stride = max(1, n // 20_000)
-    y = x[::stride]
-    i = np.arange(0, n, stride, dtype=np.float64)[: y.shape[0]]
-    ic = i - i.mean()
-    slope = float(np.dot(ic, y - y.mean()) / np.dot(ic, ic))
-    p1, p99 = np.percentile(y, [1.0, 99.0])
-    return slope * (n - 1), float(p1), float(p99)
+    line through the record, and its 1st and 99th percentiles. A stationary
+    load of many cycles fits a line of almost no slope; a drifting zero
+    does not."""
+    st = _stats(x)
+    return st.trend_change, st.p1, st.p99
 
 
 def _robust_step_scale(x: np.ndarray) -> float:
-    """Robust standard deviation of the first differences: MAD / 0.6745 on
-    a sample of at most ~2e4 differences spread over the record (the
-    median of that many is within about 1 % of the whole's)."""
-    n = x.shape[0]
-    stride = max(1, n // 20_000)
-    d = x[stride::stride] - x[stride - 1:-1:stride] if stride > 1 else np.diff(x)
-    if d.shape[0] == 0:
-        return 0.0
-    med = np.median(d)
-    return float(np.median(np.abs(d - med)) / 0.6745)
+    """Robust standard deviation of the first differences (MAD / 0.6745)."""
+    return _stats(x).step_scale
 
 
 def screen(samples, sample_rate_hz: float | None = None,
@@ -262,7 +299,8 @@ def screen(samples, sample_rate_hz: float | None = None,
     out: list[Finding] = []
     if n < 3:
         return out
-    scale = _robust_step_scale(x)
+    st = _stats(x)
+    scale = st.step_scale
     # A quantised signal can have a zero MAD of its steps; one quantum then.
     if scale == 0.0:
         steps = np.abs(np.diff(x[: min(n, 200_000)]))
@@ -271,7 +309,7 @@ def screen(samples, sample_rate_hz: float | None = None,
     limit = th.spike_sigma * scale if scale > 0 else math.inf
     spikes, top, bottom, held, hi, lo = _scan(x, limit, int(th.spike_samples),
                                               int(th.held_samples))
-    if hi == lo:
+    if hi is not None and hi == lo:
         return [Finding("dead", 0, n - 1, 1, 0.0, f"every sample is {hi:g}: the channel is "
                         "dead or not connected")]
 
@@ -318,15 +356,14 @@ def screen(samples, sample_rate_hz: float | None = None,
                     + ": a drop-out or a logger holding its last value",
                     [[int(a), int(b)] for a, b, _ in rows[:_MAX_LISTED]]))
     if n >= 100:
-        change, p1, p99 = _trend(x)
-        spread = float(p99 - p1)
+        change, spread = st.trend_change, st.p99 - st.p1
         if spread > 0 and abs(change) > th.drift_fraction * spread:
             out.append(Finding(
                 "drift", 0, n - 1, 1, change,
                 f"the straight line fitted through the record rises {change:.4g} from start to "
                 f"end ({abs(change) / spread:.0%} of the 1-99 % range): the zero moved "
                 "(temperature, an unbalanced bridge) or the load's mean changed"))
-    per = _samples_per_reversal(x)
+    per = _samples_per_reversal(st)
     if per < th.min_samples_per_reversal:
         out.append(Finding(
             "undersampled", 0, n - 1, 1, per,

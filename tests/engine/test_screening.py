@@ -111,13 +111,13 @@ def test_drift_and_its_removal():
 def test_undersampling():
     # A 2 Hz sine sampled at 5 Hz: 1.25 samples between reversals (closed
     # form f_s / 2f), below the threshold of 3; at 500 Hz, 125.
-    from service.engine.screening import _samples_per_reversal
+    from service.engine.screening import _samples_per_reversal, _stats
 
     t = np.arange(4000)
-    assert _samples_per_reversal(np.sin(2 * np.pi * 2.0 * t / 5.0 + 0.3)) == pytest.approx(
-        1.25, rel=0.02)
-    assert _samples_per_reversal(np.sin(2 * np.pi * 2.0 * t / 500.0)) == pytest.approx(
-        125, rel=0.02)
+    assert _samples_per_reversal(_stats(np.sin(2 * np.pi * 2.0 * t / 5.0 + 0.3))) == \
+        pytest.approx(1.25, rel=0.02)
+    assert _samples_per_reversal(_stats(np.sin(2 * np.pi * 2.0 * t / 500.0))) == \
+        pytest.approx(125, rel=0.02)
     assert kinds(screen(np.sin(2 * np.pi * 2.0 * t / 5.0 + 0.3) * 100)) == ["undersampled"]
     white = np.random.default_rng(1).standard_normal(10_000)
     assert kinds(screen(white)) == ["undersampled"]       # white noise: 2 (closed form)
