@@ -29,6 +29,14 @@ finding's description):
     Such a run covering at least ``flat_fraction`` of the record (a gauge
     that has come off, or a dead channel); ``dead`` when the whole channel
     is one value.
+``repeated``
+    A stretch of at least ``repeat_samples`` samples equal, bit for bit, to
+    an earlier stretch of the record: a logger that wrote a buffer twice. A
+    measured signal carries noise in its last bits and never repeats itself
+    exactly over hundreds of samples; a held value is the ``held`` rule's.
+    Found from content-defined anchors (about one sample in 64), so a copy
+    of L samples is missed only if it holds no anchor: with probability
+    about exp(-L/64), 3e-4 at the default 512.
 ``drift``
     The least-squares straight line through the record rises (or falls) by
     more than ``drift_fraction`` of the signal's 1-99 % range from start to
@@ -57,11 +65,13 @@ from dataclasses import asdict, dataclass, field
 
 import numpy as np
 
-from ._numba import kernel
+from ._screening_kernels import (anchor_mask, extend_match, mask_positions, signal_pass,
+                                 suspect_steps, window_hashes)
 from .errors import InvalidParameter
 
 #: Findings, in the order they are reported.
-FINDING_KINDS = ("spike", "clipping", "held", "zeros", "flat", "dead", "drift", "undersampled")
+FINDING_KINDS = ("spike", "clipping", "held", "zeros", "flat", "dead", "repeated", "drift",
+                 "undersampled")
 #: What to do with findings: assess and report them, refuse the point, or
 #: clean what can be cleaned (spikes, drift) and report both results.
 SCREENING_POLICIES = ("report", "refuse", "clean", "off")
@@ -80,6 +90,7 @@ class Thresholds:
     flat_fraction: float = 0.05
     drift_fraction: float = 0.1
     min_samples_per_reversal: float = 3.0
+    repeat_samples: int = 512
 
     def __post_init__(self):
         for name, value in asdict(self).items():
@@ -117,88 +128,19 @@ class Finding:
         return asdict(self)
 
 
-@kernel
-def _pass(x, step_limit, spike_samples, spikes, runs, fill):
-    """One pass over the samples: the extremes, spikes, and every run of two
-    or more equal samples. With ``fill`` the events are written into the
-    arrays given (sized by a first pass without it: a clean signal needs no
-    second pass, and no list is ever grown).
-
-    Returns ``(spikes, runs, max, min)``.
-    """
-    n = x.shape[0]
-    ns = 0
-    nr = 0
-    hi = x[0]
-    lo = x[0]
-    run_start = 0
-    i = 1
-    while i <= n:
-        d = x[i] - x[i - 1] if i < n else 1.0  # a step past the end closes the last run
-        if i < n:
-            hi = max(hi, x[i])
-            lo = min(lo, x[i])
-        if d != 0.0:
-            if i - 1 > run_start:  # a run of two or more equal samples ended
-                if fill:
-                    runs[nr, 0] = run_start
-                    runs[nr, 1] = i - 1
-                    runs[nr, 2] = x[run_start]
-                nr += 1
-            run_start = i
-        # A spike: a step in beyond the limit, a step out of the opposite
-        # sign within spike_samples, back to within a quarter of the step
-        # (or half the limit, for a small spike on a steep flank).
-        if i < n and abs(d) > step_limit:
-            for k in range(1, spike_samples + 1):
-                j = i + k
-                if j >= n:
-                    break
-                out = x[j] - x[j - 1]
-                if abs(out) > step_limit and out * d < 0.0:
-                    if abs(x[j] - x[i - 1]) <= max(0.25 * abs(d), 0.5 * step_limit):
-                        height = 0.0
-                        for m in range(i, j + 1):
-                            height = max(height, abs(x[m] - x[i - 1]))
-                            hi = max(hi, x[m])
-                            lo = min(lo, x[m])
-                        if fill:
-                            spikes[ns, 0] = i
-                            spikes[ns, 1] = j - 1
-                            spikes[ns, 2] = height
-                        ns += 1
-                        run_start = j
-                        i = j  # continue after the spike
-                    break
-        i += 1
-    return ns, nr, hi, lo
-
-
-@kernel
-def _suspect_steps(x, step_limit):
-    """How many steps exceed ``step_limit`` or are exactly zero: the only
-    steps the rules of :func:`_pass` act on. A branch-free count (the
-    compiler vectorises it), so a clean signal costs one streaming read."""
-    c = 0
-    for i in range(x.shape[0] - 1):
-        d = x[i + 1] - x[i]
-        c += (d > step_limit) | (d < -step_limit) | (d == 0.0)
-    return c
-
-
 def _scan(x, step_limit, spike_samples, held_min):
     """``(spikes (k, 3): first, last, height; clip_top, clip_bottom (runs, 2);
     held (runs, 3): first, last, value; max; min)`` of ``x``; max and min
     are None when no step is suspect (nothing there needs them)."""
     none3 = np.empty((0, 3))
     none2 = np.empty((0, 2), np.int64)
-    if _suspect_steps(x, step_limit) == 0:
+    if suspect_steps(x, step_limit) == 0:
         return none3, none2, none2, none3, None, None
-    ns, nr, hi, lo = _pass(x, step_limit, spike_samples, none3, none3, False)
+    ns, nr, hi, lo = signal_pass(x, step_limit, spike_samples, none3, none3, False)
     spikes, runs = none3, none3
     if ns or nr:
         spikes, runs = np.empty((ns, 3)), np.empty((nr, 3))
-        _pass(x, step_limit, spike_samples, spikes, runs, True)
+        signal_pass(x, step_limit, spike_samples, spikes, runs, True)
     value = runs[:, 2]
     length = runs[:, 1] - runs[:, 0] + 1
     at_top, at_bottom = (value == hi) & (hi > lo), (value == lo) & (hi > lo)
@@ -209,8 +151,8 @@ def _scan(x, step_limit, spike_samples, held_min):
 
 
 #: Samples taken evenly over a record for the statistics of the whole-record
-#: rules (the median of that many is within about 1 % of the whole's).
-_SAMPLE = 20_000
+#: rules (the median of that many is within about 2 % of the whole's).
+_SAMPLE = 10_000
 
 
 @dataclass(frozen=True)
@@ -246,6 +188,55 @@ def _stats(x: np.ndarray) -> _Stats:
     slope = float(np.dot(ic, y - y.mean()) / denom) if denom > 0 else 0.0
     return _Stats(scale, slope * (n - 1), float(part[lo_k]), float(part[hi_k]),
                   float(np.std(y)), float(np.std(d)) if d.shape[0] else 0.0)
+
+
+#: Samples hashed from each anchor of the repeated-block rule.
+_WINDOW = 8
+
+
+def _repeats(x: np.ndarray, min_samples: int) -> np.ndarray:
+    """Stretches of at least ``min_samples`` samples that repeat an earlier
+    stretch bit for bit: rows ``(first, last, source_first)`` of each copy,
+    in order. Anchors (:func:`anchor_mask`) with equal window hashes are
+    candidate pairs; each is checked and grown sample by sample
+    (:func:`extend_match`), so a hash collision never makes a finding."""
+    n = x.shape[0]
+    window = int(min(_WINDOW, min_samples))
+    none = np.empty((0, 3), np.int64)
+    if n < 2 * min_samples:
+        return none
+    bits = x.view(np.uint64)
+    mask = np.zeros(-(-n // 8) * 8, np.bool_)  # whole 64-bit words
+    anchor_mask(bits, mask)
+    mask[n - window + 1:] = False  # a window must fit
+    anchors = np.empty(n // 8, np.int64)
+    found = mask_positions(mask.view(np.uint64), anchors)
+    if found < 0:
+        # Far more anchors than one in 64: the samples' low bits do not vary
+        # (a coarse or integer signal); the rule cannot sample it fairly.
+        return none
+    anchors = anchors[:found]
+    hashes = np.empty(anchors.shape[0], np.uint64)
+    window_hashes(bits, anchors, window, hashes)
+    keep = hashes != 0
+    anchors, hashes = anchors[keep], hashes[keep]
+    srt = np.sort(hashes)
+    if not np.any(srt[1:] == srt[:-1]):
+        return none  # no two windows alike: the common case, no pairing needed
+    order = np.argsort(hashes, kind="stable")  # equal hashes in sample order
+    h, pos = hashes[order], anchors[order]
+    same = np.flatnonzero(h[1:] == h[:-1])
+    # Each anchor against the previous one with its hash: the later is the copy.
+    pairs = sorted(zip(pos[same + 1].tolist(), pos[same].tolist()))
+    events, covered = [], -1
+    for b, a in pairs:
+        if b <= covered:
+            continue
+        back, fwd = extend_match(bits, a, b, covered + 1)
+        if back + fwd >= min_samples:
+            events.append((b - back, b + fwd - 1, a - back))
+            covered = b + fwd - 1
+    return np.array(events, np.int64).reshape(-1, 3)
 
 
 def _samples_per_reversal(st: _Stats) -> float:
@@ -355,6 +346,18 @@ def screen(samples, sample_rate_hz: float | None = None,
                     + (" of exactly 0" if kind == "zeros" else "")
                     + ": a drop-out or a logger holding its last value",
                     [[int(a), int(b)] for a, b, _ in rows[:_MAX_LISTED]]))
+    rep = _repeats(x, int(th.repeat_samples))
+    if rep.shape[0]:
+        length = rep[:, 1] - rep[:, 0] + 1
+        k = int(np.argmax(length))
+        out.append(Finding(
+            "repeated", int(rep[0, 0]), int(rep[-1, 1]), int(rep.shape[0]), float(length[k]),
+            f"{rep.shape[0]} stretch(es) of at least {int(th.repeat_samples)} samples equal, "
+            f"bit for bit, to an earlier stretch; the longest, {int(length[k])} samples from "
+            f"sample {int(rep[k, 0])}{when(int(rep[k, 0]))}, repeats samples from "
+            f"{int(rep[k, 2])}: a logger that wrote a buffer twice (a measured signal never "
+            "repeats itself exactly); its cycles are counted twice",
+            [[int(a), int(b)] for a, b, _ in rep[:_MAX_LISTED]]))
     if n >= 100:
         change, spread = st.trend_change, st.p99 - st.p1
         if spread > 0 and abs(change) > th.drift_fraction * spread:

@@ -86,7 +86,8 @@ def _figure(w=7.0, h=2.6):
 
 #: Colours of the screening findings marked on a history.
 FINDING_COLOURS = {"spike": "#c0392b", "clipping": "#8e44ad", "held": "#7f8c8d",
-                   "zeros": "#7f8c8d", "flat": "#7f8c8d", "dead": "#7f8c8d"}
+                   "zeros": "#7f8c8d", "flat": "#7f8c8d", "dead": "#7f8c8d",
+                   "repeated": "#b9770e"}
 
 
 def history(samples: dict[str, np.ndarray], sample_rate_hz: float | None,
@@ -95,7 +96,7 @@ def history(samples: dict[str, np.ndarray], sample_rate_hz: float | None,
 
     ``findings`` ({point: [finding dicts]}) are marked where they are: a
     band over each listed event (spikes red, clipping purple, held runs
-    grey), with the kinds named in the row's label.
+    grey, repeated buffers amber), with the kinds named in the row's label.
     """
     names = list(samples)
     fig = Figure(figsize=(7.0, 1.3 + 1.1 * len(names)))

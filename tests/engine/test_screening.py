@@ -130,3 +130,70 @@ def test_thresholds_are_settable_and_checked():
     assert "spike" in kinds(screen(x, RATE, Thresholds(spike_sigma=3.0)))
     with pytest.raises(ValueError):
         Thresholds(spike_sigma=-1)
+
+
+@pytest.mark.parametrize("seed", range(6))
+def test_a_buffer_written_twice_is_found_where_it_was_planted(seed):
+    # A logger glitch: a stretch of the record written again further on
+    # (common practice: a measured signal carries noise in its last bits and
+    # never repeats itself bit for bit over hundreds of samples). Lengths and
+    # offsets are arbitrary (no alignment to any block size).
+    rng = np.random.default_rng(100 + seed)
+    x = rig_like(seed=seed)
+    length = int(rng.integers(600, 3000))
+    src = int(rng.integers(0, 8000))
+    dst = int(rng.integers(src + length, x.size - length))
+    x[dst:dst + length] = x[src:src + length]
+    found = screen(x, RATE)
+    assert kinds(found) == ["repeated"]
+    f = found[0]
+    assert f.count == 1 and f.size == length
+    # The copy is placed exactly: by chance a neighbour may also match (one
+    # sample in 2^52 per edge), never fewer samples than planted.
+    assert f.events == [[dst, dst + length - 1]]
+    assert f.first_sample == dst and f.last_sample == dst + length - 1
+
+
+def test_a_buffer_repeated_at_once_and_a_periodic_synthetic_signal():
+    # The commonest glitch: a buffer written twice in a row.
+    x = narrow_band(seed=11)
+    x[5000:5700] = x[4300:5000]
+    [f] = screen(x, RATE)
+    assert f.kind == "repeated" and f.events == [[5000, 5699]]
+    # A drive signal made by a program (tile of one period) is exact
+    # repetition too: reported, once, over everything after the first period.
+    period = narrow_band(n=1000, seed=2)
+    tiled = np.tile(period, 8)
+    [f] = screen(tiled, RATE)
+    assert f.kind == "repeated" and f.events == [[1000, 7999]]
+
+
+def test_near_copies_short_copies_and_held_runs_are_not_repeats():
+    x = narrow_band(seed=12)
+    y = x.copy()
+    # The same load measured twice carries other noise: not a repeat.
+    y[9000:10000] = x[2000:3000] + np.random.default_rng(1).normal(0, 0.01, 1000)
+    assert "repeated" not in kinds(screen(y, RATE))
+    # A copy shorter than repeat_samples is not reported, unless asked.
+    z = x.copy()
+    z[9000:9300] = x[2000:2300]
+    assert "repeated" not in kinds(screen(z, RATE))
+    assert "repeated" in kinds(screen(z, RATE, Thresholds(repeat_samples=200)))
+    # A held value is the held rule's, not a repeat.
+    h = x.copy()
+    h[3000:3600] = h[3000]                          # 3 % of the record: not flat
+    assert kinds(screen(h, RATE)) == ["held"]
+
+
+def test_the_damage_share_of_a_repeated_buffer():
+    # The copy's cycles are counted twice: the share is that of the cycles
+    # touching it (here the copy of the record's largest event).
+    x = narrow_band(seed=13)
+    x[6000:6800] *= 2.5                               # a large event
+    x[15000:15800] = x[6000:6800]                     # written twice
+    found = screen(x, RATE)
+    assert kinds(found) == ["repeated"]
+    table = astm_e1049(x)
+    r = assess_history(x, EN71)
+    damage_shares(found, table.start_index, table.end_index, r.damage_per_cycle)
+    assert 0.3 < found[0].damage_share < 0.7
