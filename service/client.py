@@ -297,6 +297,17 @@ class Client:
         _, _, raw = self.request("GET", path, accept=PARQUET)
         return pd.read_parquet(io.BytesIO(raw))
 
+    def samples(self, assessment_id: str, point: str):
+        """The history a point was counted from as a DataFrame: ``samples``
+        [MPa] as counted, ``recorded`` [MPa] when it was cleaned first, and
+        ``time_s`` when the duration is known."""
+        import pandas as pd
+
+        path = (f"/v1/assessments/{assessment_id}/points/"
+                f"{urllib.parse.quote(point, safe='')}/samples")
+        _, _, raw = self.request("GET", path, accept=PARQUET)
+        return pd.read_parquet(io.BytesIO(raw))
+
     def curves(self) -> list[dict]:
         return self.get_json("/v1/curves")["items"]
 

@@ -492,6 +492,14 @@ def point_samples(data_dir, assessment: dict, point: str, con=None) -> np.ndarra
     """The history a stored point was counted from: its channel, or for a
     multiaxial point the governing reduction (or plane) rebuilt from its
     stored channels. [MPa]"""
+    return point_signal(data_dir, assessment, point, con)[0]
+
+
+def point_signal(data_dir, assessment: dict, point: str,
+                 con=None) -> tuple[np.ndarray, np.ndarray | None]:
+    """``(counted, recorded)``: the history a stored point was counted from
+    (:func:`point_samples`) and, when its signal was cleaned before
+    counting, the signal as recorded (else None). [MPa]"""
     spec = assessment["result"]["points"][point].get("multiaxial")
     spec = _unecho(spec) if spec else None
     names = spec["channels"] if spec else [point]
@@ -505,10 +513,11 @@ def point_samples(data_dir, assessment: dict, point: str, con=None) -> np.ndarra
             # Counted from the cleaned signal: clean it again the same way.
             _, thresholds = screening_from_dict(res["settings_used"])
             found = screening.screen(read[point], None, thresholds)
-            return screening.clean(read[point], found, thresholds)[0]
-        return read[point]
+            return screening.clean(read[point], found, thresholds)[0], read[point]
+        return read[point], None
     comps = components_of(PlannedPoint(point, read, {}, spec))
-    return multiaxial.governing_history(comps, spec["reduction"], spec["plane_angle_deg"])
+    return multiaxial.governing_history(comps, spec["reduction"],
+                                        spec["plane_angle_deg"]), None
 
 
 def range_mean(table: CycleTable, range_bins, mean_bins) -> dict:

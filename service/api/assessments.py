@@ -5,6 +5,7 @@ from __future__ import annotations
 import csv
 import hashlib
 import io
+import re
 
 import numpy as np
 from flask import Blueprint, Response, current_app, jsonify, request, url_for
@@ -39,6 +40,7 @@ def resource(row: dict) -> dict:
         "self": url_for("assessments.get_one", assessment_id=aid),
         "summary": url_for("assessments.summary", assessment_id=aid),
         "points": {p: {"cycles": url_for("assessments.cycles", assessment_id=aid, point=p),
+                       "samples": url_for("assessments.samples", assessment_id=aid, point=p),
                        "range_mean": url_for("assessments.range_mean", assessment_id=aid,
                                              point=p)}
                    for p in (row["result"] or {}).get("points", {})},
@@ -275,6 +277,36 @@ def cycles(assessment_id: str, point: str):
         return _csv(CYCLE_COLUMNS, zip(*(cols[c].tolist() for c in CYCLE_COLUMNS)))
     out = {c: runs.json_safe(cols[c].tolist()) for c in CYCLE_COLUMNS}
     return jsonify(point=point, units={"stress": "MPa", "damage": "-"}, **out)
+
+
+@bp.get("/v1/assessments/<assessment_id>/points/<point>/samples")
+@caching.by_content
+def samples(assessment_id: str, point: str):
+    """The history a point was counted from, to download (CSV or Parquet):
+    ``samples`` [MPa] as counted (cleaned, reduced to the governing
+    equivalent for a multiaxial point), ``recorded`` [MPa] as recorded when
+    the signal was cleaned, and ``time_s`` when the duration is known."""
+    fmt = _format(("csv", "parquet"))
+    row = load(assessment_id)
+    result = row["result"] or {}
+    if point not in result.get("points", {}):
+        raise NotFound(f"assessment {assessment_id!r} has no point {point!r}", field="point")
+    counted, recorded = runs.point_signal(data_dir(), row, point, db())
+    cols = {}
+    duration = result.get("duration_s")
+    if duration and counted.size > 1:
+        cols["time_s"] = np.arange(counted.size) * (duration / counted.size)
+    cols["samples"] = counted
+    if recorded is not None:
+        cols["recorded"] = recorded
+    safe = re.sub(r"[^A-Za-z0-9._-]", "_", point)
+    name = f"{assessment_id}-{safe}.{'csv' if fmt == 'csv' else 'parquet'}"
+    if fmt == "parquet":
+        resp = _parquet(cols)
+    else:
+        resp = _csv(tuple(cols), zip(*(c.tolist() for c in cols.values())))
+    resp.headers["Content-Disposition"] = f'attachment; filename="{name}"'
+    return resp
 
 
 @bp.get("/v1/assessments/<assessment_id>/points/<point>/range-mean")

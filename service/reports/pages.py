@@ -183,9 +183,20 @@ def assessment_page(resource: dict, plots: dict[str, bytes]) -> str:
             + ("" if f.get("damage_share") is None
                else f" ({fmt(100 * f['damage_share'])} % of the damage)") + "</li>"
             for name, f in findings)
+        links = (resource.get("links") or {}).get("points") or {}
+        cleaned = "".join(
+            f"<li data-point='{html.escape(name)}' class='cleaned'><strong>"
+            f"{html.escape(name)}</strong> was cleaned before counting ("
+            f"{html.escape('; '.join(c.get('done') or []) or 'nothing to clean')}); damage "
+            f"before cleaning {fmt(c.get('damage_before_cleaning'))}"
+            + (f"; <a href='{html.escape(links[name]['samples'])}?format=csv'>the signal "
+               "counted, with the recording (CSV, from the service)</a>"
+               if "samples" in links.get(name, {}) else "") + "</li>"
+            for name, p in points.items()
+            if (c := (p.get("screening") or {}).get("cleaned")) is not None)
         summary += ("<section id='screening' class='caution'><h2>Signal screening</h2>"
                     f"<p>Faults found in the signals before counting (marked on the history)."
-                    f"</p><ul>{items}</ul></section>")
+                    f"</p><ul>{items}{cleaned}</ul></section>")
     body = [summary, "<section id='plots'><h2>Plots</h2><div class='plots'>"
             + "".join(figs) + "</div></section>",
             "<section id='settings'><h2>Settings and sources</h2>" + "".join(settings)

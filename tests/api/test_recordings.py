@@ -14,6 +14,7 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 import pytest
 
+from service.engine.sn_catalogue import catalogue_curve
 from tests.api.conftest import assert_problem
 
 PARQUET = "application/vnd.apache.parquet"
@@ -232,6 +233,45 @@ def test_screening_report_refuse_and_clean(client):
     a = client.post("/v1/assessments", json={"history_id": hid, "settings": {
         "curve": "EN1993-1-9:71", "screening": "sometimes"}})
     assert_problem(a, 422, "unknown-name", field="screening")
+
+
+def test_the_cleaned_signal_can_be_downloaded_and_recounted(client):
+    # Issue 16: what a cleaned point was counted from, with the recording,
+    # as CSV and Parquet. Recounted independently by the reference package
+    # (`rainflow`, ASTM E1049-85), the cleaned samples give the cycles and
+    # damage the assessment states; the recorded column is the upload.
+    import rainflow
+
+    x = _spiky()
+    hid = client.post("/v1/histories?unit=MPa&sample_rate_hz=500",
+                      data=parquet_bytes({"g1": x}), content_type=PARQUET).get_json()["id"]
+    a = client.post("/v1/assessments", json={"history_id": hid, "settings": {
+        "curve": "EN1993-1-9:71", "screening": "clean"}}).get_json()
+    link = a["links"]["points"]["g1"]["samples"]
+    r = client.get(link, headers={"Accept": PARQUET})
+    assert r.status_code == 200 and r.mimetype == PARQUET
+    assert 'filename="' in r.headers["Content-Disposition"]
+    table = pq.read_table(io.BytesIO(r.data))
+    assert table.column_names == ["time_s", "samples", "recorded"]
+    got = table.to_pydict()
+    np.testing.assert_array_equal(got["recorded"], x)
+    assert got["time_s"][1] == pytest.approx(1 / 500.0)
+    cleaned = np.asarray(got["samples"])
+    assert abs(cleaned[1500]) < 100 and np.array_equal(cleaned[:1499], x[:1499])
+    curve = catalogue_curve("EN1993-1-9:71")
+    d = sum(n / float(curve.cycles_to_failure(rng)) for rng, mean, n, i0, i1 in
+            rainflow.extract_cycles(cleaned))
+    assert d == pytest.approx(a["points"]["g1"]["damage"], rel=1e-9)
+    csv_text = client.get(link + "?format=csv").get_data(as_text=True)
+    header, first = csv_text.splitlines()[:2]
+    assert header == "time_s,samples,recorded"
+    assert float(first.split(",")[1]) == cleaned[0]
+    # A point that was not cleaned has no recorded column; an unknown point 404.
+    plain = client.post("/v1/assessments", json={"history_id": hid, "settings": {
+        "curve": "EN1993-1-9:71"}}).get_json()
+    r = client.get(plain["links"]["points"]["g1"]["samples"] + "?format=csv")
+    assert r.get_data(as_text=True).splitlines()[0] == "time_s,samples"
+    assert client.get(f"/v1/assessments/{plain['id']}/points/nope/samples").status_code == 404
 
 
 def test_rate_from_a_time_column_is_rounded_to_what_it_can_say(client):

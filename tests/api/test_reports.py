@@ -175,6 +175,16 @@ def test_screening_findings_on_the_page_and_marked_on_the_history(client):
     assert "id='screening'" in page and "data-kind='spike'" in page
     svg = client.get(f"/v1/assessments/{a['id']}/plots/history").get_data(as_text=True)
     assert "spike" in svg
+    # Cleaned: the page says what was done and links the signal counted.
+    r = client.post("/v1/assessments", json={
+        "samples": {"g": x.tolist()}, "unit": "MPa", "sample_rate_hz": 100,
+        "settings": {"curve": "EN1993-1-9:71", "screening": "clean"}})
+    a = r.get_json()
+    page = client.get(f"/v1/assessments/{a['id']}/report").get_data(as_text=True)
+    assert "class='cleaned'" in page and "1 spike(s) replaced by linear interpolation" in page
+    href = f"/v1/assessments/{a['id']}/points/g/samples?format=csv"
+    assert f"href='{href}'" in page
+    assert client.get(href).get_data(as_text=True).startswith("time_s,samples,recorded\n")
 
 
 def test_reports_and_plots_are_cached_by_etag(client):

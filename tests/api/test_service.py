@@ -94,6 +94,9 @@ def test_client_round_trip_with_a_job(served):
     ref = assess_history(x, catalogue_curve("EN1993-1-9:80"), duration_s=200.0)
     assert table.loc["a", "damage"] == ref.damage
     assert table.loc["a", "life_hours"] == pytest.approx(ref.life_hours, rel=1e-12)
+    got = c.samples(a["id"], "b")
+    np.testing.assert_array_equal(got["samples"], 1.5 * x)
+    assert list(got.columns) == ["time_s", "samples"]
     cyc = c.cycles(a["id"], "b")
     assert cyc["damage"].sum() == pytest.approx(table.loc["b", "damage"], rel=1e-12)
     with pytest.raises(ServiceError) as err:
