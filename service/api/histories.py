@@ -37,10 +37,11 @@ def upload():
     uploads.check_media_type(request.content_type)
     idem_key = idempotency.key()
     folder = data_dir() / parquet.HISTORIES
-    digest = hashlib.sha256()
+    # The body's hash only serves a retry with a key: none is taken without.
+    digest = hashlib.sha256() if idem_key is not None else None
     spooled = spool_body(folder, digest)
     try:
-        request_hash = idempotency.request_hash(digest.hexdigest())
+        request_hash = idempotency.request_hash(digest.hexdigest()) if digest else ""
         again = idempotency.replay(idem_key, request_hash)
         if again is not None:
             return again
