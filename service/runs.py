@@ -15,14 +15,14 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from service.engine import cautions, histograms, multiaxial, screening
-from service.engine import units as engine_units
+from service.engine import cautions, histograms, hot_spot, multiaxial, screening
 from service.engine._threads import in_one_thread
 from service.engine.damage import assess, assess_history
 from service.engine.errors import InvalidLoadHistory, InvalidParameter, unknown
 from service.engine.rainflow import RESIDUE_TREATMENTS, CycleTable, astm_e1049, resolve_gate
 from service.engine.settings import (USER_CURVE_PREFIX, point_from_dict, resolve,
                                      screening_from_dict)
+from service import declarations
 from service.store import parquet, sqlite
 
 #: Mean samples a point above which points are assessed on worker threads.
@@ -31,15 +31,8 @@ POINT_WORKERS = 2
 
 #: Keys of an assessment request besides the samples themselves.
 REQUEST_KEYS = {"history_id", "samples", "unit", "units", "youngs_modulus", "sample_rate_hz",
-                "settings", "points", "gate", "gate_fraction", "residue", "multiaxial"}
-
-#: Keys of a multiaxial point's declaration.
-MULTIAXIAL_KEYS = {"rosette", "gauges", "poisson_ratio", "transverse_sensitivity",
-                   "calibration_poisson", "components", "reductions", "plane_step_deg",
-                   "settings", "shear_settings"}
-PLANE_COMPONENTS = ("sxx", "syy", "sxy")
-SOLID_COMPONENTS = ("sxx", "syy", "szz", "sxy", "syz", "szx")
-
+                "settings", "points", "gate", "gate_fraction", "residue", "multiaxial",
+                "hot_spot"}
 
 @dataclass
 class PlannedPoint:
@@ -47,102 +40,16 @@ class PlannedPoint:
     channels of a rosette or of stress components, reduced when assessed."""
 
     name: str
-    samples: object  # ndarray, or {channel: ndarray} for a multiaxial point
+    samples: object  # ndarray, or {channel: ndarray} for a multi-channel point
     settings: dict
     multiaxial: dict | None = None
+    hot_spot: dict | None = None
 
     @property
     def sample_count(self) -> int:
-        if self.multiaxial is None:
+        if not isinstance(self.samples, dict):
             return self.samples.shape[0]
         return next(iter(self.samples.values())).shape[0]
-
-
-def _multiaxial_spec(name: str, spec, channels: dict, units: dict | None) -> dict:
-    """A checked multiaxial declaration, with its channel names in order."""
-    if not isinstance(spec, dict):
-        raise InvalidParameter(f"multiaxial point {name!r} must be an object",
-                               field="multiaxial")
-    extra = set(spec) - MULTIAXIAL_KEYS
-    if extra:
-        raise InvalidParameter(f"multiaxial point {name!r}: unknown field(s) "
-                               f"{', '.join(sorted(extra))}; valid: "
-                               f"{', '.join(sorted(MULTIAXIAL_KEYS))}", field="multiaxial")
-    out = {"reductions": spec.get("reductions", ["signed_von_mises", "critical_plane"]),
-           "plane_step_deg": spec.get("plane_step_deg", 10.0)}
-    if not isinstance(out["reductions"], list) or not out["reductions"]:
-        raise InvalidParameter("reductions must be a non-empty list of "
-                               f"{', '.join(multiaxial.REDUCTION_NAMES)}", field="reductions")
-    for r in out["reductions"]:
-        if r not in multiaxial.REDUCTION_NAMES:
-            raise unknown("reductions", r, multiaxial.REDUCTION_NAMES)
-    if ("rosette" in spec) == ("components" in spec):
-        raise InvalidParameter(f"multiaxial point {name!r} needs exactly one of rosette "
-                               f"(with gauges) or components", field="multiaxial")
-    if "rosette" in spec:
-        if not isinstance(spec["rosette"], str) or (
-                spec["rosette"] not in multiaxial.ROSETTE_LAYOUTS):
-            raise unknown("rosette", spec["rosette"], multiaxial.ROSETTE_LAYOUTS)
-        gauges = spec.get("gauges")
-        if not (isinstance(gauges, list) and len(gauges) == 3
-                and all(isinstance(g, str) for g in gauges)):
-            raise InvalidParameter("gauges must list the three channels a, b, c in layout "
-                                   "order", field="gauges")
-        nu = spec.get("poisson_ratio")
-        if isinstance(nu, bool) or not isinstance(nu, (int, float)) or not 0 <= nu < 0.5:
-            raise InvalidParameter("a rosette needs poisson_ratio in [0, 0.5)",
-                                   field="poisson_ratio", value=nu)
-        out.update(kind="rosette", layout=spec["rosette"], channels=list(gauges),
-                   poisson_ratio=float(nu),
-                   transverse_sensitivity=spec.get("transverse_sensitivity", 0.0),
-                   calibration_poisson=spec.get("calibration_poisson",
-                                                multiaxial.CALIBRATION_POISSON))
-        for key in ("transverse_sensitivity", "calibration_poisson"):
-            v = out[key]
-            if isinstance(v, bool) or not isinstance(v, (int, float)) or not math.isfinite(v):
-                raise InvalidParameter(f"{key} must be a number", field=key, value=v)
-    else:
-        comp = spec["components"]
-        if not isinstance(comp, dict) or set(comp) not in (set(PLANE_COMPONENTS),
-                                                           set(SOLID_COMPONENTS)) or not all(
-                isinstance(v, str) for v in comp.values()):
-            raise InvalidParameter("components maps sxx, syy, sxy (plane stress) or sxx, "
-                                   "syy, szz, sxy, syz, szx (3-D) to channels",
-                                   field="components")
-        order = PLANE_COMPONENTS if len(comp) == 3 else SOLID_COMPONENTS
-        out.update(kind="plane_stress" if len(comp) == 3 else "tensor",
-                   channels=[comp[k] for k in order], components=list(order))
-    for ch in out["channels"]:
-        if ch not in channels:
-            raise unknown("multiaxial channel", ch, channels)
-        if units and ch in units:
-            strain = engine_units.is_strain(units[ch])
-            if out["kind"] == "rosette" and not strain:
-                raise InvalidParameter(f"rosette gauge {ch!r} is in {units[ch]}: give the "
-                                       f"gauges in a strain unit with youngs_modulus",
-                                       field="gauges", value=ch)
-            if out["kind"] != "rosette" and strain:
-                raise InvalidParameter(f"stress component {ch!r} is a strain ({units[ch]})",
-                                       field="components", value=ch)
-    if out["kind"] == "plane_stress" or out["kind"] == "rosette":
-        multiaxial.plane_normals(np.zeros((1, 3)), out["plane_step_deg"])  # checks the step
-    return out
-
-
-def components_of(point: PlannedPoint) -> tuple:
-    """A multiaxial point's stress component columns (3 or 6). [MPa]
-
-    Rosette gauges arrive as E times strain (a strain channel with its
-    modulus, converted as a uniaxial gauge), so Hooke's law runs with E = 1.
-    """
-    spec = point.multiaxial
-    cols = [point.samples[c] for c in spec["channels"]]
-    if spec["kind"] == "rosette":
-        return multiaxial.rosette_plane_stress(
-            *cols, spec["layout"], poisson_ratio=spec["poisson_ratio"],
-            transverse_sensitivity=spec["transverse_sensitivity"],
-            calibration_poisson=spec["calibration_poisson"])
-    return tuple(cols)
 
 
 def _merged_settings(own, defaults: dict, lookup, what: str, field: str) -> dict:
@@ -182,11 +89,21 @@ def plan(request: dict, channels: dict[str, np.ndarray], lookup=None,
         if n in channels:
             raise InvalidParameter(f"multiaxial point {n!r} has the name of a channel: name it "
                                    f"apart from its channels", field="multiaxial", value=n)
-    specs = {n: _multiaxial_spec(n, s, channels, units) for n, s in declared.items()}
-    used = {c for s in specs.values() for c in s["channels"]}
+    specs = {n: declarations.multiaxial_spec(n, s, channels, units) for n, s in declared.items()}
+    toes = request.get("hot_spot") or {}
+    if not isinstance(toes, dict):
+        raise InvalidParameter("hot_spot must be an object {point: declaration}",
+                               field="hot_spot")
+    for n in toes:
+        if n in channels or n in specs:
+            raise InvalidParameter(f"hot-spot point {n!r} has the name of a channel or of a "
+                                   f"multiaxial point: name it apart", field="hot_spot", value=n)
+    hs_specs = {n: declarations.hot_spot_spec(n, s, channels) for n, s in toes.items()}
+    used = {c for s in specs.values() for c in s["channels"]} | {
+        g for s in hs_specs.values() for g in s["gauges"]}
     if points is None:
         points = {name: {} for name in channels if name not in used}
-    if not isinstance(points, dict) or (not points and not specs):
+    if not isinstance(points, dict) or (not points and not specs and not hs_specs):
         raise InvalidParameter("points must be an object {channel: settings}", field="points")
     clash = set(points) & set(specs)
     if clash:
@@ -221,6 +138,11 @@ def plan(request: dict, channels: dict[str, np.ndarray], lookup=None,
                                    field="shear_settings")
         out.append(PlannedPoint(name, {c: channels[c] for c in spec["channels"]}, merged,
                                 spec))
+    for name, spec in hs_specs.items():
+        own = toes[name].get("settings") or {}
+        merged = _merged_settings(own, defaults, lookup, f"hot-spot point {name!r}", "hot_spot")
+        out.append(PlannedPoint(name, {g: channels[g] for g in spec["gauges"]}, merged,
+                                hot_spot=spec))
     return out
 
 
@@ -276,6 +198,8 @@ def assess_point(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
     how much the others differ, and whether the principal directions rotate.
     Its gate fraction applies to the range of its signed von Mises history.
     """
+    if point.hot_spot is not None:
+        return _assess_hot_spot(point, gate, gate_fraction, residue, duration_s)
     curve, opts, estimate = point_from_dict(point.settings)
     policy, thresholds = screening_from_dict(point.settings)
     rate = point.sample_count / duration_s if duration_s else None
@@ -314,7 +238,7 @@ def assess_point(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
             for f in _screened(channel, x, rate, policy, thresholds):
                 f.description = f"{channel}: {f.description}"
                 findings.append(f)
-        comps = components_of(point)
+        comps = declarations.components_of(point.multiaxial, point.samples)
         g = resolve_gate(multiaxial.reduce(comps, "signed_von_mises"), gate or 0.0,
                          gate_fraction)
         shear_curve = shear_opts = None
@@ -355,32 +279,48 @@ def assess_point(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
         screening=signal,
     )
     if block is not None:
-        out["multiaxial"] = _echo(block)
+        out["multiaxial"] = declarations.echo(block)
     return json_safe(out), r.damage_per_cycle
 
 
-def _echo(spec: dict) -> dict:
-    """A multiaxial point's block in the request's own names: ``rosette`` and
-    ``gauges``, or ``components`` as ``{component: channel}``."""
-    out = dict(spec)
-    channels = out.pop("channels")
-    if out["kind"] == "rosette":
-        out["rosette"], out["gauges"] = out.pop("layout"), channels
-    else:
-        out["components"] = dict(zip(out["components"], channels))
-    return out
-
-
-def _unecho(block: dict) -> dict:
-    """The planned spec from a stored block (:func:`_echo` undone; results
-    stored before the echo are rewritten by store migration 10)."""
-    spec = dict(block)
-    if spec["kind"] == "rosette":
-        spec["layout"], spec["channels"] = spec.pop("rosette"), spec.pop("gauges")
-    else:
-        comps = spec.pop("components")
-        spec["components"], spec["channels"] = list(comps), list(comps.values())
-    return spec
+def _assess_hot_spot(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
+    """A hot-spot point: its gauges screened, extrapolated to the weld toe
+    (``engine.hot_spot``), and the hot-spot history assessed as one channel.
+    Cleaning applies to single channels: a hot-spot point's findings are
+    reported (or refused)."""
+    spec = point.hot_spot
+    policy, thresholds = screening_from_dict(point.settings)
+    rate = point.sample_count / duration_s if duration_s else None
+    findings = []
+    for g in spec["gauges"]:
+        for f in _screened(g, point.samples[g], rate, policy, thresholds):
+            f.description = f"{g}: {f.description}"
+            findings.append(f)
+    ex = declarations.hot_spot_plan(spec)
+    history = hot_spot.extrapolate([point.samples[g] for g in spec["gauges"]], ex.weights)
+    inner = PlannedPoint(point.name, history, {**point.settings, "screening": "off"})
+    out, damage_per_cycle = assess_point(inner, gate, gate_fraction, residue, duration_s)
+    unit = "mm"
+    extra = [cautions.caution(
+        "hot_spot_extrapolated", method=ex.method,
+        positions=", ".join(f"{p:.3g} {unit}" for p in ex.positions_mm),
+        weights=", ".join(f"{w:.4g}" for w in ex.weights)), *ex.cautions]
+    if out["curve"]["name"] not in hot_spot.HOT_SPOT_CURVES:
+        extra.append(cautions.caution("hot_spot_curve", curve=out["curve"]["name"]))
+    if findings:
+        table = astm_e1049(history, gate=out["gate_mpa"], residue=residue)
+        screening.damage_shares(findings, table.start_index, table.end_index, damage_per_cycle)
+        shares = [f.damage_share for f in findings if f.damage_share is not None]
+        extra.append(cautions.caution(
+            "signal_findings", kinds=", ".join(sorted({f.kind for f in findings})),
+            share=(f" (up to {max(shares):.0%} of the damage in cycles they touch)"
+                   if shares else "")))
+    out.update(settings_used=point.settings,
+               screening=_signal_block("report" if policy == "clean" else policy, findings,
+                                       None),
+               cautions=out["cautions"] + [c.as_dict() for c in extra],
+               hot_spot={k: v for k, v in spec.items() if k != "kind"})
+    return json_safe(out), damage_per_cycle
 
 
 def _screened(channel: str, samples, rate, policy: str, thresholds) -> list:
@@ -468,7 +408,8 @@ def _store(con, request, results, points, duration_s, history_id, samples_file,
             kept = {}
             for p in points:
                 kept.update({c: np.ascontiguousarray(x) for c, x in p.samples.items()}
-                            if p.multiaxial else {p.name: np.ascontiguousarray(p.samples)})
+                            if isinstance(p.samples, dict)
+                            else {p.name: np.ascontiguousarray(p.samples)})
             sqlite.insert_samples(con, aid, kept)
     return row
 
@@ -500,13 +441,17 @@ def point_signal(data_dir, assessment: dict, point: str,
     """``(counted, recorded)``: the history a stored point was counted from
     (:func:`point_samples`) and, when its signal was cleaned before
     counting, the signal as recorded (else None). [MPa]"""
+    toe = assessment["result"]["points"][point].get("hot_spot")
     spec = assessment["result"]["points"][point].get("multiaxial")
-    spec = _unecho(spec) if spec else None
-    names = spec["channels"] if spec else [point]
+    spec = declarations.unecho(spec) if spec else None
+    names = spec["channels"] if spec else toe["gauges"] if toe else [point]
     if assessment["samples_file"]:
         read = parquet.read_channels(data_dir, assessment["samples_file"], names)
     else:
         read = {n: sqlite.get_samples(con, assessment["id"], n) for n in names}
+    if toe:
+        # The weights the result was made with, as stored.
+        return hot_spot.extrapolate([read[g] for g in toe["gauges"]], toe["weights"]), None
     if not spec:
         res = assessment["result"]["points"][point]
         if (res.get("screening") or {}).get("cleaned") is not None:
@@ -515,7 +460,7 @@ def point_signal(data_dir, assessment: dict, point: str,
             found = screening.screen(read[point], None, thresholds)
             return screening.clean(read[point], found, thresholds)[0], read[point]
         return read[point], None
-    comps = components_of(PlannedPoint(point, read, {}, spec))
+    comps = declarations.components_of(spec, read)
     return multiaxial.governing_history(comps, spec["reduction"],
                                         spec["plane_angle_deg"]), None
 

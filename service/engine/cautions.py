@@ -89,6 +89,22 @@ CAUTION_TEXTS = {
     "signal_cleaned": "The signal was cleaned before counting ({done}); the damage before "
                       "cleaning was {before:.4g}. Faults that cannot be cleaned (clipping, held "
                       "runs, undersampling) stay in the signal.",
+    # Hot-spot points (engine/hot_spot.py).
+    "hot_spot_extrapolated": "The hot-spot stress is extrapolated to the weld toe from gauges at "
+                             "{positions} by the {method} rule (weights {weights}; IIW "
+                             "recommendations 2016 sec. 2.2.3, DNV-RP-C203 sec. 4.3, " + _CHECK
+                             + "); gauges read as uniaxial (sigma = E epsilon), which holds "
+                             "where the stress along the weld is small.",
+    "hot_spot_gauge_position": "Gauges of the {method} hot-spot rule sit away from their "
+                               "reference points by more than {tolerance}: {where}; the "
+                               "extrapolation uses the positions given, exact only for the "
+                               "field shape the rule assumes.",
+    "hot_spot_gauge_in_notch": "The gauge nearest the toe is at {position}, closer than "
+                               "{nearest}: it may read the weld's own notch stress, which the "
+                               "hot-spot curves already contain.",
+    "hot_spot_curve": "The hot-spot stress is assessed on {curve}, which is not a structural "
+                      "hot-spot curve (IIW FAT 90 or 100, EN 1993-1-9 Annex B categories 90 "
+                      "and 100, DNV-RP-C203 curve D): check the curve against the joint.",
     # Inputs.
     "implausible_value": "The value {field} = {value:.6g} {unit} is unusual for {what}; {hint}.",
 }
@@ -108,6 +124,8 @@ _SEVERITY = {
     "mean_stress_on_welded_curve": "warning", "sign_ambiguous": "warning",
     "non_proportional": "warning", "signal_findings": "warning", "residue_share": "warning",
     "implausible_value": "warning", "estimate_not_steel": "warning",
+    "hot_spot_gauge_position": "warning", "hot_spot_gauge_in_notch": "warning",
+    "hot_spot_curve": "warning",
     "low_cycle_regime": "warning", "below_fatigue_limit": "warning",
     "yield_not_checked": "warning",
     "estimate_scatter": "general", "method_choice": "general", "engineer_sign_off": "general",

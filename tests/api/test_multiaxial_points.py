@@ -200,7 +200,7 @@ def test_the_echo_in_request_names_reads_back_as_the_plan_and_old_results_are_re
     import json
     import sqlite3
 
-    from service.runs import _echo, _unecho
+    from service.declarations import echo as _echo, unecho as _unecho
     from service.store.migrations import MIGRATIONS
 
     rosette = {"kind": "rosette", "layout": "delta", "channels": ["a", "b", "c"],

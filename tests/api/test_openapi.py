@@ -19,7 +19,7 @@ from service.engine.mean_stress import COMPRESSIVE_MEAN_POLICIES, MEAN_STRESS_ME
 from service.engine.rainflow import RESIDUE_TREATMENTS
 from service.engine.multiaxial import REDUCTION_NAMES, ROSETTE_LAYOUTS
 from service.engine.sn_curve import BELOW_LIMIT_TREATMENTS
-from service.runs import MULTIAXIAL_KEYS
+from service.declarations import MULTIAXIAL_KEYS
 from service.store import keys, sqlite
 from tests.api.conftest import SPEC_PATH
 
