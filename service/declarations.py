@@ -142,11 +142,13 @@ def unecho(block: dict) -> dict:
 HOT_SPOT_KEYS = {"gauges", "extrapolation", "thickness_mm", "positions_mm", "settings"}
 
 
-def hot_spot_spec(name: str, spec, channels: dict) -> dict:
+def hot_spot_spec(name: str, spec, channels: dict | None) -> dict:
     """A checked hot-spot declaration: ``gauges`` (channels, nearest the toe
     first), ``extrapolation`` (``engine.hot_spot.HOT_SPOT_METHODS``),
     ``thickness_mm`` and the ``positions_mm`` of the gauges (nominal when
-    omitted), with the weights they give (``engine.hot_spot.plan``)."""
+    omitted), with the weights they give (``engine.hot_spot.plan``).
+    ``channels`` None (a ledger point, registered before any block) skips
+    the check that the gauges are channels."""
     if not isinstance(spec, dict):
         raise InvalidParameter(f"hot-spot point {name!r} must be an object", field="hot_spot")
     extra = set(spec) - HOT_SPOT_KEYS
@@ -166,7 +168,7 @@ def hot_spot_spec(name: str, spec, channels: dict) -> dict:
                                f"list their channels, nearest the toe first", field="gauges",
                                value=gauges)
     for g in gauges:
-        if g not in channels:
+        if channels is not None and g not in channels:
             raise unknown("hot-spot gauge", g, channels)
     return {"kind": "hot_spot", "gauges": list(gauges), **ex.as_dict()}
 

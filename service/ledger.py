@@ -24,8 +24,8 @@ from dataclasses import replace
 
 import numpy as np
 
-from service import runs
-from service.engine import screening
+from service import declarations, runs
+from service.engine import hot_spot, screening
 from service.engine._threads import in_one_thread
 from service.engine.damage import AssessmentOptions, assess
 from service.engine.errors import InvalidLoadHistory, InvalidParameter, unknown
@@ -59,6 +59,14 @@ def check_settings(settings, lookup) -> tuple[dict, dict]:
     """
     if not isinstance(settings, dict):
         raise InvalidParameter("settings must be an object", field="settings")
+    toe = None
+    if "hot_spot" in settings:
+        # A hot-spot point: its gauges arrive as channels of the blocks.
+        toe = declarations.hot_spot_spec("this point", {k: v for k, v in
+                                                          settings["hot_spot"].items()
+                                                          if k != "settings"}
+                                         if isinstance(settings["hot_spot"], dict)
+                                         else settings["hot_spot"], None)
     if "gate_fraction" in settings:
         raise InvalidParameter("a ledger point takes gate in MPa, not gate_fraction: a running "
                                "history has no final range", field="gate_fraction")
@@ -66,14 +74,23 @@ def check_settings(settings, lookup) -> tuple[dict, dict]:
     if isinstance(gate, bool) or not isinstance(gate, (int, float)) or not (
             math.isfinite(gate) and gate >= 0):
         raise InvalidParameter(f"gate {gate!r} must be a number >= 0 (MPa)", field="gate")
-    body = {k: v for k, v in settings.items() if k != "gate"}
+    body = {k: v for k, v in settings.items() if k not in ("gate", "hot_spot")}
     resolved = resolve(body, lookup) if lookup else body
     point_from_dict(resolved)
-    return dict(settings), {**resolved, "gate": float(gate)}
+    resolved = {**resolved, "gate": float(gate)}
+    if toe is not None:
+        resolved["hot_spot"] = toe
+    return dict(settings), resolved
+
+
+def gauges_of(row: dict) -> list[str] | None:
+    """The gauge channels of a hot-spot ledger point (None for a plain one)."""
+    toe = row["resolved"].get("hot_spot")
+    return toe["gauges"] if toe else None
 
 
 def _model(resolved: dict):
-    settings = {k: v for k, v in resolved.items() if k != "gate"}
+    settings = {k: v for k, v in resolved.items() if k not in ("gate", "hot_spot")}
     curve, opts, _ = point_from_dict(settings)
     opts = replace(opts, reserve_factor=False, top_cycles=0)
     policy, thresholds = screening_from_dict(settings)
@@ -97,6 +114,24 @@ def screened(name: str, samples: np.ndarray, rate, model) -> tuple[np.ndarray, l
     if findings and policy == "clean":
         samples = screening.clean(samples, findings, thresholds)[0]
     return samples, findings
+
+
+def point_signal(name: str, channels: dict, rate, model, row: dict) -> tuple[np.ndarray, list]:
+    """:func:`screened` for any ledger point: a plain point's channel, or a
+    hot-spot point's gauges screened each (reported or refused; cleaning is
+    for single channels) and extrapolated to the toe (``engine.hot_spot``)."""
+    toe = row["resolved"].get("hot_spot")
+    if toe is None:
+        return screened(name, channels[name], rate, model)
+    policy = model[3]
+    findings = []
+    report = model[:3] + ("report" if policy == "clean" else policy,) + model[4:]
+    for g in toe["gauges"]:
+        _, found = screened(g, channels[g], rate, report)
+        for f in found:
+            f.description = f"{g}: {f.description}"
+        findings += found
+    return hot_spot.extrapolate([channels[g] for g in toe["gauges"]], toe["weights"]), findings
 
 
 def _damage(table, curve, opts: AssessmentOptions) -> tuple[float, bool]:
@@ -133,17 +168,14 @@ def _advance(totals: dict, samples: np.ndarray, block: dict, model) -> dict:
             "last_block_at": block.get("recorded_at") or block["created_at"]}
 
 
-def _samples(data_dir, block: dict, point: str) -> np.ndarray:
-    return parquet.read_channels(data_dir, block["file"], [point])[point]
-
-
 def recount(con, data_dir, row: dict) -> dict:
     """A point's totals from scratch over its stored blocks, in sequence order."""
     model = _model(row["resolved"])
     totals = _start(row)
+    names = gauges_of(row) or [row["point"]]
     for block in sql.point_blocks(con, row["asset_id"], row["point"]):
-        samples, _ = screened(row["point"], _samples(data_dir, block, row["point"]),
-                              block["sample_rate_hz"], model)
+        channels = parquet.read_channels(data_dir, block["file"], names)
+        samples, _ = point_signal(row["point"], channels, block["sample_rate_hz"], model, row)
         totals = _advance(totals, samples, block, model)
     return totals
 
@@ -231,7 +263,7 @@ def post_block(con, data_dir, asset_id: str, seq: int, up, spooled, *, recorded_
                 return held["response"], True
             raise LedgerConflict(f"Idempotency-Key {idempotency_key!r} was used for block "
                                  f"{held['id']} with other content", block_id=held["id"])
-    names = list(up.channels)
+    names = counted_points(con, asset_id, up.channels)
     with point_locks(data_dir, asset_id, names):
         rows = {n: sql.get_point(con, asset_id, n) for n in names}
         plans = {n: sequence_check(con, asset_id, seq, rows[n], content_hash, allow_gap,
@@ -246,7 +278,8 @@ def post_block(con, data_dir, asset_id: str, seq: int, up, spooled, *, recorded_
         models = {n: _model(rows[n]["resolved"]) for n in names}
         counted, findings = {}, {}
         for n in names:
-            counted[n], findings[n] = screened(n, up.channels[n], up.sample_rate_hz, models[n])
+            counted[n], findings[n] = point_signal(n, up.channels, up.sample_rate_hz, models[n],
+                                                   rows[n])
         block_id = sqlite.new_id("b")
         rel = (parquet.adopt(data_dir, BLOCKS, block_id, spooled) if up.stored_as_sent
                else parquet.write_columns(data_dir, BLOCKS, block_id, up.channels))
@@ -297,6 +330,38 @@ def post_block(con, data_dir, asset_id: str, seq: int, up, spooled, *, recorded_
             parquet.remove(data_dir, rel)
             raise
     return answer, False
+
+
+def counted_points(con, asset_id: str, channels) -> list[str]:
+    """The points a block's ``channels`` advance: each channel registered as
+    a point, and each hot-spot point whose gauges the block carries (all of
+    them, or the block is refused naming the missing ones)."""
+    names = [n for n in channels if sql.get_point(con, asset_id, n) is not None]
+    for row in sql.asset_points(con, asset_id):
+        gauges = gauges_of(row)
+        if not gauges or not any(g in channels for g in gauges):
+            continue
+        missing = [g for g in gauges if g not in channels]
+        if missing:
+            raise InvalidParameter(f"hot-spot point {row['point']!r} needs every gauge in a "
+                                   f"block; missing: {', '.join(missing)}", field="channels",
+                                   value=missing)
+        names.append(row["point"])
+    return names
+
+
+def registered_channels(rows) -> dict:
+    """``{channel: (unit, youngs_modulus)}`` a block of these points may
+    carry: each point's own channel, and each hot-spot point's gauges in the
+    unit of their point."""
+    out = {}
+    for p in rows:
+        for g in gauges_of(p) or []:
+            out.setdefault(g, (p["unit"], p["youngs_modulus"]))
+    for p in rows:
+        if not gauges_of(p):
+            out[p["point"]] = (p["unit"], p["youngs_modulus"])
+    return out
 
 
 def _current(row: dict) -> dict:

@@ -196,8 +196,7 @@ def post_block(asset: str):
     allow_gap, allow_late = _flag("allow_gap"), _flag("allow_late")
     uploads.check_media_type(request.content_type)
     con = db()
-    registered = {p["point"]: (p["unit"], p["youngs_modulus"])
-                  for p in sql.list_points(con, project(), asset_id)}
+    registered = ledger.registered_channels(sql.list_points(con, project(), asset_id))
     # The content hash (a retry carries the same bytes) is taken while the
     # body is spooled, so it costs no second pass over the file.
     digest = hashlib.sha256()  # hardware-accelerated here: faster than blake2b

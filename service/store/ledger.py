@@ -80,6 +80,12 @@ def list_points(con, project: str, asset_id: str | None = None) -> list[dict]:
     return [_point(r) for r in con.execute(sql + " ORDER BY a.name, p.point", args)]
 
 
+def asset_points(con, asset_id: str) -> list[dict]:
+    """Every point of one asset, by name."""
+    return [_point(r) for r in con.execute(_POINT_SQL + " WHERE p.asset_id = ? ORDER BY p.point",
+                                           (asset_id,))]
+
+
 def _point(r) -> dict | None:
     if r is None:
         return None

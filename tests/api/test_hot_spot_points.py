@@ -106,3 +106,63 @@ def test_a_hot_spot_point_named_like_a_channel_is_refused(client):
         "hot_spot": {"hs1": {"gauges": ["hs1", "hs2", "hs3"],
                              "extrapolation": "fixed_distance"}}})
     assert_problem(r, 422, "invalid-parameter", field="hot_spot")
+
+
+# ---------------------------------------------------------------- ledger
+
+
+def _blocks(client, asset, parts, rate=200.0, **query):
+    from tests.api.test_ledger import post
+
+    return [post(client, asset, seq, cols, rate=rate, **query)
+            for seq, cols in enumerate(parts, 1)]
+
+
+def test_a_ledger_hot_spot_point_counts_its_gauges_block_by_block(client):
+    # Microstrain gauges at the quadratic rule's points: the ledger's damage
+    # after three blocks equals the hot-spot history counted at once (ASTM
+    # E1049-85 with the residue carried; damage_if_ended closes it).
+    E = 206_000.0
+    h, gauges = toe_load(n=6000, seed=21)
+    micro = {g: np.asarray(v) / E * 1e6 for g, v in gauges.items()}
+    assert client.post("/v1/assets", json={"name": "boom"}).status_code == 201
+    r = client.post("/v1/assets/boom/points", json={
+        "name": "toe", "unit": "microstrain", "youngs_modulus": E,
+        "settings": {"curve": "IIW:FAT90", "hot_spot": {
+            "gauges": ["hs1", "hs2", "hs3"], "extrapolation": "quadratic",
+            "thickness_mm": T}}})
+    assert r.status_code == 201, r.get_json()
+    assert r.get_json()["settings_used"]["hot_spot"]["weights"] == pytest.approx(
+        [2.52, -2.24, 0.72], abs=1e-12)
+    cuts = (0, 2000, 4100, 6000)
+    parts = [{g: x[a:b] for g, x in micro.items()} for a, b in zip(cuts, cuts[1:])]
+    answers = _blocks(client, "boom", parts)
+    assert [a.status_code for a in answers] == [201, 201, 201], answers[-1].get_json()
+    point = client.get("/v1/assets/boom/points/toe").get_json()
+    ref = assess_history(h, FAT90)
+    assert point["damage_if_ended"] == pytest.approx(ref.damage, rel=1e-9)
+    assert point["recorded_hours"] == pytest.approx(6000 / 200.0 / 3600.0)
+    # Voiding the middle block recounts from the stored gauges.
+    block = answers[1].get_json()["block"]["id"]
+    assert client.post(f"/v1/assets/boom/blocks/{block}/void").status_code == 200
+    point = client.get("/v1/assets/boom/points/toe").get_json()
+    joined = np.concatenate([h[:2000], h[4100:]])
+    assert point["damage_if_ended"] == pytest.approx(assess_history(joined, FAT90).damage,
+                                                     rel=1e-9)
+
+
+def test_a_block_without_every_gauge_of_a_hot_spot_point_is_refused(client):
+    _, gauges = toe_load(n=300)
+    client.post("/v1/assets", json={"name": "mast"})
+    client.post("/v1/assets/mast/points", json={
+        "name": "toe", "unit": "MPa", "settings": {"curve": "IIW:FAT90", "hot_spot": {
+            "gauges": ["hs1", "hs2", "hs3"], "extrapolation": "fixed_distance"}}})
+    [r] = _blocks(client, "mast", [{"hs1": np.asarray(gauges["hs1"]),
+                                    "hs2": np.asarray(gauges["hs2"])}])
+    assert r.status_code == 422 and r.get_json()["field"] == "channels", r.get_json()
+    assert "hs3" in r.get_json()["detail"]
+    # A bad declaration is refused at registration.
+    r = client.post("/v1/assets/mast/points", json={
+        "name": "toe2", "unit": "MPa", "settings": {"curve": "IIW:FAT90", "hot_spot": {
+            "gauges": ["hs1", "hs2"], "extrapolation": "quadratic", "thickness_mm": 10}}})
+    assert r.status_code == 422 and r.get_json()["field"] == "gauges"
