@@ -17,7 +17,9 @@ import numpy as np
 import pyarrow as pa
 import pyarrow.parquet as pq
 
+from service import declarations
 from service.engine import cautions as _cautions
+from service.engine.errors import InvalidParameter
 from service.engine.rainflow import resolve_gate
 from service.runs import json_safe
 from service.engine.settings import point_from_dict
@@ -76,7 +78,8 @@ def run_batch(dataset: Dataset, settings: dict, client, *,
     resolve_gate(np.zeros(1), gate, gate_fraction)  # a bad gate fails here, not per task
     if partition_points < 1:
         raise ValueError("partition_points must be at least 1")
-    groups = partitions(dataset.points, partition_points)
+    points = batch_points(dataset, overrides)
+    groups = partitions(points, partition_points)
     t0 = time.perf_counter()
     futures = {}
     for g in groups:
@@ -106,9 +109,27 @@ def run_batch(dataset: Dataset, settings: dict, client, *,
             fut.release()
         done += len(g)
         if progress is not None:
-            progress(done, len(dataset.points))
-    return BatchResult([rows[p] for p in dataset.points], failures,
+            progress(done, len(points))
+    return BatchResult([rows[p] for p in points], failures,
                        time.perf_counter() - t0, len(groups), partition_points, peaks)
+
+
+def batch_points(dataset: Dataset, overrides: dict | None) -> list[str]:
+    """The points of a batch: the dataset's columns, and the hot-spot points
+    of ``overrides`` (``{name: {"hot_spot": declaration, ...}}``, their
+    gauges among the columns); a column used as a gauge is a point of its
+    own only when ``overrides`` lists it."""
+    overrides = overrides or {}
+    columns = set(dataset.points)
+    toes = {p: o["hot_spot"] for p, o in overrides.items()
+            if isinstance(o, dict) and "hot_spot" in o}
+    gauges = set()
+    for p, decl in toes.items():
+        if p in columns:
+            raise InvalidParameter(f"hot-spot point {p!r} has the name of a column: name it "
+                                   "apart from its gauges", field="hot_spot", value=p)
+        gauges |= set(declarations.hot_spot_spec(p, decl, columns)["gauges"])
+    return [p for p in dataset.points if p not in gauges or p in overrides] + list(toes)
 
 
 def write_results(result: BatchResult, dataset: Dataset, settings: dict, out_dir) -> dict:

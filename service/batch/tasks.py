@@ -16,6 +16,8 @@ import threading
 import time
 
 import numpy as np
+from service import declarations
+from service.engine import hot_spot
 from service.engine import units as engine_units
 from service.engine.damage import assess
 from service.engine.errors import EngineError
@@ -50,21 +52,22 @@ def assess_group(files, layout: str, points: list[str], settings: dict, *,
     t0 = time.perf_counter()
     probe = _RssProbe() if measure_memory else None
     overrides = overrides or {}
-    models, rows, states, tables, counts, failed = {}, {}, {}, {}, {}, {}
+    models, rows, states, tables, counts, failed, toes = {}, {}, {}, {}, {}, {}, {}
     for p in points:
+        own = dict(overrides.get(p, {}))
         try:
-            models[p] = point_from_dict({**settings, **overrides.get(p, {})})
+            if "hot_spot" in own:
+                toes[p] = declarations.hot_spot_spec(p, own.pop("hot_spot"), None)
+            models[p] = point_from_dict({**settings, **own})
         except EngineError as exc:
             failed[p] = exc.message
     live = [p for p in points if p not in failed]
-    gates = _gates(files, layout, live, unit, youngs_modulus, gate, gate_fraction, failed)
+    gates = _gates(files, layout, live, toes, unit, youngs_modulus, gate, gate_fraction,
+                   failed)
     for f in files:
-        data = read_group(f, layout, live)
-        for p, x in data.items():
-            if p in failed:
-                continue
+        for p, mpa in _file_histories(f, layout, live, toes, unit, youngs_modulus,
+                                      failed).items():
             try:
-                mpa = engine_units.to_mpa(x, unit, youngs_modulus)
                 table, states[p] = count_block(mpa, states.get(p), gate=gates[p])
             except EngineError as exc:
                 # count_block numbers samples across the whole history.
@@ -73,8 +76,7 @@ def assess_group(files, layout: str, points: list[str], settings: dict, *,
                 failed[p] = f"{where}: {exc.message}"
                 continue
             tables.setdefault(p, []).append(table)
-            counts[p] = counts.get(p, 0) + x.shape[0]
-        del data
+            counts[p] = counts.get(p, 0) + mpa.shape[0]
     for p in points:
         if p in failed:
             rows[p] = _failed(p, failed[p])
@@ -104,7 +106,37 @@ def assess_group(files, layout: str, points: list[str], settings: dict, *,
             "rss_rise_bytes": probe.stop() if probe else None}
 
 
-def _gates(files, layout, points, unit, youngs_modulus, gate, gate_fraction, failed) -> dict:
+def _file_histories(f, layout, points, toes, unit, youngs_modulus, failed) -> dict:
+    """``{point: stress history in this file}`` [MPa]: a point's own column,
+    or a hot-spot point's gauges extrapolated to the toe (``engine.hot_spot``;
+    a file holding only some of its gauges fails the point). A point whose
+    samples cannot be read as stress lands in ``failed``; points absent from
+    the file are left out."""
+    columns = sorted({c for p in points for c in (toes[p]["gauges"] if p in toes else [p])})
+    data = read_group(f, layout, columns)
+    out = {}
+    for p in points:
+        if p in failed:
+            continue
+        names = toes[p]["gauges"] if p in toes else [p]
+        present = [c for c in names if c in data]
+        if not present:
+            continue
+        if len(present) < len(names):
+            failed[p] = (f"{f}: hot-spot gauge(s) "
+                         f"{', '.join(c for c in names if c not in data)} missing")
+            continue
+        try:
+            mpa = [engine_units.to_mpa(data[c], unit, youngs_modulus) for c in names]
+            out[p] = (hot_spot.extrapolate(mpa, toes[p]["weights"]) if p in toes
+                      else mpa[0])
+        except EngineError as exc:
+            failed[p] = f"{f}: {exc.message}"
+    return out
+
+
+def _gates(files, layout, points, toes, unit, youngs_modulus, gate, gate_fraction,
+           failed) -> dict:
     """The absolute gate [MPa] of each point: ``gate`` for all, or
     ``gate_fraction`` of each point's range over every file (a first pass).
     A point whose samples cannot be read as stress lands in ``failed``."""
@@ -115,16 +147,11 @@ def _gates(files, layout, points, unit, youngs_modulus, gate, gate_fraction, fai
     lo = dict.fromkeys(points, np.inf)
     hi = dict.fromkeys(points, -np.inf)
     for f in files:
-        for p, x in read_group(f, layout, points).items():
-            if p in failed or not x.size:
-                continue
-            try:
-                mpa = engine_units.to_mpa(x, unit, youngs_modulus)
-            except EngineError as exc:
-                failed[p] = f"{f}: {exc.message}"
-                continue
-            lo[p] = min(lo[p], float(np.min(mpa)))
-            hi[p] = max(hi[p], float(np.max(mpa)))
+        for p, mpa in _file_histories(f, layout, points, toes, unit, youngs_modulus,
+                                      failed).items():
+            if mpa.size:
+                lo[p] = min(lo[p], float(np.min(mpa)))
+                hi[p] = max(hi[p], float(np.max(mpa)))
     span = {p: hi[p] - lo[p] for p in points}
     return {p: gate_fraction * span[p] if np.isfinite(span[p]) else 0.0 for p in points}
 

@@ -200,6 +200,42 @@ def test_cli_batch_gate_fraction_gates_each_point_on_its_own_range(tmp_path, cap
         run_batch(open_dataset(data), SETTINGS, c, gate_fraction=1.5)
 
 
+def test_cli_batch_assesses_hot_spot_points_from_their_gauges(tmp_path, capsys):
+    # Gauges at the quadratic rule's reference points (IIW recommendations
+    # 2016 sec. 2.2.3: 0.4t, 0.9t, 1.4t) on a quadratic field scaled by the
+    # toe's history h: the extrapolation is exact, so the batch's hot-spot
+    # point equals the engine on h with FAT 90; across file joins too.
+    from service.cli import main
+
+    rng = np.random.default_rng(31)
+    h = np.cumsum(rng.normal(0, 9.0, 3000))
+    t = 16.0
+    field = [1.0 - 0.02 * x + 0.0003 * x * x for x in (0.4 * t, 0.9 * t, 1.4 * t)]
+    full = {f"hs{i + 1}": h * f for i, f in enumerate(field)}
+    full["other"] = np.cumsum(rng.normal(0, 5.0, 3000))
+    data = tmp_path / "data"
+    data.mkdir()
+    write_wide(data, full, pieces=3)
+    points = tmp_path / "points.json"
+    points.write_text(json.dumps({"toe": {"curve": "IIW:FAT90", "hot_spot": {
+        "gauges": ["hs1", "hs2", "hs3"], "extrapolation": "quadratic", "thickness_mm": t}}}))
+    out = tmp_path / "out"
+    assert main(["batch", str(data), "--out", str(out), "--curve", "EN1993-1-9:71",
+                 "--points", str(points), "--threads", "2", "--json"]) == 0
+    capsys.readouterr()
+    rows = {r["point"]: r for r in pq.read_table(out / "points.parquet").to_pylist()}
+    assert set(rows) == {"other", "toe"}          # gauges are not points of their own
+    ref = assess_history(h, catalogue_curve("IIW:FAT90"), duration_s=30.0)
+    assert rows["toe"]["damage"] == pytest.approx(ref.damage, rel=1e-9)
+    assert rows["toe"]["cycles_counted"] == ref.cycles_counted
+    # A gauge missing from the dataset is refused before any task runs.
+    points.write_text(json.dumps({"toe": {"hot_spot": {
+        "gauges": ["hs1", "hs9", "hs3"], "extrapolation": "quadratic", "thickness_mm": t}}}))
+    assert main(["batch", str(data), "--out", str(out), "--curve", "IIW:FAT90",
+                 "--points", str(points), "--threads", "1"]) == 2
+    assert "hs9" in capsys.readouterr().err
+
+
 def test_api_jobs_run_on_the_cluster(tmp_path, two_workers):
     # The API's async jobs use the configured scheduler: same results as
     # the in-process job, and progress from the cluster's tasks.
