@@ -13,14 +13,16 @@ import math
 
 import numpy as np
 
-from service.engine import hot_spot, multiaxial
+from service.engine import hot_spot, multiaxial, weld_interaction
 from service.engine import units as engine_units
 from service.engine.errors import InvalidParameter, unknown
 
 #: Keys of a multiaxial point's declaration.
 MULTIAXIAL_KEYS = {"rosette", "gauges", "poisson_ratio", "transverse_sensitivity",
                    "calibration_poisson", "components", "reductions", "plane_step_deg",
-                   "settings", "shear_settings"}
+                   "settings", "shear_settings", "shear_interaction"}
+#: Keys of a multiaxial point's ``shear_interaction``.
+INTERACTION_KEYS = {"rule", "normal", "loading", "comparison_value"}
 PLANE_COMPONENTS = ("sxx", "syy", "sxy")
 SOLID_COMPONENTS = ("sxx", "syy", "szz", "sxy", "syz", "szx")
 
@@ -93,7 +95,46 @@ def multiaxial_spec(name: str, spec, channels: dict, units: dict | None) -> dict
                                        field="components", value=ch)
     if out["kind"] == "plane_stress" or out["kind"] == "rosette":
         multiaxial.plane_normals(np.zeros((1, 3)), out["plane_step_deg"])  # checks the step
+    if "shear_interaction" in spec:
+        out["shear_interaction"] = interaction_spec(name, spec["shear_interaction"], out["kind"])
     return out
+
+
+def interaction_spec(name: str, spec, kind: str) -> dict:
+    """A checked ``shear_interaction`` of a plane-stress multiaxial point:
+    ``rule`` (``engine.weld_interaction.SHEAR_INTERACTION_RULES``), ``normal``
+    (sxx or syy: the component across the weld; the shear is sxy),
+    ``loading`` (auto, proportional, non_proportional) and, for the IIW
+    rule, a ``comparison_value`` other than the steel values."""
+    if kind == "tensor":
+        raise InvalidParameter("shear_interaction is for plane stress (rosettes, sxx/syy/sxy)",
+                               field="shear_interaction")
+    if not isinstance(spec, dict):
+        raise InvalidParameter(f"multiaxial point {name!r}: shear_interaction must be an object "
+                               f"with rule", field="shear_interaction")
+    extra = set(spec) - INTERACTION_KEYS
+    if extra:
+        raise InvalidParameter(f"shear_interaction: unknown field(s) {', '.join(sorted(extra))};"
+                               f" valid: {', '.join(sorted(INTERACTION_KEYS))}",
+                               field="shear_interaction")
+    rule = spec.get("rule")
+    if rule not in weld_interaction.SHEAR_INTERACTION_RULES:
+        raise unknown("rule", rule, weld_interaction.SHEAR_INTERACTION_RULES)
+    normal = spec.get("normal", "sxx")
+    if normal not in weld_interaction.NORMAL_COMPONENTS:
+        raise unknown("normal", normal, weld_interaction.NORMAL_COMPONENTS)
+    loading = spec.get("loading", "auto")
+    if loading not in weld_interaction.LOADINGS:
+        raise unknown("loading", loading, weld_interaction.LOADINGS)
+    cv = spec.get("comparison_value")
+    if cv is not None:
+        if rule != "iiw":
+            raise InvalidParameter("comparison_value belongs to the iiw rule",
+                                   field="comparison_value", value=cv)
+        if isinstance(cv, bool) or not isinstance(cv, (int, float)) or not 0 < cv <= 2:
+            raise InvalidParameter("comparison_value must be in (0, 2]",
+                                   field="comparison_value", value=cv)
+    return {"rule": rule, "normal": normal, "loading": loading, "comparison_value": cv}
 
 
 def components_of(spec: dict, samples: dict) -> tuple:

@@ -15,7 +15,8 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from service.engine import cautions, histograms, hot_spot, multiaxial, screening
+from service.engine import (cautions, histograms, hot_spot, multiaxial, screening,
+                            weld_interaction)
 from service.engine._threads import in_one_thread
 from service.engine.damage import assess, assess_history
 from service.engine.errors import InvalidLoadHistory, InvalidParameter, unknown
@@ -120,9 +121,12 @@ def plan(request: dict, channels: dict[str, np.ndarray], lookup=None,
         merged = _merged_settings(own, defaults, lookup, f"multiaxial point {name!r}",
                                   "multiaxial")
         shear = declared[name].get("shear_settings")
-        if "critical_plane_shear" in spec["reductions"]:
+        needs = [w for w, on in (("critical_plane_shear", "critical_plane_shear"
+                                  in spec["reductions"]),
+                                 ("shear_interaction", "shear_interaction" in spec)) if on]
+        if needs:
             if not isinstance(shear, dict):
-                raise InvalidParameter(f"multiaxial point {name!r}: critical_plane_shear needs "
+                raise InvalidParameter(f"multiaxial point {name!r}: {needs[0]} needs "
                                        f"shear_settings with a shear curve (for example "
                                        f"EN1993-1-9:shear-100)", field="shear_settings")
             if spec["kind"] == "tensor":
@@ -134,8 +138,8 @@ def plan(request: dict, channels: dict[str, np.ndarray], lookup=None,
             point_from_dict(shear)
             spec["shear_settings"] = shear
         elif shear is not None:
-            raise InvalidParameter("shear_settings apply to the critical_plane_shear reduction",
-                                   field="shear_settings")
+            raise InvalidParameter("shear_settings apply to the critical_plane_shear reduction "
+                                   "and to shear_interaction", field="shear_settings")
         out.append(PlannedPoint(name, {c: channels[c] for c in spec["channels"]}, merged,
                                 spec))
     for name, spec in hs_specs.items():
@@ -207,6 +211,7 @@ def assess_point(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
     block = None
     settings_used = point.settings
     signal = None
+    interaction_flag = None
     if point.multiaxial is None:
         findings = _screened(point.name, point.samples, rate, policy, thresholds)
         samples, cleaned = point.samples, None
@@ -252,6 +257,13 @@ def assess_point(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
         r = m.governing
         extra_cautions += list(m.cautions)
         block = {**spec, **m.summary()}
+        if "shear_interaction" in spec:
+            inter = _interaction(spec, comps, curve, opts, shear_curve, shear_opts,
+                                 m.non_proportional, g, residue, duration_s)
+            block["shear_interaction"] = inter.summary()
+            extra_cautions += list(inter.cautions)
+            if not inter.passed:
+                interaction_flag = "shear_interaction_exceeded"
         if m.reduction == "critical_plane_shear":
             settings_used = spec["shear_settings"]  # the governing result's curve
         # Cleaning a multiaxial point's channels is not offered: the
@@ -266,6 +278,8 @@ def assess_point(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
             share=(f" (up to {max(shares):.0%} of the damage in cycles they touch)"
                    if shares else "")))
     out = r.summary()
+    if interaction_flag:
+        out["flags"].append("shear_interaction_exceeded")
     out.update(
         point=point.name,
         runout=math.isinf(r.life_repeats),
@@ -321,6 +335,21 @@ def _assess_hot_spot(point: PlannedPoint, gate, gate_fraction, residue, duration
                cautions=out["cautions"] + [c.as_dict() for c in extra],
                hot_spot={k: v for k, v in spec.items() if k != "kind"})
     return json_safe(out), damage_per_cycle
+
+
+def _interaction(spec, comps, curve, opts, shear_curve, shear_opts, non_proportional, gate,
+                 residue, duration_s):
+    """The weld's normal stress (``sxx`` or ``syy``, across the weld) and its
+    shear (``sxy``) counted and assessed on their own curves and combined by
+    the declared rule (``engine.weld_interaction``)."""
+    si = spec["shear_interaction"]
+    normal = comps[("sxx", "syy").index(si["normal"])]
+    parts = [assess_history(x, c, o, gate=gate, residue=residue, duration_s=duration_s)
+             for x, c, o in ((normal, curve, opts), (comps[2], shear_curve, shear_opts))]
+    return weld_interaction.check(si["rule"], *parts, normal_component=si["normal"],
+                                  non_proportional=non_proportional, loading=si["loading"],
+                                  comparison_value=si["comparison_value"],
+                                  duration_s=duration_s)
 
 
 def _screened(channel: str, samples, rate, policy: str, thresholds) -> list:

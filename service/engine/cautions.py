@@ -105,6 +105,16 @@ CAUTION_TEXTS = {
     "hot_spot_curve": "The hot-spot stress is assessed on {curve}, which is not a structural "
                       "hot-spot curve (IIW FAT 90 or 100, EN 1993-1-9 Annex B categories 90 "
                       "and 100, DNV-RP-C203 curve D): check the curve against the joint.",
+    # Normal and shear in welds (engine/weld_interaction.py).
+    "shear_interaction": "Normal and shear stress combined by {rule} for {loading} loading: "
+                         "{value:.4g} against {limit:g} for the recording.",
+    "shear_interaction_exceeded": "The combined normal and shear check gives {value:.4g}, "
+                                  "beyond its limit {limit:g}, although each part may pass "
+                                  "alone.",
+    "interaction_non_proportional_en": "The principal directions turn (non-proportional "
+                                       "loading): EN 1993-1-9's sum of the two parts may be "
+                                       "unconservative there; the IIW rule lowers its limit "
+                                       "for such loading.",
     # Inputs.
     "implausible_value": "The value {field} = {value:.6g} {unit} is unusual for {what}; {hint}.",
 }
@@ -125,7 +135,8 @@ _SEVERITY = {
     "non_proportional": "warning", "signal_findings": "warning", "residue_share": "warning",
     "implausible_value": "warning", "estimate_not_steel": "warning",
     "hot_spot_gauge_position": "warning", "hot_spot_gauge_in_notch": "warning",
-    "hot_spot_curve": "warning",
+    "hot_spot_curve": "warning", "shear_interaction_exceeded": "warning",
+    "interaction_non_proportional_en": "warning",
     "low_cycle_regime": "warning", "below_fatigue_limit": "warning",
     "yield_not_checked": "warning",
     "estimate_scatter": "general", "method_choice": "general", "engineer_sign_off": "general",

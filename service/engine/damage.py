@@ -45,7 +45,8 @@ FLAG_CAUTIONS = ("static_overload", "below_fatigue_limit", "no_cycles", "low_cyc
 #: Every flag a point's result can carry (an assessment's point or a ledger
 #: point): one vocabulary for both, listed at /v1/methods.
 FLAGS = ("no_cycles", "static_overload", "below_fatigue_limit", "low_cycle_regime",
-         "allowable_reached", "above_yield", "range_above_static_limit", "no_blocks")
+         "allowable_reached", "above_yield", "range_above_static_limit", "no_blocks",
+         "shear_interaction_exceeded")
 
 _LOW_CYCLE_LIMIT = 1e4
 

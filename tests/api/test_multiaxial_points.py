@@ -226,3 +226,43 @@ def test_the_echo_in_request_names_reads_back_as_the_plan_and_old_results_are_re
     assert new["points"]["t"]["multiaxial"] == _echo(tensor)
     assert new["points"]["t"]["options"] == {"residue": "repeating_block"}
     assert all("settings" not in p for p in new["points"].values())
+
+
+def test_shear_interaction_of_a_weld_by_en1993_and_iiw(client):
+    # Normal stress across a weld (syy) and shear along it (sxy), in
+    # proportion (a fixed principal direction): EN 1993-1-9 eq. (8.3) sums
+    # the two parts' usages; IIW's Gough-Pollard takes CV 1.0 (proportional)
+    # or 0.5 when told the loading is non-proportional (from memory).
+    from service.engine import weld_interaction as wi
+
+    lam = np.cumsum(np.random.default_rng(17).normal(0, 0.1, 4000))
+    sxx, syy, sxy = 10 * lam, 90 * lam, 45 * lam
+    body = {"samples": {"sx": sxx.tolist(), "sy": syy.tolist(), "txy": sxy.tolist()},
+            "unit": "MPa", "sample_rate_hz": 100, "settings": {"curve": "EN1993-1-9:71"},
+            "multiaxial": {"seam": {
+                "components": {"sxx": "sx", "syy": "sy", "sxy": "txy"},
+                "reductions": ["signed_von_mises"],
+                "shear_settings": {"curve": "EN1993-1-9:shear-100"},
+                "shear_interaction": {"rule": "en1993-1-9", "normal": "syy"}}}}
+    r = client.post("/v1/assessments", json=body)
+    assert r.status_code == 201, r.get_json()
+    block = r.get_json()["points"]["seam"]["multiaxial"]["shear_interaction"]
+    s = assess_history(syy, EN71, duration_s=40.0)
+    t = assess_history(sxy, catalogue_curve("EN1993-1-9:shear-100"), duration_s=40.0)
+    ref = wi.check("en1993-1-9", s, t)
+    assert block["value"] == pytest.approx(ref.value, rel=1e-12)
+    assert block["value"] == pytest.approx(s.damage + t.damage, rel=1e-12)
+    assert block["normal_component"] == "syy" and block["loading"] == "proportional"
+    assert block["passed"] == (ref.value <= 1.0)
+    assert block["life_hours"] == pytest.approx(40.0 / 3600.0 / ref.value, rel=1e-9)
+    body["multiaxial"]["seam"]["settings"] = {"curve": "IIW:FAT71"}
+    body["multiaxial"]["seam"]["shear_settings"] = {"curve": "IIW:shear-FAT100"}
+    body["multiaxial"]["seam"]["shear_interaction"] = {"rule": "iiw", "normal": "syy",
+                                                       "loading": "non_proportional"}
+    r = client.post("/v1/assessments", json=body)
+    block = r.get_json()["points"]["seam"]["multiaxial"]["shear_interaction"]
+    assert block["limit"] == 0.5 and block["loading"] == "non_proportional"
+    # Without a shear curve, or on a 3-D tensor, the declaration is refused.
+    del body["multiaxial"]["seam"]["shear_settings"]
+    assert_problem(client.post("/v1/assessments", json=body), 422, "invalid-parameter",
+                   field="shear_settings")
