@@ -28,7 +28,10 @@ from ._numba import kernel, njit
 
 #: Codes of the mean-stress methods inside the kernel.
 METHOD_CODES = {"none": 0, "goodman": 1, "gerber": 2, "soderberg": 3, "morrow": 4,
-                "smith_watson_topper": 5, "walker": 6, "asme_elliptic": 7}
+                "smith_watson_topper": 5, "walker": 6, "asme_elliptic": 7,
+                "en1993_reduced_compression": 8, "dnv_base_material": 8,
+                "dnv_stress_relieved": 8, "iiw_enhancement_case1": 9,
+                "iiw_enhancement_case2": 9}
 
 #: Cycles per chunk: the scratch row of equivalent ranges stays in L1.
 _CHUNK = 1024
@@ -76,7 +79,7 @@ def _equivalent_ranges(frm, to, lo, hi, scale, method, param, clip, ultimate,
     # Every branch is one straight loop so that each vectorises; the sum of
     # the ranges is inf exactly when some cycle is an overload.
     acc = 0.0
-    if method == 0 or method == 5 or method == 6:
+    if method == 0 or method == 5 or method == 6 or method == 8 or method == 9:
         gr[:n] = 1.0
     if method == 0:
         for j in range(n):
@@ -106,6 +109,38 @@ def _equivalent_ranges(frm, to, lo, hi, scale, method, param, clip, ultimate,
             if smax > 0.0:
                 v = two * math.pow(smax, 1.0 - param) * math.pow(a, param)
             v = inf if smax > ultimate else v
+            sr[j] = v
+            acc += v
+    elif method == 8:
+        # The codes' reduced compressive part: param is k (0.6 or 0.8).
+        for j in range(n):
+            f = frm[lo + j]
+            t = to[lo + j]
+            a = abs(f - t) * half
+            mean = (f + t) * half
+            top = mean + a
+            bottom = mean - a
+            tension = max(top, 0.0) - max(bottom, 0.0)
+            compression = min(top, 0.0) - min(bottom, 0.0)
+            v = range_factor * (tension + param * compression)
+            v = inf if top > ultimate else v
+            sr[j] = v
+            acc += v
+    elif method == 9:
+        # IIW f(R): param is the case (1 or 2); R < -1 when no tensile peak.
+        c0 = 1.2 if param == 1.0 else 0.9
+        f_max = 1.6 if param == 1.0 else 1.3
+        for j in range(n):
+            f = frm[lo + j]
+            t = to[lo + j]
+            a = abs(f - t) * half
+            mean = (f + t) * half
+            top = mean + a
+            bottom = mean - a
+            r = bottom / top if top > 0.0 else -2.0
+            fr = min(max(c0 - 0.4 * r, 1.0), f_max)
+            v = two * a / fr
+            v = inf if top > ultimate else v
             sr[j] = v
             acc += v
     elif method == 7:

@@ -19,7 +19,7 @@ from . import _damage_kernels as _dk
 from ._buffers import FLOATS, POOL
 from ._threads import beside, helper_allowed, take_back
 from .assessment import AssessmentOptions
-from .mean_stress import MEAN_STRESS_METHODS, clips_compressive_mean
+from .mean_stress import FIXED_PARAMETERS, MEAN_STRESS_METHODS, clips_compressive_mean
 from .rainflow import CycleTable
 from .sn_curve import SNCurve
 
@@ -35,6 +35,7 @@ def _model_args(curve: SNCurve, opts: AssessmentOptions) -> tuple:
              "yield_strength": opts.yield_strength,
              "fatigue_strength_coefficient": opts.fatigue_strength_coefficient,
              "walker_exponent": opts.walker_exponent}.get(needs) or 1.0
+    param = FIXED_PARAMETERS.get(method, param)
     clip = clips_compressive_mean(method, opts.compressive_mean)
     segments = _dk.curve_segments(curve)
     # The kernel's power sum (eq_sum) is not what the equivalent range is

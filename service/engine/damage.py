@@ -28,7 +28,7 @@ from ._threads import beside, helper_allowed, take_back
 from .assessment import AssessmentOptions, PointAssessment
 from .cautions import GENERAL, Caution, caution, unique
 from .errors import InvalidParameter
-from .mean_stress import (COMPRESSIVE_MEAN_POLICIES, MEAN_STRESS_METHODS,
+from .mean_stress import (CODE_RULES, COMPRESSIVE_MEAN_POLICIES, MEAN_STRESS_METHODS,
                           check_strengths)
 from .miner import equivalent_range, equivalent_range_from_damage, palmgren_miner
 from .plausibility import strength_note
@@ -258,7 +258,7 @@ def _method_checks(table, per_cycle, damage, curve, opts):
     if curve.family == "estimate" and curve.fatigue_limit_cycles is None:
         # sn_estimate builds a limit for steels only.
         notes.append(caution("estimate_not_steel"))
-    if method != "none" and curve.family in ("welded", "welded_shear"):
+    if method not in ("none",) + CODE_RULES and curve.family in ("welded", "welded_shear"):
         notes.append(caution("mean_stress_on_welded_curve", method=method))
     if (method == "none" and curve.stress_ratio == -1.0 and len(table)
             and 0 < damage < math.inf):

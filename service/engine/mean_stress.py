@@ -206,6 +206,89 @@ def walker(stress_amplitude, stress_mean, walker_exponent):
     return np.where(pos, out, 0.0)
 
 
+def reduced_compression(stress_amplitude, stress_mean, compression_factor):
+    r"""
+    Effective amplitude of a cycle whose compressive part counts only in part.
+
+    Returns :math:`(\Delta\sigma_t + k\,\Delta\sigma_c)/2` with
+    :math:`\Delta\sigma_t = \max(\sigma_{max},0) - \max(\sigma_{min},0)` the
+    part of the range in tension and :math:`\Delta\sigma_c =
+    \min(\sigma_{max},0) - \min(\sigma_{min},0)` the part in compression. [MPa]
+
+    Parameters
+    ----------
+    compression_factor : float
+        :math:`k`: 0.6 in EN 1993-1-9 for non-welded or stress-relieved
+        welded details [1]_; DNV-RP-C203 takes 0.6 for base material and 0.8
+        for welded connections that are post-weld heat treated [2]_
+        (:math:`f_m = (\sigma_t + k\sigma_c)/(\sigma_t + \sigma_c)` on the
+        range, the same rule).
+
+    References
+    ----------
+    .. [1] EN 1993-1-9:2005, sec. 7.2.1(2) and Fig. 7.1 note (reduced
+       effective stress range where part or all of the cycle is
+       compressive).
+    .. [2] DNV-RP-C203, *Fatigue design of offshore steel structures*, DNV GL,
+       2016, sec. 2.5 (mean stress effect); entered without the text at
+       hand, check against the edition in use.
+    """
+    a = np.asarray(stress_amplitude, dtype=np.float64)
+    m = np.asarray(stress_mean, dtype=np.float64)
+    hi, lo = m + a, m - a
+    tension = np.maximum(hi, 0.0) - np.maximum(lo, 0.0)
+    compression = np.minimum(hi, 0.0) - np.minimum(lo, 0.0)
+    return 0.5 * (tension + compression_factor * compression)
+
+
+#: IIW enhancement cases: (c0, f_max) of f(R) = min(max(c0 - 0.4 R, 1), f_max).
+IIW_ENHANCEMENT = {1: (1.2, 1.6), 2: (0.9, 1.3)}
+
+
+def iiw_enhancement_factor(stress_amplitude, stress_mean, case: int):
+    r"""
+    The IIW enhancement factor :math:`f(R)` of each cycle. [-]
+
+    :math:`R = \sigma_{min}/\sigma_{max}`. Case 1 (base material and wrought
+    products with negligible residual stress, stress-relieved welded
+    components): 1.6 for :math:`R < -1`, :math:`1.2 - 0.4R` for :math:`-1
+    \le R \le 0.5`, 1 above. Case 2 (small thin-walled simple elements with
+    short welds, thermally cut edges): 1.3, :math:`0.9 - 0.4R` for :math:`-1
+    \le R \le -0.25`, 1 above. Case 3 (complex welded components, high
+    residual stress) is no enhancement (``none``). A cycle with no tensile
+    peak (:math:`\sigma_{max} \le 0`) is taken as :math:`R < -1`, the most
+    compressive case (common practice).
+
+    References
+    ----------
+    .. [1] A. Hobbacher, *Recommendations for Fatigue Design of Welded Joints
+       and Components*, IIW document XIII-2460-13, 2nd ed. Springer, 2016,
+       sec. 3.5.2 (enhancement factor f(R) for low residual stress); entered
+       without the text at hand, check against the edition in use.
+    """
+    c0, f_max = IIW_ENHANCEMENT[int(case)]
+    a = np.asarray(stress_amplitude, dtype=np.float64)
+    m = np.asarray(stress_mean, dtype=np.float64)
+    hi, lo = m + a, m - a
+    with np.errstate(divide="ignore", invalid="ignore"):
+        r = np.where(hi > 0.0, lo / np.where(hi > 0.0, hi, 1.0), -2.0)
+    return np.minimum(np.maximum(c0 - 0.4 * r, 1.0), f_max)
+
+
+def iiw_enhancement(stress_amplitude, stress_mean, case):
+    r"""
+    Equivalent amplitude with the IIW enhancement: :math:`\sigma_a / f(R)`
+    (the FAT class raised by :math:`f(R)`, :func:`iiw_enhancement_factor`). [MPa]
+    """
+    a = np.asarray(stress_amplitude, dtype=np.float64)
+    return a / iiw_enhancement_factor(a, stress_mean, case)
+
+
+#: Code rules whose parameter is fixed by the code, not a material value.
+FIXED_PARAMETERS = {"en1993_reduced_compression": 0.6, "dnv_base_material": 0.6,
+                    "dnv_stress_relieved": 0.8, "iiw_enhancement_case1": 1.0,
+                    "iiw_enhancement_case2": 2.0}
+
 #: name -> (function, the strength parameter it needs or None)
 MEAN_STRESS_METHODS = {
     "none": (none, None),
@@ -216,7 +299,16 @@ MEAN_STRESS_METHODS = {
     "smith_watson_topper": (smith_watson_topper, None),
     "walker": (walker, "walker_exponent"),
     "asme_elliptic": (asme_elliptic, "yield_strength"),
+    "en1993_reduced_compression": (reduced_compression, None),
+    "dnv_base_material": (reduced_compression, None),
+    "dnv_stress_relieved": (reduced_compression, None),
+    "iiw_enhancement_case1": (iiw_enhancement, None),
+    "iiw_enhancement_case2": (iiw_enhancement, None),
 }
+
+#: The codes' own rules for welded and base-material details (their curves
+#: are used with them; the other methods scale a material curve).
+CODE_RULES = tuple(FIXED_PARAMETERS)
 
 # Methods that take a compressive mean through the policy (their formula
 # is written in the mean itself; SWT and Walker work on the peak).
@@ -318,7 +410,10 @@ def equivalent_amplitude(stress_amplitude, stress_mean, method: str = "goodman",
     used_mean = mean
     if clips_compressive_mean(method, compressive_mean):
         used_mean = np.maximum(mean, 0.0)
-    out = func(amp, used_mean, params[needs]) if needs else func(amp, used_mean)
+    if method in FIXED_PARAMETERS:
+        out = func(amp, used_mean, FIXED_PARAMETERS[method])
+    else:
+        out = func(amp, used_mean, params[needs]) if needs else func(amp, used_mean)
     overload = ~np.isfinite(out)
     if ultimate_strength is not None:
         overload |= (mean + amp) > ultimate_strength

@@ -133,3 +133,61 @@ def test_unknown_method_lists_valid_ones():
     with pytest.raises(UnknownMethod) as err:
         ms.equivalent_amplitude([1.0], [1.0], "goodmann")
     assert "goodman" in err.value.valid and "'goodmann'" in str(err.value)
+
+
+# ---------------------------------------------------------------- the codes' own rules
+
+
+@pytest.mark.parametrize("method, smin, smax, expected_range", [
+    # EN 1993-1-9:2005 sec. 7.2.1(2): in non-welded or stress-relieved
+    # details, the tensile part plus 60 % of the compressive part.
+    ("en1993_reduced_compression", -60.0, 40.0, 40.0 + 0.6 * 60.0),
+    ("en1993_reduced_compression", 20.0, 120.0, 100.0),          # all tension: as is
+    ("en1993_reduced_compression", -150.0, -50.0, 0.6 * 100.0),  # all compression
+    # DNV-RP-C203 (2016) sec. 2.5 (from memory): f_m = (st + 0.6 sc)/(st + sc)
+    # for base material, 0.8 for post-weld heat-treated welds.
+    ("dnv_base_material", -60.0, 40.0, 100.0 * (40.0 + 0.6 * 60.0) / 100.0),
+    ("dnv_stress_relieved", -60.0, 40.0, 100.0 * (40.0 + 0.8 * 60.0) / 100.0),
+])
+def test_reduced_compressive_part_by_hand(method, smin, smax, expected_range):
+    a, m = (smax - smin) / 2.0, (smax + smin) / 2.0
+    out, over = ms.equivalent_amplitude([a], [m], method)
+    assert 2.0 * out[0] == pytest.approx(expected_range, rel=1e-12) and not over[0]
+
+
+@pytest.mark.parametrize("case, r, f", [
+    # IIW recommendations (Hobbacher 2016) sec. 3.5.2, from memory: case 1
+    # 1.6 (R < -1), 1.2 - 0.4 R (-1..0.5), 1 above; case 2 1.3, 0.9 - 0.4 R
+    # (-1..-0.25), 1 above. The pieces meet at the breakpoints (checked).
+    (1, -3.0, 1.6), (1, -1.0, 1.6), (1, 0.0, 1.2), (1, 0.25, 1.1), (1, 0.5, 1.0), (1, 0.8, 1.0),
+    (2, -3.0, 1.3), (2, -1.0, 1.3), (2, -0.5, 1.1), (2, -0.25, 1.0), (2, 0.0, 1.0),
+])
+def test_iiw_enhancement_factor_by_hand(case, r, f):
+    smax = 100.0
+    smin = r * smax
+    a, m = (smax - smin) / 2.0, (smax + smin) / 2.0
+    assert ms.iiw_enhancement_factor([a], [m], case)[0] == pytest.approx(f, rel=1e-12)
+    out, _ = ms.equivalent_amplitude([a], [m], f"iiw_enhancement_case{case}")
+    assert out[0] == pytest.approx(a / f, rel=1e-12)
+
+
+def test_iiw_enhancement_of_a_cycle_entirely_in_compression_is_the_largest():
+    # No tensile peak: taken as R < -1 (common practice).
+    assert ms.iiw_enhancement_factor([40.0], [-60.0], 1)[0] == 1.6
+    assert ms.iiw_enhancement_factor([40.0], [-60.0], 2)[0] == 1.3
+
+
+def test_the_codes_rules_on_a_welded_curve_raise_no_mismatch_caution():
+    # They are written for the codes' curves (unlike Goodman and the like).
+    from service.engine.assessment import AssessmentOptions
+    from service.engine.damage import assess_history
+    from service.engine.sn_catalogue import catalogue_curve
+
+    x = np.tile([-80.0, 40.0], 200)
+    for method in ms.CODE_RULES:
+        r = assess_history(x, catalogue_curve("IIW:FAT90"),
+                           AssessmentOptions(mean_stress_method=method))
+        assert "mean_stress_on_welded_curve" not in {c.code for c in r.cautions}
+    r = assess_history(x, catalogue_curve("IIW:FAT90"),
+                       AssessmentOptions(mean_stress_method="goodman", ultimate_strength=500.0))
+    assert "mean_stress_on_welded_curve" in {c.code for c in r.cautions}
