@@ -22,7 +22,7 @@ from service.engine.damage import assess, assess_history
 from service.engine.errors import InvalidLoadHistory, InvalidParameter, unknown
 from service.engine.rainflow import RESIDUE_TREATMENTS, CycleTable, astm_e1049, resolve_gate
 from service.engine.settings import (USER_CURVE_PREFIX, point_from_dict, resolve,
-                                     screening_from_dict)
+                                     screening_from_dict, thickness_note)
 from service import declarations
 from service.store import parquet, sqlite
 
@@ -277,6 +277,10 @@ def assess_point(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
             "signal_findings", kinds=", ".join(kinds),
             share=(f" (up to {max(shares):.0%} of the damage in cycles they touch)"
                    if shares else "")))
+    note = thickness_note(settings_used, curve) if point.multiaxial is None or \
+        settings_used is point.settings else None
+    if note is not None:
+        extra_cautions.append(note)
     out = r.summary()
     if interaction_flag:
         out["flags"].append("shear_interaction_exceeded")

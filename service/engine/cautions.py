@@ -115,6 +115,10 @@ CAUTION_TEXTS = {
                                        "loading): EN 1993-1-9's sum of the two parts may be "
                                        "unconservative there; the IIW rule lowers its limit "
                                        "for such loading.",
+    # Thickness (engine/sn_catalogue.thickness_correction).
+    "thickness_correction": "Stress ranges multiplied by the thickness factor {factor:.4g} "
+                            "((t_eff/t_ref)^n with t = {t:g} mm, t_eff = {t_eff:.4g} mm, t_ref "
+                            "= {t_ref:g} mm, n = {n:g}; {source}).",
     # Inputs.
     "implausible_value": "The value {field} = {value:.6g} {unit} is unusual for {what}; {hint}.",
 }

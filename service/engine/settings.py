@@ -13,12 +13,13 @@ from .damage import AssessmentOptions
 from .errors import EngineError, InvalidParameter, unknown
 from .mean_stress import check_strengths
 from .screening import SCREENING_POLICIES, Thresholds
-from .sn_catalogue import catalogue_curve, thickness_factor
+from .sn_catalogue import catalogue_curve, thickness_correction
 from .sn_curve import SNCurve, basquin_amplitude, basquin_range, from_points
 from .sn_estimate import EstimatedCurve, shigley
 
 _OPTION_FIELDS = {f.name for f in fields(AssessmentOptions)}
-_CURVE_KEYS = {"curve", "estimate", "curve_points", "basquin", "below_limit", "thickness_mm"}
+_CURVE_KEYS = {"curve", "estimate", "curve_points", "basquin", "below_limit", "thickness_mm",
+               "thickness_exponent", "joint", "attachment_length_mm"}
 #: Settings of the signal screening (see ``screening_from_dict``).
 _SCREENING_KEYS = {"screening", "screening_thresholds"}
 
@@ -72,7 +73,9 @@ def _mapping(value, field: str) -> dict:
 def options_from_dict(settings: dict, curve: SNCurve | None = None) -> AssessmentOptions:
     """:class:`AssessmentOptions` from the option fields of ``settings``.
 
-    ``thickness_mm`` with a DNV-RP-C203 curve sets ``thickness_factor``.
+    ``thickness_mm`` (with ``thickness_exponent``, ``joint`` and
+    ``attachment_length_mm`` as the code needs them) sets
+    ``thickness_factor`` by :func:`~.sn_catalogue.thickness_correction`.
     Unknown keys are refused, naming them, so a misspelt option never
     passes silently.
     """
@@ -81,11 +84,22 @@ def options_from_dict(settings: dict, curve: SNCurve | None = None) -> Assessmen
         raise InvalidParameter(f"unknown setting(s): {', '.join(sorted(unknown_keys))}",
                                field=sorted(unknown_keys)[0])
     kwargs = {k: v for k, v in settings.items() if k in _OPTION_FIELDS}
+    extra = [k for k in ("thickness_exponent", "joint", "attachment_length_mm")
+             if k in settings]
+    if extra and "thickness_mm" not in settings:
+        raise InvalidParameter(f"{extra[0]} belongs to a thickness correction: give "
+                               f"thickness_mm too", field=extra[0])
     if "thickness_mm" in settings:
-        if curve is None or not curve.name.startswith("DNV-RP-C203:"):
-            raise InvalidParameter("thickness_mm applies to DNV-RP-C203 curves only",
+        if curve is None:
+            raise InvalidParameter("thickness_mm applies to the codes' curves",
                                    field="thickness_mm")
-        kwargs["thickness_factor"] = thickness_factor(curve.name, float(settings["thickness_mm"]))
+        if "thickness_factor" in settings:
+            raise InvalidParameter("give thickness_mm or thickness_factor, not both",
+                                   field="thickness_factor")
+        kwargs["thickness_factor"] = thickness_correction(
+            curve.name, settings["thickness_mm"], exponent=settings.get("thickness_exponent"),
+            joint=settings.get("joint"),
+            attachment_length_mm=settings.get("attachment_length_mm")).factor
     try:
         return AssessmentOptions(**kwargs)
     except TypeError as exc:
@@ -204,3 +218,19 @@ def resolve(settings: dict, lookup) -> dict:
         if "below_limit" in doc and "below_limit" not in out:
             out["below_limit"] = doc["below_limit"]
     return out
+
+
+def thickness_note(settings: dict, curve: SNCurve):
+    """The caution that says how a point's thickness correction was made
+    (None without ``thickness_mm``)."""
+    if "thickness_mm" not in settings:
+        return None
+    from .cautions import caution
+
+    c = thickness_correction(curve.name, settings["thickness_mm"],
+                             exponent=settings.get("thickness_exponent"),
+                             joint=settings.get("joint"),
+                             attachment_length_mm=settings.get("attachment_length_mm"))
+    return caution("thickness_correction", factor=c.factor, t=c.thickness_mm,
+                   t_eff=c.effective_thickness_mm, t_ref=c.reference_thickness_mm,
+                   n=c.exponent, source=c.source)

@@ -8,6 +8,7 @@ mean-stress correction: these curves already contain high residual stress.
 
 from __future__ import annotations
 
+from dataclasses import dataclass
 from functools import lru_cache
 
 import numpy as np
@@ -206,6 +207,129 @@ def catalogue_curve(designation: str) -> SNCurve:
         raise unknown("curve", designation, designations())
     builder, arg = entry
     return builder(*arg) if isinstance(arg, tuple) else builder(arg)
+
+
+#: IIW thickness-correction exponents n by joint (IIW recommendations 2016,
+#: sec. 3.5.3; entered without the text at hand, check against the edition
+#: in use).
+IIW_THICKNESS_EXPONENTS = {
+    "cruciform_as_welded": 0.3,        # cruciform, transverse T, transverse attachments,
+                                       # ends of longitudinal stiffeners, as welded
+    "cruciform_toe_ground": 0.2,       # the same, toe ground
+    "transverse_butt_as_welded": 0.2,
+    "butt_ground_flush": 0.1,          # also base material, longitudinal welds and attachments
+}
+#: Reference thickness of the IIW and EN 1993-1-9 size effect. [mm]
+REFERENCE_THICKNESS_MM = 25.0
+
+
+@dataclass(frozen=True)
+class ThicknessCorrection:
+    """A thickness (size) correction: the stress ranges are multiplied by
+    ``factor`` = (t_eff / t_ref)^n for t_eff > t_ref (1 otherwise), which
+    lowers the curve by the same factor. [-], mm"""
+
+    factor: float
+    thickness_mm: float
+    effective_thickness_mm: float
+    reference_thickness_mm: float
+    exponent: float
+    source: str
+
+    def as_dict(self) -> dict:
+        return {"factor": self.factor, "thickness_mm": self.thickness_mm,
+                "effective_thickness_mm": self.effective_thickness_mm,
+                "reference_thickness_mm": self.reference_thickness_mm,
+                "exponent": self.exponent, "source": self.source}
+
+
+def _positive(value, field: str) -> float:
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or not (
+            np.isfinite(value) and value > 0):
+        raise InvalidParameter(f"{field} {value!r} must be a positive number", field=field,
+                               value=value)
+    return float(value)
+
+
+def thickness_correction(designation: str, thickness_mm: float, *, exponent=None,
+                         joint: str | None = None,
+                         attachment_length_mm=None) -> ThicknessCorrection:
+    r"""
+    The codes' thickness (size) effect for a catalogue curve.
+
+    ``DNV-RP-C203:*``
+        :math:`(t_{eff}/25)^k` with the curve's own :math:`k` (Table 2-1),
+        :math:`t_{eff} = \min(14 + 0.66 L_t, t)` for a transverse attachment
+        of length :math:`L_t` (``attachment_length_mm``), else :math:`t`
+        [1]_ sec. 2.4.3.
+    ``IIW:*``
+        :math:`(t_{eff}/25)^n` with :math:`n` by ``joint``
+        (:data:`IIW_THICKNESS_EXPONENTS`) or ``exponent``; :math:`t_{eff} =
+        0.5 L` when the toe-to-toe distance :math:`L`
+        (``attachment_length_mm``) is at most :math:`2t`, else :math:`t`
+        [2]_ sec. 3.5.3.
+    ``EN1993-1-9:*``
+        :math:`k_s = (25/t)^n` on the detail category, for the details
+        whose row in Tables 8.1-8.10 gives one; ``exponent`` is that
+        :math:`n` (0.2 for the transverse butt welds that have it) [3]_.
+
+    References
+    ----------
+    .. [1] DNV-RP-C203, 2016, sec. 2.4.3, eq. (2.4.3) (effective thickness
+       entered without the text at hand, check against the edition in use).
+    .. [2] IIW recommendations (Hobbacher 2016), sec. 3.5.3 (check against
+       the edition in use).
+    .. [3] EN 1993-1-9:2005, sec. 7.2.2 and Tables 8.1-8.10 (size effect
+       k_s).
+    """
+    t = _positive(thickness_mm, "thickness_mm")
+    code = designation.split(":", 1)[0]
+    if code == "DNV-RP-C203":
+        if joint is not None or exponent is not None:
+            raise InvalidParameter("a DNV-RP-C203 curve has its own thickness exponent k",
+                                   field="joint" if joint is not None else "thickness_exponent")
+        n = DNV_AIR[designation.split(":", 1)[1].split("-")[0]][4]
+        t_eff = t
+        if attachment_length_mm is not None:
+            t_eff = min(14.0 + 0.66 * _positive(attachment_length_mm, "attachment_length_mm"), t)
+        ref, source = DNV_REFERENCE_THICKNESS_MM, "DNV-RP-C203 (2016) sec. 2.4.3"
+    elif code == "IIW":
+        if joint is not None:
+            if joint not in IIW_THICKNESS_EXPONENTS:
+                raise unknown("joint", joint, IIW_THICKNESS_EXPONENTS)
+            if exponent is not None:
+                raise InvalidParameter("give joint or thickness_exponent, not both",
+                                       field="thickness_exponent")
+            n = IIW_THICKNESS_EXPONENTS[joint]
+        elif exponent is not None:
+            n = _positive(exponent, "thickness_exponent")
+        else:
+            raise InvalidParameter("an IIW thickness correction needs the joint ("
+                                   + ", ".join(IIW_THICKNESS_EXPONENTS)
+                                   + ") or thickness_exponent", field="joint")
+        t_eff = t
+        if attachment_length_mm is not None:
+            length = _positive(attachment_length_mm, "attachment_length_mm")
+            t_eff = 0.5 * length if length <= 2.0 * t else t
+        ref = REFERENCE_THICKNESS_MM
+        source = f"IIW recommendations (2016) sec. 3.5.3, {CHECK_EDITION}"
+    elif code == "EN1993-1-9":
+        if joint is not None or attachment_length_mm is not None:
+            raise InvalidParameter("EN 1993-1-9's size factor takes thickness_exponent (the "
+                                   "detail's k_s) only", field="joint")
+        if exponent is None:
+            raise InvalidParameter("an EN 1993-1-9 size factor needs thickness_exponent: the n "
+                                   "of k_s = (25/t)^n in the detail's row of Tables 8.1-8.10",
+                                   field="thickness_exponent")
+        n = _positive(exponent, "thickness_exponent")
+        t_eff, ref = t, REFERENCE_THICKNESS_MM
+        source = "EN 1993-1-9:2005 sec. 7.2.2, Tables 8.1-8.10 (k_s)"
+    else:
+        raise InvalidParameter(f"a thickness correction applies to the codes' curves "
+                               f"(EN 1993-1-9, IIW, DNV-RP-C203), not {designation!r}",
+                               field="thickness_mm", value=thickness_mm)
+    factor = 1.0 if t_eff <= ref else float((t_eff / ref) ** n)
+    return ThicknessCorrection(factor, t, t_eff, ref, float(n), source)
 
 
 def thickness_factor(designation: str, thickness_mm: float,

@@ -270,3 +270,24 @@ def test_unit_slips_are_refused_with_the_value_meant(client):
         "curve": "EN1993-1-9:71", "yield_strength": 51000}})
     assert_problem(r, 422, "invalid-parameter", field="yield_strength", probable_unit="psi")
     assert r.get_json()["probable_value"] == pytest.approx(51000 * 6.894757e-3)
+
+
+def test_a_thickness_correction_is_applied_and_said(client):
+    # IIW recommendations 2016 sec. 3.5.3 (from memory): a 40 mm cruciform
+    # joint as welded multiplies the ranges by (40/25)^0.3; the result says
+    # how (t, t_eff, n and the source) in a caution.
+    x = np.tile([-60.0, 80.0, -30.0, 110.0], 300)
+    r = client.post("/v1/assessments", json={
+        "samples": {"g": x.tolist()}, "unit": "MPa",
+        "settings": {"curve": "IIW:FAT90", "thickness_mm": 40,
+                     "joint": "cruciform_as_welded"}})
+    assert r.status_code == 201, r.get_json()
+    p = r.get_json()["points"]["g"]
+    assert p["options"]["thickness_factor"] == pytest.approx((40 / 25) ** 0.3, rel=1e-12)
+    note = next(c for c in p["cautions"] if c["code"] == "thickness_correction")
+    assert "t = 40 mm" in note["text"] and "n = 0.3" in note["text"]
+    from service.engine.damage import assess_history
+    from service.engine.sn_catalogue import catalogue_curve
+
+    ref = assess_history(x, catalogue_curve("IIW:FAT90").scaled((25 / 40) ** 0.3))
+    assert p["damage"] == pytest.approx(ref.damage, rel=1e-12)

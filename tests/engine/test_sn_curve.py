@@ -74,7 +74,71 @@ def test_dnv_thickness_correction():
     assert thickness_factor("DNV-RP-C203:D", 50.0) == pytest.approx(2 ** 0.2)
     assert thickness_factor("DNV-RP-C203:D", 20.0) == 1.0
     with pytest.raises(InvalidParameter):
-        thickness_factor("EN1993-1-9:71", 50.0)
+        thickness_factor("EN1993-1-9:71", 50.0)   # the old DNV-only helper
+
+
+@pytest.mark.parametrize("designation, kwargs, t, expected", [
+    # IIW recommendations (Hobbacher 2016) sec. 3.5.3, from memory:
+    # f(t) = (25/t_eff)^n on the resistance; n = 0.3 cruciform as welded,
+    # 0.2 toe ground or transverse butt as welded, 0.1 ground flush; t_eff =
+    # 0.5 L when L <= 2t (L toe to toe), else t.
+    ("IIW:FAT90", {"joint": "cruciform_as_welded"}, 40.0, (40 / 25) ** 0.3),
+    ("IIW:FAT90", {"joint": "cruciform_toe_ground"}, 40.0, (40 / 25) ** 0.2),
+    ("IIW:FAT90", {"joint": "butt_ground_flush"}, 60.0, (60 / 25) ** 0.1),
+    ("IIW:FAT90", {"joint": "cruciform_as_welded", "attachment_length_mm": 70.0}, 40.0,
+     (35 / 25) ** 0.3),                          # L = 70 <= 80: t_eff = 35
+    ("IIW:FAT90", {"joint": "cruciform_as_welded", "attachment_length_mm": 40.0}, 40.0,
+     1.0),                                       # t_eff = 20 <= 25: no correction
+    ("IIW:FAT90", {"joint": "cruciform_as_welded", "attachment_length_mm": 100.0}, 40.0,
+     (40 / 25) ** 0.3),                          # L > 2t: t_eff = t
+    ("IIW:FAT90", {"thickness_exponent": 0.25}, 20.0, 1.0),    # thinner than 25 mm
+    # EN 1993-1-9:2005 Table 8.3: k_s = (25/t)^0.2 on the category (t > 25).
+    ("EN1993-1-9:90", {"thickness_exponent": 0.2}, 40.0, (40 / 25) ** 0.2),
+    # DNV-RP-C203 (2016) sec. 2.4.3, from memory: t_eff = min(14 + 0.66 L_t, t).
+    ("DNV-RP-C203:D", {"attachment_length_mm": 20.0}, 50.0, ((14 + 13.2) / 25) ** 0.2),
+    ("DNV-RP-C203:D", {}, 50.0, 2 ** 0.2),
+])
+def test_thickness_corrections_by_hand(designation, kwargs, t, expected):
+    from service.engine.sn_catalogue import thickness_correction
+
+    got = thickness_correction(designation, t,
+                               exponent=kwargs.get("thickness_exponent"),
+                               joint=kwargs.get("joint"),
+                               attachment_length_mm=kwargs.get("attachment_length_mm"))
+    assert got.factor == pytest.approx(expected, rel=1e-12)
+
+
+def test_a_thick_plate_is_the_curve_lowered_by_the_factor():
+    # A worked case: a spectrum on IIW FAT 90 at t = 50 mm, cruciform as
+    # welded, equals the same spectrum on FAT 90 (25/50)^0.3 = 73.1 (the
+    # curve lowered by the factor; ranges here stay above every knee).
+    from service.engine.damage import assess_history
+    from service.engine.settings import point_from_dict
+
+    x = np.tile([-70.0, 90.0, -40.0, 120.0], 500)
+    curve, opts, _ = point_from_dict({"curve": "IIW:FAT90", "thickness_mm": 50.0,
+                                      "joint": "cruciform_as_welded"})
+    lowered = catalogue_curve("IIW:FAT90").scaled((25 / 50) ** 0.3)
+    a = assess_history(x, curve, opts)
+    b = assess_history(x, lowered)
+    assert a.damage == pytest.approx(b.damage, rel=1e-12)
+    assert 90 * (25 / 50) ** 0.3 == pytest.approx(73.1, abs=0.05)
+
+
+@pytest.mark.parametrize("settings, field", [
+    ({"curve": "IIW:FAT90", "thickness_mm": 40.0}, "joint"),
+    ({"curve": "EN1993-1-9:90", "thickness_mm": 40.0}, "thickness_exponent"),
+    ({"curve": "IIW:FAT90", "thickness_mm": 40.0, "joint": "lap"}, "joint"),
+    ({"curve": "IIW:FAT90", "joint": "cruciform_as_welded"}, "joint"),
+    ({"curve": "DNV-RP-C203:D", "thickness_mm": 40.0, "joint": "cruciform_as_welded"}, "joint"),
+])
+def test_thickness_settings_that_do_not_fit_are_refused(settings, field):
+    from service.engine.errors import EngineError
+    from service.engine.settings import point_from_dict
+
+    with pytest.raises(EngineError) as err:
+        point_from_dict(settings)
+    assert err.value.field == field
 
 
 def test_iiw_fat_class():
