@@ -123,6 +123,8 @@ def cases(a: dict) -> list[tuple]:
          f"/v1/assessments/{aid}/points/g1/cycles", {}, 404),
         ("GET", "/v1/assessments/<assessment_id>/points/<point>/range-mean",
          f"/v1/assessments/{aid}/points/g1/range-mean", {}, 404),
+        ("GET", "/v1/assessments/<assessment_id>/points/<point>/samples",
+         f"/v1/assessments/{aid}/points/g1/samples", {}, 404),
         ("GET", "/v1/assessments/<assessment_id>/report",
          f"/v1/assessments/{aid}/report", {}, 404),
         ("GET", "/v1/assessments/<assessment_id>/plots/<plot>",
