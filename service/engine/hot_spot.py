@@ -86,7 +86,8 @@ NEAREST_TO_TOE = {"linear": 0.3, "quadratic": 0.3, "fixed_distance": 3.0}
 
 #: Curves made for the structural hot-spot stress.
 HOT_SPOT_CURVES = ("IIW:FAT90", "IIW:FAT100", "IIW:FAT90-CA", "IIW:FAT100-CA",
-                   "EN1993-1-9:90", "EN1993-1-9:100", "DNV-RP-C203:D")
+                   "EN1993-1-9:90", "EN1993-1-9:100", "DNV-RP-C203:D", "DNV-RP-C203:D-CP",
+                   "DNV-RP-C203:D-FC")
 
 
 @dataclass(frozen=True)

@@ -19,7 +19,7 @@ from .sn_estimate import EstimatedCurve, shigley
 
 _OPTION_FIELDS = {f.name for f in fields(AssessmentOptions)}
 _CURVE_KEYS = {"curve", "estimate", "curve_points", "basquin", "below_limit", "thickness_mm",
-               "thickness_exponent", "joint", "attachment_length_mm"}
+               "thickness_exponent", "joint", "attachment_length_mm", "design_fatigue_factor"}
 #: Settings of the signal screening (see ``screening_from_dict``).
 _SCREENING_KEYS = {"screening", "screening_thresholds"}
 
@@ -100,6 +100,15 @@ def options_from_dict(settings: dict, curve: SNCurve | None = None) -> Assessmen
             curve.name, settings["thickness_mm"], exponent=settings.get("thickness_exponent"),
             joint=settings.get("joint"),
             attachment_length_mm=settings.get("attachment_length_mm")).factor
+    if "design_fatigue_factor" in settings:
+        dff = settings["design_fatigue_factor"]
+        if "allowable_damage" in settings:
+            raise InvalidParameter("give allowable_damage or design_fatigue_factor (which sets "
+                                   "it to 1/DFF), not both", field="design_fatigue_factor")
+        if isinstance(dff, bool) or not isinstance(dff, (int, float)) or not 1 <= dff <= 100:
+            raise InvalidParameter(f"design_fatigue_factor {dff!r} must be a number from 1 to "
+                                   f"100", field="design_fatigue_factor", value=dff)
+        kwargs["allowable_damage"] = 1.0 / float(dff)
     try:
         return AssessmentOptions(**kwargs)
     except TypeError as exc:

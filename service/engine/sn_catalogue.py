@@ -169,6 +169,57 @@ def dnv_air(designation: str) -> SNCurve:
                           f"{DNV_REFERENCE_THICKNESS_MM:g} mm",))
 
 
+#: DNV-RP-C203 seawater curves with cathodic protection: the knee at 1e6
+#: cycles, below it the air line lowered by a factor 2.5 on life (log a1
+#: less 0.4 for m1 = 3, 0.2 for m1 = 4), beyond it the air curve's m = 5 line.
+DNV_CP_KNEE_CYCLES = 1e6
+#: Free corrosion: one slope m = 3, lives a third of the air curve's first
+#: segment (log a less log 3), no fatigue limit; for the m1 = 3 classes.
+DNV_FREE_CORROSION_SHIFT = float(np.log10(3.0))
+
+_DNV_CP = ("DNV-RP-C203, Fatigue design of offshore steel structures, DNV GL, 2016, sec. "
+           "2.4.5, Table 2-2 (S-N curves in seawater with cathodic protection); log a1 "
+           "derived from Table 2-1 by the table's own shift (0.4 for m1 = 3, 0.2 for m1 = 4) "
+           f"and the knee at 1e6, {CHECK_EDITION}")
+_DNV_FC = ("DNV-RP-C203, Fatigue design of offshore steel structures, DNV GL, 2016, sec. "
+           "2.4.8, Table 2-4 (S-N curves for free corrosion); log a from Table 2-1's log a1 "
+           f"less log 3, {CHECK_EDITION}")
+
+
+def dnv_seawater_cp(designation: str) -> SNCurve:
+    r"""
+    DNV-RP-C203 curve in seawater with cathodic protection.
+
+    :math:`\log N = \log ar a_1 - 0.4 - m_1 \log\Delta\sigma` (0.2 for
+    :math:`m_1 = 4`) up to :math:`10^6` cycles, then the air curve's
+    :math:`m = 5` segment; the two meet at the knee to the table's rounding
+    (tested). Thickness exponent as in air.
+    """
+    m1, loga1, m2, loga2, k = DNV_AIR[designation]
+    loga1 -= 0.2 if m1 == 4.0 else 0.4
+    s_knee = 10 ** ((loga1 - np.log10(DNV_CP_KNEE_CYCLES)) / m1)
+    return SNCurve((m1, m2), (DNV_CP_KNEE_CYCLES,), float(s_knee), DNV_CP_KNEE_CYCLES,
+                   name=f"DNV-RP-C203:{designation}-CP", source=_DNV_CP,
+                   fatigue_limit_cycles=DNV_CP_KNEE_CYCLES,
+                   segment_log_a=(round(loga1, 3), loga2), family="welded",
+                   notes=(f"seawater with cathodic protection; thickness exponent k = {k:g} "
+                          f"above {DNV_REFERENCE_THICKNESS_MM:g} mm",))
+
+
+def dnv_free_corrosion(designation: str) -> SNCurve:
+    r"""
+    DNV-RP-C203 curve for free corrosion: :math:`\log N = \log ar a_1 -
+    \log 3 - 3 \log\Delta\sigma` throughout (no fatigue limit).
+    """
+    m1, loga1, _, _, k = DNV_AIR[designation]
+    loga = round(loga1 - DNV_FREE_CORROSION_SHIFT, 3)
+    ref = 10 ** ((loga - np.log10(2e6)) / m1)
+    return SNCurve((m1,), (), float(ref), 2e6, name=f"DNV-RP-C203:{designation}-FC",
+                   source=_DNV_FC, segment_log_a=(loga,), family="welded",
+                   notes=("free corrosion: no fatigue limit; thickness exponent "
+                          f"k = {k:g} above {DNV_REFERENCE_THICKNESS_MM:g} mm",))
+
+
 @lru_cache(maxsize=1)
 def _catalogue() -> dict:
     entries = {}
@@ -186,6 +237,11 @@ def _catalogue() -> dict:
         entries[f"IIW:shear-FAT{c}-CA"] = (iiw_shear, (c, True))
     for d in DNV_AIR:
         entries[f"DNV-RP-C203:{d}"] = (dnv_air, d)
+    for d in DNV_AIR:
+        entries[f"DNV-RP-C203:{d}-CP"] = (dnv_seawater_cp, d)
+    for d, row in DNV_AIR.items():
+        if row[0] == 3.0:
+            entries[f"DNV-RP-C203:{d}-FC"] = (dnv_free_corrosion, d)
     return entries
 
 

@@ -68,6 +68,41 @@ def test_dnv_table_is_self_consistent():
         assert a2 == pytest.approx(7 + m2 * math.log10(s7), abs=3e-3), name
 
 
+def test_dnv_seawater_and_free_corrosion_curves_against_the_air_table():
+    # DNV-RP-C203 (2016) Tables 2-2 and 2-4 (from memory): with cathodic
+    # protection the first segment is the air line lowered by 0.4 in log a
+    # (0.2 for m1 = 4), the knee at 1e6, then the air curve's m = 5 line;
+    # the two must meet at 1e6 to the tables' rounding (checks every row).
+    # Free corrosion: m = 3 throughout, a third of the air life.
+    from service.engine.sn_catalogue import DNV_AIR
+
+    for name, (m1, a1, m2, a2, _) in DNV_AIR.items():
+        cp = catalogue_curve(f"DNV-RP-C203:{name}-CP")
+        s6 = 10 ** ((cp.segment_log_a[0] - 6) / m1)
+        assert a2 == pytest.approx(6 + m2 * math.log10(s6), abs=3e-3), name
+        assert cp.cycles_to_failure([s6 * 0.5])[0] == pytest.approx(10 ** a2 * (s6 * 0.5) ** -m2,
+                                                                  rel=1e-9)
+        if m1 == 3.0:
+            fc = catalogue_curve(f"DNV-RP-C203:{name}-FC")
+            s = 120.0
+            air = 10 ** a1 * s ** -m1
+            assert fc.cycles_to_failure([s])[0] == pytest.approx(air / 3, rel=3e-3)
+            assert fc.cycles_to_failure([5.0])[0] == pytest.approx(10 ** a1 * 5.0 ** -3 / 3,
+                                                                 rel=3e-3)   # no limit
+
+
+def test_design_fatigue_factor_sets_the_allowable_damage():
+    # DNV-RP-C203 sec. 1.3 (from memory): the damage is checked against 1/DFF.
+    from service.engine.errors import EngineError
+    from service.engine.settings import point_from_dict
+
+    _, opts, _ = point_from_dict({"curve": "DNV-RP-C203:D-CP", "design_fatigue_factor": 3})
+    assert opts.allowable_damage == pytest.approx(1 / 3)
+    with pytest.raises(EngineError):
+        point_from_dict({"curve": "DNV-RP-C203:D", "design_fatigue_factor": 2,
+                         "allowable_damage": 0.5})
+
+
 def test_dnv_thickness_correction():
     # Source: DNV-RP-C203 (2016), eq. (2.4.3): factor (t/25)^k above 25 mm;
     # curve D has k = 0.20 (from memory).
