@@ -1,0 +1,543 @@
+r"""Strain-life: the local strain approach for notches and low-cycle loading.
+
+Where a notch yields locally, elastic stresses misjudge life; the local
+strain approach follows the stress and strain at the notch root instead.
+
+1. **Input.** A nominal stress history with the notch's :math:`K_t` (or
+   :math:`K_f`), or an elastic local stress (finite elements,
+   superposition) with :math:`K_t = 1`: the *pseudo-elastic* local stress
+   :math:`e(t) = K_t S(t)`. Or a gauge at the notch root: the local strain
+   itself (``input = "local_strain"``).
+2. **Cyclic stress-strain curve** (Ramberg-Osgood [1]_):
+   :math:`\varepsilon = \sigma/E + (\sigma/K')^{1/n'}`; the hysteresis
+   branches by Masing's rule, the curve doubled:
+   :math:`\Delta\varepsilon = \Delta\sigma/E + 2(\Delta\sigma/2K')^{1/n'}`.
+3. **Elastic to local.** Neuber's rule [2]_, :math:`\sigma\varepsilon =
+   e^2/E` (:math:`\Delta\sigma\Delta\varepsilon = \Delta e^2/E` on a
+   branch), or Glinka's equal strain-energy density [3]_,
+   :math:`\sigma^2/2E + \sigma/(1+n')\,(\sigma/K')^{1/n'} = e^2/2E` (on a
+   branch :math:`\Delta\sigma^2/2E + 2\Delta\sigma/(1+n')\,
+   (\Delta\sigma/2K')^{1/n'} = \Delta e^2/2E`). Each branch relation is the
+   first-loading one doubled, so one solver serves both.
+4. **Memory.** Turning points are followed in order with the material's
+   memory (a closed loop is forgotten and the branch it interrupted goes
+   on; beyond the largest excursion so far the first-loading curve
+   continues), so every loop has its own tips, mean stress and strain
+   amplitude; the cycles assessed are those of ASTM E1049-85 rainflow
+   counting of the same history (the residue as half cycles, as in the
+   stress-life path).
+5. **Life** by Coffin-Manson-Basquin [4]_, :math:`\varepsilon_a =
+   \sigma_f'/E\,(2N)^b + \varepsilon_f'(2N)^c`, with Morrow's mean stress
+   (:math:`\sigma_f' - \sigma_m` in the elastic term) [5]_ or Smith, Watson
+   and Topper's :math:`\sigma_{max}\varepsilon_a = \sigma_f'^2/E\,(2N)^{2b}
+   + \sigma_f'\varepsilon_f'(2N)^{b+c}` [6]_; Miner's rule sums the loops.
+
+References
+----------
+.. [1] W. Ramberg and W. R. Osgood, "Description of stress-strain curves by
+   three parameters," NACA TN 902, 1943.
+.. [2] H. Neuber, "Theory of stress concentration for shear-strained
+   prismatical bodies with arbitrary nonlinear stress-strain law," *J.
+   Appl. Mech.*, vol. 28, pp. 544-550, 1961.
+.. [3] K. Molski and G. Glinka, "A method of elastic-plastic stress and
+   strain calculation at a notch root," *Mater. Sci. Eng.*, vol. 50,
+   pp. 93-100, 1981.
+.. [4] S. S. Manson, "Behavior of materials under conditions of thermal
+   stress," NACA TN 2933, 1953; L. F. Coffin, *Trans. ASME*, vol. 76,
+   pp. 931-950, 1954.
+.. [5] J. Morrow, in *Fatigue Design Handbook*, AE-4, SAE, 1968, sec. 3.2.
+.. [6] K. N. Smith, P. Watson and T. H. Topper, *J. Mater.*, vol. 5, no. 4,
+   pp. 767-778, 1970.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import asdict, dataclass
+
+import numpy as np
+
+from ._numba import kernel
+from .errors import InvalidParameter, unknown
+from .rainflow import astm_e1049, turning_points
+
+#: How the history relates to the notch root.
+INPUTS = ("nominal", "local_elastic", "local_strain")
+#: Elastic-to-local rules (for the stress inputs).
+NOTCH_RULES = ("neuber", "glinka")
+#: Mean-stress forms of the strain-life curve.
+STRAIN_MEAN_STRESS = ("none", "morrow", "smith_watson_topper")
+#: Codes inside the kernels.
+_RULE_CODES = {"neuber": 0, "glinka": 1, "strain": 2}
+
+
+@dataclass(frozen=True)
+class StrainLifeMaterial:
+    """Cyclic and strain-life constants of a material.
+
+    ``youngs_modulus`` E [MPa]; ``cyclic_strength_coefficient`` K' [MPa] and
+    ``cyclic_hardening_exponent`` n' [-] of the Ramberg-Osgood cyclic curve;
+    ``fatigue_strength_coefficient`` sigma_f' [MPa], ``fatigue_strength_exponent``
+    b [-], ``fatigue_ductility_coefficient`` eps_f' [-] and
+    ``fatigue_ductility_exponent`` c [-] of Coffin-Manson-Basquin. ``source``
+    says where they come from (test data, or an estimate by name).
+    """
+
+    youngs_modulus: float
+    cyclic_strength_coefficient: float
+    cyclic_hardening_exponent: float
+    fatigue_strength_coefficient: float
+    fatigue_strength_exponent: float
+    fatigue_ductility_coefficient: float
+    fatigue_ductility_exponent: float
+    source: str = "user data"
+
+    def __post_init__(self):
+        for name in ("youngs_modulus", "cyclic_strength_coefficient",
+                     "cyclic_hardening_exponent", "fatigue_strength_coefficient",
+                     "fatigue_ductility_coefficient"):
+            v = getattr(self, name)
+            if isinstance(v, bool) or not isinstance(v, (int, float)) or not (
+                    math.isfinite(v) and v > 0):
+                raise InvalidParameter(f"{name} {v!r} must be a positive number", field=name,
+                                       value=v)
+        for name in ("fatigue_strength_exponent", "fatigue_ductility_exponent"):
+            v = getattr(self, name)
+            if isinstance(v, bool) or not isinstance(v, (int, float)) or not (-1.5 < v < 0):
+                raise InvalidParameter(f"{name} {v!r} must be negative (typically -0.05 to "
+                                       f"-0.15 for b, -0.4 to -0.8 for c)", field=name, value=v)
+        if not self.cyclic_hardening_exponent < 1:
+            raise InvalidParameter("cyclic_hardening_exponent must be below 1",
+                                   field="cyclic_hardening_exponent")
+
+    def as_dict(self) -> dict:
+        return asdict(self)
+
+    def transition_reversals(self) -> float:
+        r""":math:`2N_t`, where the elastic and plastic strain amplitudes are
+        equal: :math:`2N_t = (\varepsilon_f' E/\sigma_f')^{1/(b-c)}`. [reversals]"""
+        return (self.fatigue_ductility_coefficient * self.youngs_modulus
+                / self.fatigue_strength_coefficient) ** (
+            1.0 / (self.fatigue_strength_exponent - self.fatigue_ductility_exponent))
+
+
+# ---------------------------------------------------------------------------- estimates
+
+#: Estimates from tensile data, each named after its paper.
+ESTIMATES = ("uniform_material_law", "medians", "hardness")
+
+
+def estimate(method: str, *, ultimate_strength: float | None = None,
+             youngs_modulus: float = 206_000.0, material_class: str = "steel",
+             brinell_hardness: float | None = None) -> StrainLifeMaterial:
+    r"""
+    Strain-life constants estimated from tensile data or hardness.
+
+    ``uniform_material_law`` (Bäumel and Seeger [1]_): steels
+    :math:`\sigma_f' = 1.5S_u`, :math:`b = -0.087`, :math:`\varepsilon_f' =
+    0.59\psi` (:math:`\psi = 1` for :math:`S_u/E \le 0.003`, else
+    :math:`1.375 - 125 S_u/E`), :math:`c = -0.58`, :math:`K' = 1.65S_u`,
+    :math:`n' = 0.15`; aluminium and titanium alloys :math:`1.67S_u`,
+    :math:`-0.095`, 0.35, :math:`-0.69`, :math:`1.61S_u`, 0.11.
+    ``medians`` (Meggiolaro and Castro [2]_, steels): :math:`1.5S_u`,
+    :math:`-0.09`, 0.45, :math:`-0.59`, with the cyclic curve from
+    compatibility (:math:`n' = b/c`, :math:`K' = \sigma_f'/\varepsilon_f'^{n'}`).
+    ``hardness`` (Roessle and Fatemi [3]_, steels): :math:`\sigma_f' =
+    4.25HB + 225`, :math:`\varepsilon_f' = (0.32HB^2 - 487HB + 191000)/E`,
+    :math:`b = -0.09`, :math:`c = -0.56`, the cyclic curve from
+    compatibility. Every estimate scatters by a factor of several in life
+    (the papers' own comparisons); the result says it is one.
+
+    References
+    ----------
+    .. [1] A. Bäumel and T. Seeger, *Materials Data for Cyclic Loading*,
+       Supplement 1. Amsterdam: Elsevier, 1990.
+    .. [2] M. A. Meggiolaro and J. T. P. Castro, "Statistical evaluation of
+       strain-life fatigue crack initiation predictions," *Int. J. Fatigue*,
+       vol. 26, pp. 463-476, 2004.
+    .. [3] M. L. Roessle and A. Fatemi, "Strain-controlled fatigue
+       properties of steels and some simple approximations," *Int. J.
+       Fatigue*, vol. 22, pp. 495-511, 2000.
+
+    (Constants recalled without the papers at hand; check against them.)
+    """
+    if method not in ESTIMATES:
+        raise unknown("strain_life estimate", method, ESTIMATES)
+    e = float(youngs_modulus)
+    if method == "hardness":
+        if brinell_hardness is None or not 80 <= brinell_hardness <= 700:
+            raise InvalidParameter("the hardness estimate needs brinell_hardness (80-700 HB)",
+                                   field="brinell_hardness", value=brinell_hardness)
+        hb = float(brinell_hardness)
+        sf, b = 4.25 * hb + 225.0, -0.09
+        ef, c = (0.32 * hb * hb - 487.0 * hb + 191_000.0) / e, -0.56
+        n = b / c
+        return StrainLifeMaterial(e, sf / ef ** n, n, sf, b, ef, c,
+                                  "estimate: hardness method (Roessle and Fatemi 2000)")
+    if ultimate_strength is None or not 100 <= ultimate_strength <= 3000:
+        raise InvalidParameter(f"the {method} estimate needs ultimate_strength (100-3000 MPa)",
+                               field="ultimate_strength", value=ultimate_strength)
+    su = float(ultimate_strength)
+    if method == "uniform_material_law":
+        if material_class == "steel":
+            psi = 1.0 if su / e <= 0.003 else 1.375 - 125.0 * su / e
+            return StrainLifeMaterial(e, 1.65 * su, 0.15, 1.5 * su, -0.087, 0.59 * psi, -0.58,
+                                      "estimate: uniform material law, steels (Bäumel and "
+                                      "Seeger 1990)")
+        if material_class == "aluminium":
+            return StrainLifeMaterial(e, 1.61 * su, 0.11, 1.67 * su, -0.095, 0.35, -0.69,
+                                      "estimate: uniform material law, aluminium and titanium "
+                                      "(Bäumel and Seeger 1990)")
+        raise unknown("material_class", material_class, ("steel", "aluminium"))
+    if material_class != "steel":
+        raise InvalidParameter("the medians estimate is for steels", field="material_class")
+    sf, b, ef, c = 1.5 * su, -0.09, 0.45, -0.59
+    n = b / c
+    return StrainLifeMaterial(e, sf / ef ** n, n, sf, b, ef, c,
+                              "estimate: medians method, steels (Meggiolaro and Castro 2004)")
+
+
+# ---------------------------------------------------------------------------- the curves
+
+
+def cyclic_strain(stress, material: StrainLifeMaterial) -> np.ndarray:
+    r""":math:`\varepsilon = \sigma/E + \mathrm{sign}(\sigma)(|\sigma|/K')^{1/n'}`. [-]"""
+    s = np.asarray(stress, dtype=np.float64)
+    m = material
+    return s / m.youngs_modulus + np.sign(s) * (np.abs(s) / m.cyclic_strength_coefficient) ** (
+        1.0 / m.cyclic_hardening_exponent)
+
+
+def masing_strain_range(stress_range, material: StrainLifeMaterial) -> np.ndarray:
+    r""":math:`\Delta\varepsilon = \Delta\sigma/E + 2(\Delta\sigma/2K')^{1/n'}`. [-]"""
+    return 2.0 * cyclic_strain(0.5 * np.asarray(stress_range, dtype=np.float64), material)
+
+
+@kernel
+def _first_loading(x, rule, e_mod, k, inv_n, n):
+    """Local stress [MPa] >= 0 on the first-loading curve for a pseudo
+    stress (Neuber, Glinka) or a strain (rule 2) ``x`` >= 0: the root of a
+    monotonic equation in [0, hi], by Newton steps kept inside a bisection
+    bracket (converges to round-off)."""
+    if x <= 0.0:
+        return 0.0
+    if rule == 0:
+        target = x * x / e_mod
+        hi = x
+    elif rule == 1:
+        target = 0.5 * x * x / e_mod
+        hi = x
+    else:
+        target = x
+        hi = e_mod * x
+    lo = 0.0
+    s = hi
+    for _ in range(200):
+        plast = (s / k) ** inv_n
+        eps = s / e_mod + plast
+        deps = 1.0 / e_mod + inv_n * plast / s if s > 0.0 else 1.0 / e_mod
+        if rule == 0:
+            f = s * eps - target
+            df = eps + s * deps
+        elif rule == 1:
+            f = 0.5 * s * s / e_mod + s * plast / (1.0 + n) - target
+            df = s / e_mod + (plast + inv_n * plast) / (1.0 + n)
+        else:
+            f = eps - target
+            df = deps
+        if f > 0.0:
+            hi = s
+        else:
+            lo = s
+        step = s - f / df
+        s_new = step if lo < step < hi else 0.5 * (lo + hi)
+        if abs(s_new - s) <= 1e-14 * max(abs(s), 1e-300) or hi - lo <= 1e-15 * hi:
+            s = s_new
+            break
+        s = s_new
+    return s
+
+
+@kernel
+def _local_states(x, rule, e_mod, k, inv_n, n, sig, eps):
+    """Local stress and strain at each turning point ``x`` (pseudo stress or
+    strain), following the material's memory from an unloaded start."""
+    m = x.shape[0]
+    stack = np.empty(m, np.int64)
+    sp = 0
+    for j in range(m):
+        v = x[j]
+        while True:
+            if sp >= 2:
+                r = stack[sp - 1]
+                q = stack[sp - 2]
+                if abs(v - x[r]) >= abs(x[q] - x[r]):
+                    sp -= 2  # the loop q-r closes: the interrupted branch goes on
+                    continue
+            elif sp == 1:
+                r = stack[0]
+                # The first-loading curve is met again at the mirror of r.
+                if (v - x[r]) * x[r] < 0.0 and abs(v - x[r]) >= 2.0 * abs(x[r]):
+                    sp = 0
+                    continue
+            break
+        if sp == 0:
+            s = _first_loading(abs(v), rule, e_mod, k, inv_n, n)
+            sgn = 1.0 if v >= 0.0 else -1.0
+            sig[j] = sgn * s
+            eps[j] = sgn * (s / e_mod + (s / k) ** inv_n)
+        else:
+            r = stack[sp - 1]
+            dv = abs(v - x[r])
+            half = _first_loading(0.5 * dv, rule, e_mod, k, inv_n, n)
+            sgn = 1.0 if v >= x[r] else -1.0
+            sig[j] = sig[r] + sgn * 2.0 * half
+            eps[j] = eps[r] + sgn * 2.0 * (half / e_mod + (half / k) ** inv_n)
+        stack[sp] = j
+        sp += 1
+
+
+def local_states(x, material: StrainLifeMaterial, rule: str):
+    """``(stress, strain)`` at the notch root for each turning point ``x``
+    (pseudo-elastic stress [MPa] for ``neuber``/``glinka``, strain [-] for
+    ``strain``), with Masing branches and memory. [MPa], [-]"""
+    x = np.ascontiguousarray(x, dtype=np.float64)
+    sig = np.empty_like(x)
+    eps = np.empty_like(x)
+    m = material
+    _local_states(x, _RULE_CODES[rule], float(m.youngs_modulus),
+                  float(m.cyclic_strength_coefficient), 1.0 / m.cyclic_hardening_exponent,
+                  float(m.cyclic_hardening_exponent), sig, eps)
+    return sig, eps
+
+
+def reversals_to_failure(strain_amplitude, material: StrainLifeMaterial, *,
+                         mean_stress=None, max_stress=None,
+                         mean_stress_method: str = "morrow") -> np.ndarray:
+    r"""
+    :math:`2N_f` of each loop from Coffin-Manson-Basquin. [reversals]
+
+    ``morrow``: :math:`\varepsilon_a = (\sigma_f' - \sigma_m)/E\,(2N)^b +
+    \varepsilon_f'(2N)^c` (0 where :math:`\sigma_m \ge \sigma_f'`);
+    ``smith_watson_topper``: :math:`\sigma_{max}\varepsilon_a =
+    \sigma_f'^2/E\,(2N)^{2b} + \sigma_f'\varepsilon_f'(2N)^{b+c}` (inf, no
+    damage, where :math:`\sigma_{max} \le 0`); ``none``: no mean term.
+    Solved for :math:`\log 2N` by Newton's method (the right side falls
+    monotonically with life).
+    """
+    m = material
+    ea = np.asarray(strain_amplitude, dtype=np.float64)
+    E, sf, b, ef, c = (m.youngs_modulus, m.fatigue_strength_coefficient,
+                       m.fatigue_strength_exponent, m.fatigue_ductility_coefficient,
+                       m.fatigue_ductility_exponent)
+    if mean_stress_method not in STRAIN_MEAN_STRESS:
+        raise unknown("mean_stress_method", mean_stress_method, STRAIN_MEAN_STRESS)
+    if mean_stress_method == "smith_watson_topper":
+        smax = np.asarray(max_stress, dtype=np.float64)
+        target = np.where(smax > 0.0, smax * ea, 0.0)
+        a1, e1, a2, e2 = sf * sf / E, 2 * b, sf * ef, b + c
+        a1 = np.full_like(ea, a1)
+    else:
+        sm = (np.zeros_like(ea) if mean_stress_method == "none"
+              else np.asarray(mean_stress, dtype=np.float64))
+        a1 = (sf - sm) / E
+        target, e1, a2, e2 = ea, b, ef, c
+    out = np.full(ea.shape, np.inf)
+    live = (target > 0.0) & (a1 > 0.0)
+    dead = (a1 <= 0.0) & (target > 0.0)
+    out[dead] = 0.0  # the mean (or peak) reaches sigma_f': no fatigue life left
+    if not live.any():
+        return out
+    t, a = target[live], a1[live]
+    # Start from the larger of the two terms' own solutions, then Newton in
+    # y = ln 2N; f(y) = a e^{e1 y} + a2 e^{e2 y} - t is convex and falling.
+    y = np.minimum(np.log(t / a) / e1, np.log(t / a2) / e2)
+    for _ in range(100):
+        p1, p2 = a * np.exp(e1 * y), a2 * np.exp(e2 * y)
+        f = p1 + p2 - t
+        step = f / (e1 * p1 + e2 * p2)
+        y = y - step
+        if np.all(np.abs(step) < 1e-13 * np.maximum(1.0, np.abs(y))):
+            break
+    out[live] = np.exp(y)
+    return out
+
+
+# ---------------------------------------------------------------------------- assessment
+
+
+@dataclass(frozen=True)
+class StrainLifeAssessment:
+    """The local strain assessment of a point.
+
+    ``damage`` [-] of one pass (residue as half cycles); ``life_repeats``
+    [-] until ``allowable_damage``; ``life_hours`` [h]; ``reserve_factor``
+    [-] on the input history; ``loops``: per counted cycle the local
+    ``strain_amplitude`` [-], ``stress_mean`` and ``stress_max`` [MPa],
+    ``reversals_to_failure`` [-] and ``damage`` [-].
+    """
+
+    damage: float
+    life_repeats: float
+    life_hours: float | None
+    life_cycles: float
+    reserve_factor: float | None
+    cycles_counted: float
+    max_strain_amplitude: float
+    max_stress: float
+    flags: tuple
+    loops: dict
+    material: dict
+    method: dict
+
+    def top_loops(self, k: int = 10) -> list[dict]:
+        order = np.argsort(-self.loops["damage"], kind="stable")[:k]
+        return [{name: float(col[i]) if name != "start_index" and name != "end_index"
+                 else int(col[i]) for name, col in self.loops.items()} for i in order
+                if self.loops["damage"][i] > 0]
+
+
+def _pass(samples, material, input_kind, rule, kt, mean_stress_method, residue, gate):
+    """Per-loop local values and damage of a history (one evaluation)."""
+    x = np.asarray(samples, dtype=np.float64)
+    if input_kind == "nominal":
+        x = kt * x
+    table = astm_e1049(x, gate=gate, residue=residue)
+    idx = turning_points(x, gate=gate)[0]
+    code = "strain" if input_kind == "local_strain" else rule
+    sig, eps = local_states(x[idx], material, code)
+    pos_a = np.searchsorted(idx, table.start_index)
+    pos_b = np.searchsorted(idx, table.end_index)
+    sa, sb, ea, eb = sig[pos_a], sig[pos_b], eps[pos_a], eps[pos_b]
+    strain_amp = 0.5 * np.abs(ea - eb)
+    mean = 0.5 * (sa + sb)
+    smax = np.maximum(sa, sb)
+    nf = 0.5 * reversals_to_failure(strain_amp, material, mean_stress=mean, max_stress=smax,
+                                    mean_stress_method=mean_stress_method)
+    with np.errstate(divide="ignore"):
+        dmg = np.where(np.isinf(nf), 0.0, table.count / nf)
+    return table, strain_amp, mean, smax, nf, dmg
+
+
+def _reserve(samples, material, input_kind, rule, kt, mean_stress_method, residue, gate,
+             damage, allowable_damage) -> float | None:
+    """The factor on the input that brings the damage to ``allowable_damage``:
+    the root of log(D(s)/D_allow) in log s by the Illinois (bracketed
+    secant) method, each trial a full local analysis (plasticity makes D(s)
+    no power law). None if no factor in [1e-4, 1e4] does it."""
+    x = np.asarray(samples, dtype=np.float64)
+
+    def f(log_s):
+        scale = math.exp(log_s)
+        d = float(np.sum(_pass(x * scale, material, input_kind, rule, kt, mean_stress_method,
+                               residue, gate * scale)[5]))
+        if d == math.inf or np.isnan(d):
+            return math.inf
+        return math.log(d / allowable_damage) if d > 0 else -math.inf
+
+    a, fa = 0.0, math.log(damage / allowable_damage)
+    if fa == 0.0:
+        return 1.0
+    # A first guess as if damage went with the load to the power 5, then
+    # widen until the root is bracketed.
+    step = max(min(-fa / 5.0, 3.0), -3.0)
+    b, fb = a + step, f(a + step)
+    while (fa < 0) == (fb < 0):
+        if abs(b) > 9.2:
+            return None
+        a, fa = b, fb
+        b = b + step
+        fb = f(b)
+    side = 0
+    for _ in range(60):
+        if not (math.isfinite(fa) and math.isfinite(fb)):
+            c = 0.5 * (a + b)   # an overload or no damage at one end: bisect
+        else:
+            c = b - fb * (b - a) / (fb - fa)
+        fc = f(c)
+        if abs(b - a) < 1e-9 or fc == 0.0:
+            return math.exp(c)
+        if (fc < 0) == (fb < 0):
+            b, fb = c, fc
+            if side == -1:
+                fa *= 0.5
+            side = -1
+        else:
+            a, fa = b, fb
+            b, fb = c, fc
+            side = 1
+        if abs(b - a) < 1e-9:
+            break
+    return math.exp(b)
+
+
+def assess_strain_life(samples, material: StrainLifeMaterial, *, input_kind: str = "nominal",
+                       rule: str = "neuber", kt: float = 1.0,
+                       mean_stress_method: str = "morrow", allowable_damage: float = 1.0,
+                       residue: str = "half_cycles", gate: float = 0.0,
+                       duration_s: float | None = None,
+                       reserve_factor: bool = True) -> StrainLifeAssessment:
+    """
+    Assess a history by the local strain approach (module notes).
+
+    Parameters
+    ----------
+    samples : array-like
+        Nominal stress [MPa] (``nominal``, with ``kt``), elastic local
+        stress [MPa] (``local_elastic``) or local strain [-]
+        (``local_strain``), in time order.
+    material : StrainLifeMaterial
+    rule : str
+        ``neuber`` or ``glinka`` for the stress inputs.
+    kt : float
+        Elastic stress concentration (or fatigue notch) factor for
+        ``nominal``. [-]
+    mean_stress_method : str
+        ``morrow``, ``smith_watson_topper`` or ``none``.
+    gate : float
+        Hysteresis gate on the input (pseudo stress [MPa] or strain [-]).
+    reserve_factor : bool
+        Search the factor on the input that brings the damage to
+        ``allowable_damage`` (each trial a full local analysis).
+    """
+    if input_kind not in INPUTS:
+        raise unknown("input", input_kind, INPUTS)
+    if rule not in NOTCH_RULES:
+        raise unknown("notch_rule", rule, NOTCH_RULES)
+    if mean_stress_method not in STRAIN_MEAN_STRESS:
+        raise unknown("mean_stress_method", mean_stress_method, STRAIN_MEAN_STRESS)
+    if isinstance(kt, bool) or not isinstance(kt, (int, float)) or not 1.0 <= kt <= 20.0:
+        raise InvalidParameter(f"kt {kt!r} must be in [1, 20]", field="kt", value=kt)
+    if input_kind != "nominal" and kt != 1.0:
+        raise InvalidParameter("kt applies to a nominal stress input", field="kt", value=kt)
+    table, strain_amp, mean, smax, nf, dmg = _pass(samples, material, input_kind, rule, kt,
+                                                   mean_stress_method, residue, gate)
+    damage = float(np.sum(dmg))
+    total = float(np.sum(table.count))
+    life = math.inf if damage == 0.0 else allowable_damage / damage
+    flags = []
+    if len(table) == 0:
+        flags.append("no_cycles")
+    if np.any(nf == 0.0):
+        flags.append("static_overload")
+        damage, life = math.inf, 0.0
+    elif damage >= allowable_damage:
+        flags.append("allowable_reached")
+    reserve = None
+    if reserve_factor and 0.0 < damage < math.inf:
+        reserve = _reserve(samples, material, input_kind, rule, kt, mean_stress_method, residue,
+                           gate, damage, allowable_damage)
+    loops = {"start_index": table.start_index, "end_index": table.end_index,
+             "count": table.count, "strain_amplitude": strain_amp, "stress_mean": mean,
+             "stress_max": smax, "reversals_to_failure": 2.0 * nf, "damage": dmg}
+    return StrainLifeAssessment(
+        damage=damage, life_repeats=life,
+        life_hours=None if duration_s is None else life * duration_s / 3600.0,
+        life_cycles=math.inf if math.isinf(life) else life * total,
+        reserve_factor=reserve, cycles_counted=total,
+        max_strain_amplitude=float(strain_amp.max()) if len(table) else 0.0,
+        max_stress=float(smax.max()) if len(table) else 0.0, flags=tuple(flags),
+        loops=loops, material=material.as_dict(),
+        method={"input": input_kind, "notch_rule": None if input_kind == "local_strain"
+                else rule, "kt": kt, "mean_stress_method": mean_stress_method,
+                "allowable_damage": allowable_damage, "residue": residue, "gate": gate})

@@ -1,0 +1,168 @@
+"""The local strain approach (issue 20) against its defining equations.
+
+Sources: Ramberg-Osgood eps = s/E + (s/K')^(1/n'); Masing branches
+d_eps = d_s/E + 2 (d_s/2K')^(1/n'); Neuber s eps = e^2/E; Glinka (Molski and
+Glinka 1981) s^2/2E + s/(1+n') (s/K')^(1/n') = e^2/2E; Coffin-Manson-Basquin
+eps_a = sf/E (2N)^b + ef (2N)^c, Morrow's sf - sm, SWT smax eps_a = sf^2/E
+(2N)^2b + sf ef (2N)^(b+c); the transition life 2N_t = (ef E / sf)^(1/(b-c))
+(N. E. Dowling, Mechanical Behavior of Materials, 4th ed., ch. 14, from
+memory). Each case is solved by hand here (inverted: a local state chosen,
+the elastic value it answers computed from the closed form, and the solver
+asked to find the state again).
+"""
+
+import math
+
+import numpy as np
+import pytest
+
+from service.engine import strain_life as sl
+from service.engine.assessment import AssessmentOptions
+from service.engine.damage import assess_history
+from service.engine.sn_curve import basquin_amplitude
+
+# A steel of the kind the uniform material law describes (invented values).
+STEEL = sl.StrainLifeMaterial(206_000.0, 1150.0, 0.16, 1050.0, -0.085, 0.45, -0.6)
+
+
+def ro(s, m=STEEL):
+    return s / m.youngs_modulus + (s / m.cyclic_strength_coefficient) ** (
+        1 / m.cyclic_hardening_exponent)
+
+
+@pytest.mark.parametrize("stress", [50.0, 250.0, 420.0, 600.0])
+def test_neuber_and_glinka_first_loading_by_hand(stress):
+    m, E, n = STEEL, STEEL.youngs_modulus, STEEL.cyclic_hardening_exponent
+    eps = ro(stress)
+    e_neuber = math.sqrt(E * stress * eps)                      # s eps = e^2 / E
+    w = stress ** 2 / (2 * E) + stress / (1 + n) * (stress / m.cyclic_strength_coefficient) ** (
+        1 / n)
+    e_glinka = math.sqrt(2 * E * w)                             # W = e^2 / 2E
+    for rule, e in (("neuber", e_neuber), ("glinka", e_glinka)):
+        sig, got_eps = sl.local_states(np.array([e]), m, rule)
+        assert sig[0] == pytest.approx(stress, rel=1e-10)
+        assert got_eps[0] == pytest.approx(eps, rel=1e-10)
+    # Glinka's energy is below Neuber's rectangle: less local strain for one e.
+    assert e_glinka > e_neuber
+    # A gauge at the notch root: the strain itself.
+    sig, _ = sl.local_states(np.array([eps]), m, "strain")
+    assert sig[0] == pytest.approx(stress, rel=1e-10)
+
+
+def test_masing_branches_and_memory_by_hand():
+    # Pseudo stress 0 -> 500 -> -100 -> 250 -> -500: the small loop -100/250
+    # closes and is forgotten; the branch from +500 goes on to -500 as if
+    # never interrupted, reaching the mirror of the first-loading point.
+    x = np.array([500.0, -100.0, 250.0, -500.0, 700.0])
+    sig, eps = sl.local_states(x, STEEL, "neuber")
+    s1 = sl.local_states(np.array([500.0]), STEEL, "neuber")[0][0]
+    assert sig[0] == pytest.approx(s1, rel=1e-12)
+    # Branch 500 -> -100: Masing, range 600 is twice the first loading at 300.
+    half = sl.local_states(np.array([300.0]), STEEL, "neuber")[0][0]
+    assert sig[1] == pytest.approx(s1 - 2 * half, rel=1e-12)
+    assert eps[0] - eps[1] == pytest.approx(2 * ro(half), rel=1e-12)
+    # The closed loop's tips satisfy the Masing relation of its own range.
+    loop = sl.local_states(np.array([175.0]), STEEL, "neuber")[0][0]
+    assert sig[2] - sig[1] == pytest.approx(2 * loop, rel=1e-12)
+    # Memory: at -500 the stress is the mirror of the first loading.
+    assert sig[3] == pytest.approx(-s1, rel=1e-12)
+    assert eps[3] == pytest.approx(-eps[0], rel=1e-12)
+    # Beyond +500 again: back on the first-loading curve at 700.
+    s7 = sl.local_states(np.array([700.0]), STEEL, "neuber")[0][0]
+    assert sig[4] == pytest.approx(s7, rel=1e-12)
+
+
+def test_coffin_manson_basquin_morrow_and_swt_by_hand():
+    m = STEEL
+    E, sf, b, ef, c = 206_000.0, 1050.0, -0.085, 0.45, -0.6
+    for two_n in (1e2, 1e4, 1e6, 1e8):
+        ea = sf / E * two_n ** b + ef * two_n ** c
+        assert sl.reversals_to_failure([ea], m, mean_stress_method="none")[0] == \
+            pytest.approx(two_n, rel=1e-9)
+        sm = 120.0
+        ea_m = (sf - sm) / E * two_n ** b + ef * two_n ** c
+        assert sl.reversals_to_failure([ea_m], m, mean_stress=[sm])[0] == \
+            pytest.approx(two_n, rel=1e-9)
+        smax = 400.0
+        product = sf * sf / E * two_n ** (2 * b) + sf * ef * two_n ** (b + c)
+        assert sl.reversals_to_failure([product / smax], m, max_stress=[smax],
+                                       mean_stress_method="smith_watson_topper")[0] == \
+            pytest.approx(two_n, rel=1e-9)
+    # SWT: no damage without a tensile peak; Morrow: none left past sf.
+    assert math.isinf(sl.reversals_to_failure([0.002], m, max_stress=[-10.0],
+                                              mean_stress_method="smith_watson_topper")[0])
+    assert sl.reversals_to_failure([0.002], m, mean_stress=[1100.0])[0] == 0.0
+
+
+def test_the_transition_life():
+    # At 2N_t the elastic and plastic amplitudes are equal.
+    m = STEEL
+    nt = m.transition_reversals()
+    assert nt == pytest.approx((0.45 * 206_000 / 1050) ** (1 / (-0.085 + 0.6)), rel=1e-12)
+    elastic = 1050 / 206_000 * nt ** -0.085
+    plastic = 0.45 * nt ** -0.6
+    assert elastic == pytest.approx(plastic, rel=1e-12)
+    assert sl.reversals_to_failure([elastic + plastic], m, mean_stress_method="none")[0] == \
+        pytest.approx(nt, rel=1e-9)
+
+
+@pytest.mark.parametrize("ms_strain, ms_stress", [("morrow", "morrow"),
+                                                  ("smith_watson_topper", "smith_watson_topper"),
+                                                  ("none", "none")])
+def test_without_plasticity_strain_life_is_stress_life_on_the_basquin_curve(ms_strain,
+                                                                           ms_stress):
+    # Consistency: a very large K' (no cyclic plasticity) and a negligible
+    # ductility term leave sigma = e and eps_a = sigma_a / E; strain-life
+    # then equals stress-life on sigma_a = sf (2N)^b with the matching
+    # mean-stress form (Morrow's elastic term is stress-life Morrow with sf).
+    elastic = sl.StrainLifeMaterial(206_000.0, 1e12, 0.15, 1050.0, -0.085, 1e-15, -0.6)
+    rng = np.random.default_rng(5)
+    x = 60.0 + np.cumsum(rng.normal(0, 25.0, 5000))
+    x = 40.0 + 300.0 * (x - x.mean()) / np.abs(x - x.mean()).max()
+    got = sl.assess_strain_life(x, elastic, input_kind="local_elastic",
+                                mean_stress_method=ms_strain, reserve_factor=False)
+    curve = basquin_amplitude(1050.0, -0.085)
+    ref = assess_history(x, curve, AssessmentOptions(
+        mean_stress_method=ms_stress, fatigue_strength_coefficient=1050.0,
+        compressive_mean="formula", reserve_factor=False))
+    assert got.damage == pytest.approx(ref.damage, rel=1e-9)
+    assert got.cycles_counted == ref.cycles_counted
+
+
+def test_a_notch_that_yields_lives_shorter_than_elastic_stress_life_says():
+    # Kt = 3 on a nominal 200 MPa amplitude: the pseudo stress 600 MPa is
+    # beyond the cyclic yield, the local strain larger than e/E, so the life
+    # is shorter than the elastic (Basquin) reading of the same pseudo stress.
+    x = np.tile([-200.0, 200.0], 50)
+    notch = sl.assess_strain_life(x, STEEL, kt=3.0, mean_stress_method="none",
+                                  reserve_factor=False)
+    elastic = sl.StrainLifeMaterial(206_000.0, 1e12, 0.16, 1050.0, -0.085, 0.45, -0.6)
+    no_yield = sl.assess_strain_life(x, elastic, kt=3.0, mean_stress_method="none",
+                                     reserve_factor=False)
+    assert notch.damage > no_yield.damage
+    assert notch.max_strain_amplitude > 600.0 / 206_000.0
+
+
+def test_the_reserve_factor_brings_the_damage_to_the_allowable_sum():
+    x = np.tile([-150.0, 220.0, -60.0, 260.0], 40)
+    r = sl.assess_strain_life(x, STEEL, kt=2.2)
+    again = sl.assess_strain_life(x * r.reserve_factor, STEEL, kt=2.2, reserve_factor=False)
+    assert again.damage == pytest.approx(1.0, rel=1e-6)
+
+
+def test_estimates_are_labelled_and_follow_their_papers():
+    # Baumel-Seeger uniform material law for steels (from memory): sf = 1.5
+    # Su, b = -0.087, ef = 0.59 psi, c = -0.58, K' = 1.65 Su, n' = 0.15.
+    m = sl.estimate("uniform_material_law", ultimate_strength=600.0)
+    assert (m.fatigue_strength_coefficient, m.fatigue_strength_exponent) == (900.0, -0.087)
+    assert m.fatigue_ductility_coefficient == pytest.approx(0.59)   # Su/E < 0.003: psi 1
+    assert m.cyclic_strength_coefficient == pytest.approx(990.0)
+    assert "estimate" in m.source
+    hi = sl.estimate("uniform_material_law", ultimate_strength=1200.0)
+    assert hi.fatigue_ductility_coefficient == pytest.approx(
+        0.59 * (1.375 - 125 * 1200 / 206_000))
+    # Medians (Meggiolaro and Castro 2004): the cyclic curve from compatibility.
+    med = sl.estimate("medians", ultimate_strength=600.0)
+    assert med.cyclic_hardening_exponent == pytest.approx(-0.09 / -0.59)
+    hb = sl.estimate("hardness", brinell_hardness=250.0)
+    assert hb.fatigue_strength_coefficient == pytest.approx(4.25 * 250 + 225)
