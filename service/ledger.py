@@ -59,6 +59,10 @@ def check_settings(settings, lookup) -> tuple[dict, dict]:
     """
     if not isinstance(settings, dict):
         raise InvalidParameter("settings must be an object", field="settings")
+    if settings.get("method", "stress_life") != "stress_life":
+        raise InvalidParameter("ledger points are assessed by stress-life; strain-life points "
+                               "are offered in assessments (the loops' memory across blocks "
+                               "is not kept yet)", field="method")
     toe = None
     if "hot_spot" in settings:
         # A hot-spot point: its gauges arrive as channels of the blocks.

@@ -16,13 +16,14 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from service.engine import (cautions, histograms, hot_spot, multiaxial, screening,
-                            weld_interaction)
+                            strain_life, weld_interaction)
 from service.engine._threads import in_one_thread
 from service.engine.damage import assess, assess_history
 from service.engine.errors import InvalidLoadHistory, InvalidParameter, unknown
 from service.engine.rainflow import RESIDUE_TREATMENTS, CycleTable, astm_e1049, resolve_gate
-from service.engine.settings import (USER_CURVE_PREFIX, point_from_dict, resolve,
-                                     screening_from_dict, thickness_note)
+from service.engine.settings import (STRAIN_LIFE_SHARED, USER_CURVE_PREFIX, is_strain_life,
+                                     point_from_dict, resolve, screening_from_dict,
+                                     strain_life_from_dict, thickness_note)
 from service import declarations
 from service.store import parquet, sqlite
 
@@ -58,10 +59,17 @@ def _merged_settings(own, defaults: dict, lookup, what: str, field: str) -> dict
     resolved, validated now (nothing is counted if any point is wrong)."""
     if not isinstance(own, dict):
         raise InvalidParameter(f"settings of {what} must be an object", field=field)
+    if own.get("method") == "strain_life":
+        # The request's stress-life defaults (a curve, a mean-stress method)
+        # do not apply to a strain-life point; what both take does.
+        defaults = {k: v for k, v in defaults.items() if k in STRAIN_LIFE_SHARED}
     merged = {**defaults, **own}
     if lookup is not None:
         merged = resolve(merged, lookup)
-    point_from_dict(merged)
+    if is_strain_life(merged):
+        strain_life_from_dict(merged)
+    else:
+        point_from_dict(merged)
     return merged
 
 
@@ -120,6 +128,10 @@ def plan(request: dict, channels: dict[str, np.ndarray], lookup=None,
         own = declared[name].get("settings") or {}
         merged = _merged_settings(own, defaults, lookup, f"multiaxial point {name!r}",
                                   "multiaxial")
+        if is_strain_life(merged):
+            raise InvalidParameter("strain-life is offered for single channels (a nominal "
+                                   "stress with kt, an elastic local stress or a notch-root "
+                                   "strain)", field="method")
         shear = declared[name].get("shear_settings")
         needs = [w for w, on in (("critical_plane_shear", "critical_plane_shear"
                                   in spec["reductions"]),
@@ -145,6 +157,9 @@ def plan(request: dict, channels: dict[str, np.ndarray], lookup=None,
     for name, spec in hs_specs.items():
         own = toes[name].get("settings") or {}
         merged = _merged_settings(own, defaults, lookup, f"hot-spot point {name!r}", "hot_spot")
+        if is_strain_life(merged):
+            raise InvalidParameter("a hot-spot point is assessed on hot-spot S-N curves, not "
+                                   "by strain-life", field="method")
         out.append(PlannedPoint(name, {g: channels[g] for g in spec["gauges"]}, merged,
                                 hot_spot=spec))
     return out
@@ -204,6 +219,8 @@ def assess_point(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
     """
     if point.hot_spot is not None:
         return _assess_hot_spot(point, gate, gate_fraction, residue, duration_s)
+    if is_strain_life(point.settings):
+        return _assess_strain_life(point, gate, gate_fraction, residue, duration_s)
     curve, opts, estimate = point_from_dict(point.settings)
     policy, thresholds = screening_from_dict(point.settings)
     rate = point.sample_count / duration_s if duration_s else None
@@ -356,6 +373,78 @@ def _interaction(spec, comps, curve, opts, shear_curve, shear_opts, non_proporti
                                   duration_s=duration_s)
 
 
+def _assess_strain_life(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
+    """A single channel by the local strain approach (``engine.strain_life``):
+    screened like any point, then followed through the notch root loop by
+    loop; the result has the stress-life result's shape (equivalent range
+    and per-repeat figures do not apply: null), and a ``strain_life`` block
+    with the material, the method and the largest local values."""
+    material, params, opts = strain_life_from_dict(point.settings)
+    policy, thresholds = screening_from_dict(point.settings)
+    rate = point.sample_count / duration_s if duration_s else None
+    findings = _screened(point.name, point.samples, rate, policy, thresholds)
+    samples, cleaned = point.samples, None
+    if findings and policy == "clean":
+        samples, done = screening.clean(point.samples, findings, thresholds)
+        cleaned = {"done": done}
+    g = resolve_gate(samples, gate or 0.0, gate_fraction)
+    x = samples / material.youngs_modulus if params["input_kind"] == "local_strain" else samples
+    xg = g / material.youngs_modulus if params["input_kind"] == "local_strain" else g
+    r = strain_life.assess_strain_life(x, material, **params,
+                                       allowable_damage=opts.allowable_damage,
+                                       residue=residue, gate=xg, duration_s=duration_s)
+    loops = r.loops
+    extra = [cautions.caution(
+        "strain_life_method", input=params["input_kind"].replace("_", " "),
+        rule=("" if params["input_kind"] == "local_strain"
+              else f", {params['rule'].capitalize()}'s rule with Kt = {params['kt']:g}"),
+        mean=params["mean_stress_method"].replace("_", "-"), source=material.source)]
+    if material.source.startswith("estimate"):
+        extra.append(cautions.caution("strain_life_estimate", source=material.source))
+    if findings:
+        screening.damage_shares(findings, loops["start_index"], loops["end_index"],
+                                loops["damage"])
+        extra.append(cautions.caution(
+            "signal_findings", kinds=", ".join(sorted({f.kind for f in findings})), share=""))
+    damage = r.damage
+    finite = math.isfinite(damage) and damage > 0
+    top = [{"start_index": t["start_index"], "end_index": t["end_index"], "count": t["count"],
+            "stress_range": None, "stress_mean": t["stress_mean"],
+            "strain_amplitude": t["strain_amplitude"], "stress_max": t["stress_max"],
+            "reversals_to_failure": t["reversals_to_failure"], "damage": t["damage"],
+            "damage_share": t["damage"] / damage if finite else None}
+           for t in r.top_loops(10)]
+    flags = list(r.flags)
+    table_ranges = np.abs(np.diff(x)) if x.shape[0] > 1 else np.zeros(1)
+    out = {
+        "point": point.name, "damage": damage, "damage_per_repeat": None,
+        "residue_damage_share": None, "life_repeats": r.life_repeats,
+        "life_hours": r.life_hours, "life_cycles": r.life_cycles,
+        "reserve_factor": r.reserve_factor,
+        "reserve_limited_by": "fatigue" if r.reserve_factor is not None else None,
+        "equivalent_range": None, "equivalent_slope": None, "equivalent_cycles": None,
+        "cycles_counted": r.cycles_counted, "max_range": float(np.max(table_ranges)) * (
+            material.youngs_modulus if params["input_kind"] == "local_strain" else 1.0),
+        "overload_cycles": int(np.sum(loops["reversals_to_failure"] == 0.0)),
+        "below_limit": None, "flags": flags, "runout": math.isinf(r.life_repeats),
+        "gate_mpa": g, "top_cycles": top,
+        "curve": {"name": "strain-life", "source": material.source,
+                  "family": "strain_life"},
+        "estimate": None,
+        "options": {"allowable_damage": opts.allowable_damage, "residue": residue,
+                    "method": "strain_life", **params},
+        "settings_used": point.settings,
+        "cautions": [c.as_dict() for c in extra],
+        "screening": _signal_block(policy, findings, cleaned),
+        "strain_life": {"material": material.as_dict(),
+                        "transition_reversals": material.transition_reversals(),
+                        "max_strain_amplitude": r.max_strain_amplitude,
+                        "max_stress": r.max_stress, **{k: v for k, v in r.method.items()
+                                                      if k != "gate"}},
+    }
+    return json_safe(out), loops["damage"]
+
+
 def _screened(channel: str, samples, rate, policy: str, thresholds) -> list:
     """The findings of one channel (none when screening is off); refused by
     the ``refuse`` policy with a problem naming the channel and samples."""
@@ -456,10 +545,27 @@ def point_cycles(data_dir, assessment: dict, point: str,
     """
     res = assessment["result"]["points"][point]
     samples = point_samples(data_dir, assessment, point, con)
+    if is_strain_life(res["settings_used"]):
+        return strain_life_cycles(samples, res)
     table = astm_e1049(samples, gate=res["gate_mpa"], residue=res["options"]["residue"])
     curve, opts, _ = point_from_dict(res["settings_used"])
     r = assess(table, curve, replace(opts, reserve_factor=False, top_cycles=0))
     return table, r.damage_per_cycle
+
+
+def strain_life_cycles(samples, res: dict) -> tuple[CycleTable, np.ndarray]:
+    """A strain-life point's cycle table (of the history as sent, MPa) and
+    per-loop damage, recounted as the result was made."""
+    material, params, opts = strain_life_from_dict(res["settings_used"])
+    strain = params["input_kind"] == "local_strain"
+    x = samples / material.youngs_modulus if strain else samples
+    g = res["gate_mpa"] / material.youngs_modulus if strain else res["gate_mpa"]
+    r = strain_life.assess_strain_life(x, material, **params,
+                                       allowable_damage=opts.allowable_damage,
+                                       residue=res["options"]["residue"], gate=g,
+                                       reserve_factor=False)
+    table = astm_e1049(samples, gate=res["gate_mpa"], residue=res["options"]["residue"])
+    return table, r.loops["damage"]
 
 
 def point_samples(data_dir, assessment: dict, point: str, con=None) -> np.ndarray:

@@ -16,6 +16,7 @@ from service.engine.damage import FLAGS
 from service.engine.equivalents import REDUCTION_NAMES
 from service.engine.rosette import ROSETTE_LAYOUTS
 from service.engine.hot_spot import HOT_SPOT_METHODS
+from service.engine.settings import METHODS
 from service.engine.sn_catalogue import IIW_THICKNESS_EXPONENTS
 from service.engine.weld_interaction import LOADINGS, NORMAL_COMPONENTS, SHEAR_INTERACTION_RULES
 from service.engine.screening import FINDING_KINDS, SCREENING_POLICIES
@@ -91,6 +92,7 @@ def methods():
                    interaction_loadings=list(LOADINGS),
                    interaction_normals=list(NORMAL_COMPONENTS),
                    joints=list(IIW_THICKNESS_EXPONENTS),
+                   life_methods=list(METHODS),
                    material_classes=list(MATERIAL_CLASSES),
                    surface_finishes=list(SURFACE_FINISH),
                    load_types=list(LOAD_TYPE),

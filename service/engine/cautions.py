@@ -119,6 +119,13 @@ CAUTION_TEXTS = {
     "thickness_correction": "Stress ranges multiplied by the thickness factor {factor:.4g} "
                             "((t_eff/t_ref)^n with t = {t:g} mm, t_eff = {t_eff:.4g} mm, t_ref "
                             "= {t_ref:g} mm, n = {n:g}; {source}).",
+    # Strain-life (engine/strain_life.py).
+    "strain_life_method": "Assessed by the local strain approach: {input} input{rule}, Masing "
+                          "branches with material memory, Coffin-Manson-Basquin with {mean} "
+                          "mean stress; material: {source}.",
+    "strain_life_estimate": "The strain-life constants are an {source}: lives from such "
+                            "estimates scatter by a factor of several; use test data for "
+                            "decisions.",
     # Inputs.
     "implausible_value": "The value {field} = {value:.6g} {unit} is unusual for {what}; {hint}.",
 }
@@ -140,7 +147,7 @@ _SEVERITY = {
     "implausible_value": "warning", "estimate_not_steel": "warning",
     "hot_spot_gauge_position": "warning", "hot_spot_gauge_in_notch": "warning",
     "hot_spot_curve": "warning", "shear_interaction_exceeded": "warning",
-    "interaction_non_proportional_en": "warning",
+    "interaction_non_proportional_en": "warning", "strain_life_estimate": "warning",
     "low_cycle_regime": "warning", "below_fatigue_limit": "warning",
     "yield_not_checked": "warning",
     "estimate_scatter": "general", "method_choice": "general", "engineer_sign_off": "general",

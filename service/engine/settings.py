@@ -115,8 +115,87 @@ def options_from_dict(settings: dict, curve: SNCurve | None = None) -> Assessmen
         raise InvalidParameter(str(exc), field="options") from exc
 
 
+#: How a point's life is assessed.
+METHODS = ("stress_life", "strain_life")
+#: Keys of a strain-life point's ``strain_life`` block.
+STRAIN_LIFE_KEYS = {"material", "estimate", "input", "kt", "notch_rule", "mean_stress_method"}
+#: Settings a strain-life point takes beside ``method`` and ``strain_life``.
+_STRAIN_LIFE_OPTIONS = {"allowable_damage"} | _SCREENING_KEYS
+#: A request's default settings a strain-life point takes over.
+STRAIN_LIFE_SHARED = _STRAIN_LIFE_OPTIONS
+
+
+def strain_life_from_dict(settings: dict):
+    """``(material, params, opts)`` of a strain-life point's settings:
+    ``strain_life`` holds ``material`` (the seven constants of
+    :class:`~.strain_life.StrainLifeMaterial`) or ``estimate`` ({``method``:
+    uniform_material_law, medians or hardness, ``ultimate_strength``,
+    ``brinell_hardness``, ``material_class``, ``youngs_modulus``}),
+    ``input`` (nominal, local_elastic, local_strain), ``kt``,
+    ``notch_rule`` (neuber, glinka) and ``mean_stress_method`` (morrow,
+    smith_watson_topper, none)."""
+    from . import strain_life as sl
+
+    extra = set(settings) - {"method", "strain_life"} - _STRAIN_LIFE_OPTIONS
+    if extra:
+        raise InvalidParameter(f"a strain_life point takes its material and mean-stress form "
+                               f"in strain_life; not: {', '.join(sorted(extra))}",
+                               field=sorted(extra)[0])
+    block = _mapping(settings.get("strain_life"), "strain_life")
+    unknown_keys = set(block) - STRAIN_LIFE_KEYS
+    if unknown_keys:
+        raise InvalidParameter(f"strain_life: unknown field(s) {', '.join(sorted(unknown_keys))};"
+                               f" valid: {', '.join(sorted(STRAIN_LIFE_KEYS))}",
+                               field="strain_life")
+    if ("material" in block) == ("estimate" in block):
+        raise InvalidParameter("strain_life needs exactly one of material (the cyclic and "
+                               "strain-life constants) or estimate", field="strain_life")
+    try:
+        if "material" in block:
+            material = sl.StrainLifeMaterial(**_mapping(block["material"], "material"))
+        else:
+            spec = dict(_mapping(block["estimate"], "estimate"))
+            method = spec.pop("method", None)
+            material = sl.estimate(method, **spec)
+    except EngineError:
+        raise
+    except TypeError as exc:
+        raise InvalidParameter(f"strain_life: {exc}", field="strain_life") from exc
+    params = {"input_kind": block.get("input", "nominal"), "rule": block.get("notch_rule",
+                                                                              "neuber"),
+              "kt": block.get("kt", 1.0),
+              "mean_stress_method": block.get("mean_stress_method", "smith_watson_topper")}
+    if params["input_kind"] not in sl.INPUTS:
+        raise unknown("input", params["input_kind"], sl.INPUTS)
+    if params["rule"] not in sl.NOTCH_RULES:
+        raise unknown("notch_rule", params["rule"], sl.NOTCH_RULES)
+    if params["mean_stress_method"] not in sl.STRAIN_MEAN_STRESS:
+        raise unknown("mean_stress_method", params["mean_stress_method"],
+                      sl.STRAIN_MEAN_STRESS)
+    kt = params["kt"]
+    if isinstance(kt, bool) or not isinstance(kt, (int, float)) or not 1.0 <= kt <= 20.0:
+        raise InvalidParameter(f"kt {kt!r} must be in [1, 20]", field="kt", value=kt)
+    if params["input_kind"] != "nominal" and kt != 1.0:
+        raise InvalidParameter("kt applies to a nominal stress input", field="kt", value=kt)
+    opts = options_from_dict({k: v for k, v in settings.items() if k == "allowable_damage"})
+    screening_from_dict(settings)
+    return material, params, opts
+
+
+def is_strain_life(settings: dict) -> bool:
+    """Whether a point's settings ask for the local strain approach."""
+    method = settings.get("method", "stress_life")
+    if method not in METHODS:
+        raise unknown("method", method, METHODS)
+    return method == "strain_life"
+
+
 def point_from_dict(settings: dict):
     """``(curve, options, estimate)`` for one point's settings dictionary."""
+    if is_strain_life(settings):
+        raise InvalidParameter("this point is assessed by strain-life (method strain_life): "
+                               "it has no S-N curve here", field="method")
+    settings = {k: v for k, v in settings.items() if k != "method"}
     curve, estimate = curve_from_dict(settings)
     opts = options_from_dict(settings, curve)
     screening_from_dict(settings)  # refused now, not when the point is screened

@@ -8,7 +8,7 @@ API agree.
 from __future__ import annotations
 
 from service import ledger, runs
-from service.engine.settings import point_from_dict
+from service.engine.settings import is_strain_life, point_from_dict
 from service.store import ledger as ledger_sql
 
 from . import pages, plots
@@ -63,7 +63,9 @@ def assessment_plot(con, data_dir, row: dict, resource: dict, name: str,
                                title=f"Exceedance spectrum ({of})")
     else:
         table, dmg = reads.cycles(point)
-        if name == "sn":
+        if name == "sn" and is_strain_life(points[point]["settings_used"]):
+            fig = _strain_life_plot(reads, points[point], point, of)
+        elif name == "sn":
             curve, opts, _ = point_from_dict(points[point]["settings_used"])
             fig = plots.sn_with_spectrum(
                 curve, table, dmg, plots.entered_ranges(table, opts),
@@ -71,6 +73,24 @@ def assessment_plot(con, data_dir, row: dict, resource: dict, name: str,
         else:
             fig = plots.range_mean(table, title=f"Rainflow matrix: point {point} ({of})")
     return plots.render(fig, fmt)
+
+
+def _strain_life_plot(reads, res: dict, point: str, of: str):
+    """The strain-life curve and the worst loops of a strain-life point."""
+    from service.engine import strain_life
+    from service.engine.settings import strain_life_from_dict
+
+    material, params, opts = strain_life_from_dict(res["settings_used"])
+    samples = reads.samples(point)
+    strain = params["input_kind"] == "local_strain"
+    x = samples / material.youngs_modulus if strain else samples
+    r = strain_life.assess_strain_life(
+        x, material, **params, allowable_damage=opts.allowable_damage,
+        residue=res["options"]["residue"],
+        gate=res["gate_mpa"] / material.youngs_modulus if strain else res["gate_mpa"],
+        reserve_factor=False)
+    return plots.strain_life(material, r.loops,
+                             title=f"Strain-life curve and loops: point {point} ({of})")
 
 
 def assessment_page(con, data_dir, row: dict, resource: dict) -> str:

@@ -152,6 +152,29 @@ def assessment_page(resource: dict, plots: dict[str, bytes]) -> str:
                 f"<li>{html.escape(f['symbol'])} = {fmt(f['value'])}: "
                 f"{html.escape(f['basis'])} ({html.escape(f['source'])})</li>"
                 for f in est["factors"]) + "</ul>"
+        sl = p.get("strain_life")
+        if sl:
+            mat = sl["material"]
+            settings.append(
+                f"<h3>{html.escape(name)}</h3><dl>"
+                f"<dt>method</dt><dd>local strain approach: {html.escape(sl['input'])} input"
+                + ("" if sl.get("notch_rule") is None else
+                   f", {html.escape(sl['notch_rule'])} rule, Kt {fmt(sl['kt'])}")
+                + f", mean stress {html.escape(sl['mean_stress_method'])}</dd>"
+                f"<dt>material</dt><dd>{html.escape(mat['source'])}: E "
+                f"{fmt(mat['youngs_modulus'])} MPa, K' {fmt(mat['cyclic_strength_coefficient'])}"
+                f" MPa, n' {fmt(mat['cyclic_hardening_exponent'])}, sigma_f' "
+                f"{fmt(mat['fatigue_strength_coefficient'])} MPa, b "
+                f"{fmt(mat['fatigue_strength_exponent'])}, epsilon_f' "
+                f"{fmt(mat['fatigue_ductility_coefficient'])}, c "
+                f"{fmt(mat['fatigue_ductility_exponent'])}; 2N_t "
+                f"{fmt(sl['transition_reversals'])}</dd>"
+                f"<dt>largest loop</dt><dd>strain amplitude {fmt(sl['max_strain_amplitude'])},"
+                f" peak stress {fmt(sl['max_stress'])} MPa</dd>"
+                f"<dt>allowable damage</dt><dd>{fmt(s['allowable_damage'])}</dd>"
+                f"<dt>counting</dt><dd>ASTM E1049-85 rainflow, residue "
+                f"{html.escape(s['residue'])}</dd></dl>")
+            continue
         settings.append(
             f"<h3>{html.escape(name)}</h3><dl>"
             f"<dt>S-N curve</dt><dd>{html.escape(curve['name'])} - {html.escape(curve['source'])}</dd>"

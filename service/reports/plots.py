@@ -235,6 +235,70 @@ def sn_with_spectrum(curve, table, damage_per_cycle, corrected_range=None, bins:
     return fig
 
 
+def strain_life(material, loops: dict, title: str | None = None, worst: int = 4):
+    """A strain-life point: the strain-life curve (elastic, plastic and total
+    strain amplitude against reversals, the transition life marked) with
+    the counted loops' amplitudes as a cumulative spectrum; and the
+    hysteresis loops of the most damaging cycles, drawn by Masing's rule
+    from their tips. ``material`` is a ``StrainLifeMaterial``; ``loops`` the
+    per-loop columns of ``assess_strain_life``."""
+    from service.engine.strain_life import masing_strain_range
+
+    m = material
+    fig = Figure(figsize=(9.0, 3.8))
+    left, right = fig.subplots(1, 2, gridspec_kw={"width_ratios": [1.3, 1.0]})
+    rev = np.logspace(0, 9, 200)
+    elastic = m.fatigue_strength_coefficient / m.youngs_modulus * rev ** m.fatigue_strength_exponent
+    plastic = m.fatigue_ductility_coefficient * rev ** m.fatigue_ductility_exponent
+    left.loglog(rev, elastic + plastic, color=INK, linewidth=1.6, label="total (Coffin-Manson-"
+                "Basquin)")
+    left.loglog(rev, elastic, color=INK, linewidth=0.8, linestyle="dashed", label="elastic")
+    left.loglog(rev, plastic, color=INK, linewidth=0.8, linestyle="dotted", label="plastic")
+    nt = m.transition_reversals()
+    left.axvline(nt, color=AMBER, linewidth=0.8, label=f"transition 2N_t = {nt:.3g}")
+    amp = np.asarray(loops["strain_amplitude"])
+    if amp.size:
+        order = np.argsort(-amp, kind="stable")
+        cum = np.cumsum(2.0 * np.asarray(loops["count"])[order])
+        left.step(np.maximum(cum, 1.0), np.maximum(amp[order], 1e-9), where="post",
+                  color=TEAL, label="counted loops: cumulative reversals")
+    left.set_xlabel("reversals to failure / cumulative reversals 2N [-] (log)")
+    left.set_ylabel("strain amplitude [-] (log)")
+    left.set_ylim(bottom=max(float(elastic[-1]) / 3.0, 1e-6))
+    left.legend(frameon=False, fontsize=7, loc="upper right")
+    dmg = np.asarray(loops["damage"])
+    top = [i for i in np.argsort(-dmg, kind="stable")[:worst] if dmg[i] > 0]
+    for k, i in enumerate(top):
+        s_mean, e_amp = float(loops["stress_mean"][i]), float(loops["strain_amplitude"][i])
+        ds = _loop_stress_range(m, 2.0 * e_amp)
+        s_lo, s_hi = s_mean - 0.5 * ds, s_mean + 0.5 * ds
+        d = np.linspace(0.0, ds, 60)
+        de = masing_strain_range(d, m)
+        e_lo = -float(masing_strain_range(ds, m)) / 2.0
+        # Lower tip up to the upper tip and back (Masing: the same branch turned).
+        stress = np.concatenate([s_lo + d, s_hi - d])
+        strain = np.concatenate([e_lo + de, -e_lo - de])
+        right.plot(strain, stress, label=f"loop {k + 1}: {100 * dmg[i] / dmg.sum():.0f} % of "
+                   "damage", **series_style(k))
+    right.set_xlabel("local strain about the loop centre [-]")
+    right.set_ylabel("local stress [MPa]")
+    right.set_title("Worst hysteresis loops", color=INK, loc="left", fontsize=9)
+    if top:
+        right.legend(frameon=False, fontsize=7)
+    fig.suptitle(title or "Strain-life curve and loops", color=INK, fontsize=10, x=0.02,
+                 ha="left")
+    fig.tight_layout()
+    return fig
+
+
+def _loop_stress_range(material, strain_range: float) -> float:
+    """The stress range of a Masing branch of this strain range [MPa]."""
+    from service.engine.strain_life import local_states
+
+    half = local_states(np.array([0.5 * strain_range]), material, "strain")[0][0]
+    return 2.0 * float(half)
+
+
 def damage_by_point(damage: dict[str, float | None], allowable: dict[str, float],
                     title: str | None = None):
     """Damage of each point with its allowable damage sum marked."""
