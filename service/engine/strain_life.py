@@ -216,44 +216,48 @@ def masing_strain_range(stress_range, material: StrainLifeMaterial) -> np.ndarra
 @kernel
 def _first_loading(x, rule, e_mod, k, inv_n, n):
     """Local stress [MPa] >= 0 on the first-loading curve for a pseudo
-    stress (Neuber, Glinka) or a strain (rule 2) ``x`` >= 0: the root of a
-    monotonic equation in [0, hi], by Newton steps kept inside a bisection
-    bracket (converges to round-off)."""
+    stress (Neuber, Glinka) or a strain (rule 2) ``x`` >= 0.
+
+    Each equation f(s) = 0 is increasing and convex in s, and each of its
+    two terms alone (elastic, plastic) reaches the target at an s above the
+    root; Newton's method started from the smaller of those two falls
+    monotonically onto the root (no overshoot, no bracket needed) and is
+    stopped at round-off.
+    """
     if x <= 0.0:
         return 0.0
     if rule == 0:
         target = x * x / e_mod
-        hi = x
+        s_el = x
+        s_pl = (target * k ** inv_n) ** (1.0 / (1.0 + inv_n))
     elif rule == 1:
         target = 0.5 * x * x / e_mod
-        hi = x
+        s_el = x
+        s_pl = ((1.0 + n) * target * k ** inv_n) ** (1.0 / (1.0 + inv_n))
     else:
         target = x
-        hi = e_mod * x
-    lo = 0.0
-    s = hi
-    for _ in range(200):
+        s_el = e_mod * x
+        s_pl = k * x ** n
+    s = min(s_el, s_pl)
+    for _ in range(100):
         plast = (s / k) ** inv_n
-        eps = s / e_mod + plast
-        deps = 1.0 / e_mod + inv_n * plast / s if s > 0.0 else 1.0 / e_mod
         if rule == 0:
-            f = s * eps - target
-            df = eps + s * deps
+            f = s * s / e_mod + s * plast - target
+            df = 2.0 * s / e_mod + plast * (1.0 + inv_n)
         elif rule == 1:
             f = 0.5 * s * s / e_mod + s * plast / (1.0 + n) - target
-            df = s / e_mod + (plast + inv_n * plast) / (1.0 + n)
+            df = s / e_mod + plast * (1.0 + inv_n) / (1.0 + n)
         else:
-            f = eps - target
-            df = deps
-        if f > 0.0:
-            hi = s
-        else:
-            lo = s
-        step = s - f / df
-        s_new = step if lo < step < hi else 0.5 * (lo + hi)
-        if abs(s_new - s) <= 1e-14 * max(abs(s), 1e-300) or hi - lo <= 1e-15 * hi:
-            s = s_new
-            break
+            f = s / e_mod + plast - target
+            df = 1.0 / e_mod + inv_n * plast / s
+        step = f / df
+        s_new = s - step
+        if s_new <= 0.0:
+            s_new = 0.5 * s
+        # Quadratic convergence: after a step of 1e-8 s the error left is
+        # of order (1e-8)^2, below round-off.
+        if abs(step) <= 1e-8 * s:
+            return s_new
         s = s_new
     return s
 
@@ -397,40 +401,46 @@ class StrainLifeAssessment:
                 if self.loops["damage"][i] > 0]
 
 
-def _pass(samples, material, input_kind, rule, kt, mean_stress_method, residue, gate):
-    """Per-loop local values and damage of a history (one evaluation)."""
-    x = np.asarray(samples, dtype=np.float64)
-    if input_kind == "nominal":
-        x = kt * x
-    table = astm_e1049(x, gate=gate, residue=residue)
-    idx = turning_points(x, gate=gate)[0]
-    code = "strain" if input_kind == "local_strain" else rule
-    sig, eps = local_states(x[idx], material, code)
-    pos_a = np.searchsorted(idx, table.start_index)
-    pos_b = np.searchsorted(idx, table.end_index)
-    sa, sb, ea, eb = sig[pos_a], sig[pos_b], eps[pos_a], eps[pos_b]
-    strain_amp = 0.5 * np.abs(ea - eb)
-    mean = 0.5 * (sa + sb)
-    smax = np.maximum(sa, sb)
-    nf = 0.5 * reversals_to_failure(strain_amp, material, mean_stress=mean, max_stress=smax,
-                                    mean_stress_method=mean_stress_method)
-    with np.errstate(divide="ignore"):
-        dmg = np.where(np.isinf(nf), 0.0, table.count / nf)
-    return table, strain_amp, mean, smax, nf, dmg
+class _Counted:
+    """The cycles and turning points of an input history, counted once: they
+    do not change when the history is scaled (the gate scaled with it), so
+    the reserve search only follows the notch again at each trial scale."""
+
+    def __init__(self, samples, input_kind, kt, residue, gate):
+        x = np.asarray(samples, dtype=np.float64)
+        if input_kind == "nominal":
+            x = kt * x
+            gate = kt * gate
+        self.table = astm_e1049(x, gate=gate, residue=residue)
+        idx = turning_points(x, gate=gate)[0]
+        self.points = x[idx]
+        self.pos_a = np.searchsorted(idx, self.table.start_index)
+        self.pos_b = np.searchsorted(idx, self.table.end_index)
+
+    def evaluate(self, material, input_kind, rule, mean_stress_method, scale=1.0):
+        """Per-loop local values and damage at ``scale`` times the input."""
+        code = "strain" if input_kind == "local_strain" else rule
+        sig, eps = local_states(self.points * scale, material, code)
+        sa, sb = sig[self.pos_a], sig[self.pos_b]
+        strain_amp = 0.5 * np.abs(eps[self.pos_a] - eps[self.pos_b])
+        mean = 0.5 * (sa + sb)
+        smax = np.maximum(sa, sb)
+        nf = 0.5 * reversals_to_failure(strain_amp, material, mean_stress=mean,
+                                        max_stress=smax, mean_stress_method=mean_stress_method)
+        with np.errstate(divide="ignore"):
+            dmg = np.where(np.isinf(nf), 0.0, self.table.count / nf)
+        return strain_amp, mean, smax, nf, dmg
 
 
-def _reserve(samples, material, input_kind, rule, kt, mean_stress_method, residue, gate,
-             damage, allowable_damage) -> float | None:
+def _reserve(counted, material, input_kind, rule, mean_stress_method, damage,
+             allowable_damage) -> float | None:
     """The factor on the input that brings the damage to ``allowable_damage``:
     the root of log(D(s)/D_allow) in log s by the Illinois (bracketed
-    secant) method, each trial a full local analysis (plasticity makes D(s)
-    no power law). None if no factor in [1e-4, 1e4] does it."""
-    x = np.asarray(samples, dtype=np.float64)
-
+    secant) method, each trial the notch followed again (plasticity makes
+    D(s) no power law). None if no factor in [1e-4, 1e4] does it."""
     def f(log_s):
-        scale = math.exp(log_s)
-        d = float(np.sum(_pass(x * scale, material, input_kind, rule, kt, mean_stress_method,
-                               residue, gate * scale)[5]))
+        d = float(np.sum(counted.evaluate(material, input_kind, rule, mean_stress_method,
+                                          math.exp(log_s))[4]))
         if d == math.inf or np.isnan(d):
             return math.inf
         return math.log(d / allowable_damage) if d > 0 else -math.inf
@@ -510,8 +520,10 @@ def assess_strain_life(samples, material: StrainLifeMaterial, *, input_kind: str
         raise InvalidParameter(f"kt {kt!r} must be in [1, 20]", field="kt", value=kt)
     if input_kind != "nominal" and kt != 1.0:
         raise InvalidParameter("kt applies to a nominal stress input", field="kt", value=kt)
-    table, strain_amp, mean, smax, nf, dmg = _pass(samples, material, input_kind, rule, kt,
-                                                   mean_stress_method, residue, gate)
+    counted = _Counted(samples, input_kind, kt, residue, gate)
+    table = counted.table
+    strain_amp, mean, smax, nf, dmg = counted.evaluate(material, input_kind, rule,
+                                                       mean_stress_method)
     damage = float(np.sum(dmg))
     total = float(np.sum(table.count))
     life = math.inf if damage == 0.0 else allowable_damage / damage
@@ -525,8 +537,8 @@ def assess_strain_life(samples, material: StrainLifeMaterial, *, input_kind: str
         flags.append("allowable_reached")
     reserve = None
     if reserve_factor and 0.0 < damage < math.inf:
-        reserve = _reserve(samples, material, input_kind, rule, kt, mean_stress_method, residue,
-                           gate, damage, allowable_damage)
+        reserve = _reserve(counted, material, input_kind, rule, mean_stress_method, damage,
+                           allowable_damage)
     loops = {"start_index": table.start_index, "end_index": table.end_index,
              "count": table.count, "strain_amplitude": strain_amp, "stress_mean": mean,
              "stress_max": smax, "reversals_to_failure": 2.0 * nf, "damage": dmg}
