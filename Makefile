@@ -30,6 +30,7 @@ bench-quick: $(BIN)/.installed   ## the benchmarks' short runs
 	$(BIN)/python tests/benchmarks/bench_scale.py --quick
 	$(BIN)/python tests/benchmarks/bench_inputs.py --quick
 	$(BIN)/python tests/benchmarks/bench_reports.py --quick
+	$(BIN)/python tests/benchmarks/bench_strain_life.py --quick
 
 bench: $(BIN)/.installed         ## the benchmarks' full runs (several minutes)
 	$(BIN)/python tests/benchmarks/bench_counting.py
@@ -41,6 +42,7 @@ bench: $(BIN)/.installed         ## the benchmarks' full runs (several minutes)
 	$(BIN)/python tests/benchmarks/bench_scale.py
 	$(BIN)/python tests/benchmarks/bench_inputs.py
 	$(BIN)/python tests/benchmarks/bench_reports.py
+	$(BIN)/python tests/benchmarks/bench_strain_life.py
 
 clean:
 	rm -rf $(VENV) .cache examples/data cycleledger-data cycleledger-demo dist build
