@@ -27,6 +27,14 @@ from numba.extending import intrinsic  # noqa: E402
 #: Decorator for every compiled kernel: cached on disk, releases the GIL.
 kernel = njit(cache=True, nogil=True)
 
+# For loops that must vectorise: numpy's error model (numba's default checks
+# divisions for zero, which blocks vectorising) and fastmath without
+# nnan/ninf (infinite ranges mark static overloads and must survive). No
+# "contract": a fused multiply-add rounds once where numpy rounds twice,
+# and at an exact zero (a peak of 0 MPa, the edge of Walker and SWT) that
+# turned "no damage" into 1e-39 (found by the compiled == numpy property).
+simd = njit(cache=True, nogil=True, error_model="numpy", fastmath={"reassoc", "nsz"})
+
 
 @intrinsic
 def prefetch(typingctx, array, index):
@@ -55,4 +63,4 @@ def prefetch(typingctx, array, index):
     return sig, codegen
 
 
-__all__ = ["kernel", "njit", "prefetch"]
+__all__ = ["kernel", "njit", "prefetch", "simd"]

@@ -20,6 +20,7 @@ from dataclasses import replace
 import numpy as np
 
 from . import _damage_kernels as _dk
+from . import _mean_stress_kernels as _msk
 from . import _passes
 from . import rainflow as _rf
 from ._buffers import FLOATS, POOL
@@ -236,7 +237,7 @@ def _static_checks(table, curve, opts, max_range, reserve, args, onset=None):
     if reserve is not None:
         if onset is None:  # the batch path: not kept from its first pass
             model, _ = args
-            onset, _ = _dk._onset_and_range(table.stress_from, table.stress_to, 0, n,
+            onset, _ = _msk._onset_and_range(table.stress_from, table.stress_to, 0, n,
                                             int(model[0]), model[1], model[2] != 0.0,
                                             model[3])
             onset /= lf
