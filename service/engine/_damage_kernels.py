@@ -161,22 +161,25 @@ SEGMENT_ROWS = 6
 
 
 def model_array(method: str, param: float, clip: bool, ultimate: float, range_factor: float,
-                eq_slope: float) -> np.ndarray:
-    """The scalar settings of :func:`damage_pass` in one array (one argument)."""
-    return np.array([METHOD_CODES[method], param, 1.0 if clip else 0.0, ultimate,
-                     range_factor, eq_slope, _whole(eq_slope)], np.float64)
+                eq_slope: float, table=None) -> np.ndarray:
+    """The scalar settings of :func:`damage_pass` in one array (one argument),
+    followed by a method's table when it has one (a Haigh diagram: k, the
+    k means, the k amplitudes, the reference amplitude)."""
+    head = [METHOD_CODES[method], param, 1.0 if clip else 0.0, ultimate, range_factor,
+            eq_slope, _whole(eq_slope)]
+    return np.array(head + ([0.0] if table is None else list(table)), np.float64)
 
 
 @njit(cache=True, nogil=True, inline="always")
 def _chunk_damage(frm, to, cnt, lo, hi, scale, method, param, clip, ultimate, range_factor,
-                  segments, sr, gr, d, w):
+                  segments, sr, gr, d, w, table):
     """One chunk (rows lo..hi) of a pass: corrected ranges into ``sr`` (and
     their slopes into ``gr``), each cycle's damage on the curve's
     ``segments`` into ``d`` (and its slope weight into ``w``). Returns the
     chunk's static overloads."""
     k = hi - lo
     over = _equivalent_ranges(frm, to, lo, hi, scale, method, param, clip, ultimate,
-                              range_factor, sr, gr)
+                              range_factor, sr, gr, table)
     d[:k] = 0.0
     w[:k] = 0.0
     for g in range(segments.shape[1]):
@@ -213,6 +216,7 @@ def damage_pass(frm, to, cnt, scale, model, segments, per_cycle, extras):
     range_factor = model[4]
     eq_slope = model[5]
     eq_whole = int(model[6])
+    table = model[MODEL_ROWS:]
     n = frm.shape[0]
     write_d = per_cycle.shape[0] > 0
     sr = np.empty(_CHUNK)
@@ -233,7 +237,7 @@ def damage_pass(frm, to, cnt, scale, model, segments, per_cycle, extras):
         hi = min(lo + _CHUNK, n)
         k = hi - lo
         over += _chunk_damage(frm, to, cnt, lo, hi, scale, method, param, clip, ultimate,
-                              range_factor, segments, sr, gr, d, w)
+                              range_factor, segments, sr, gr, d, w, table)
         total += _sum8(d, k)
         weight += _sum8(w, k)
         if write_d:
@@ -280,6 +284,7 @@ def split_at_limit(frm, to, cnt, scale, model, segments, limit):
     clip = model[2] != 0.0
     ultimate = model[3]
     range_factor = model[4]
+    table = model[MODEL_ROWS:]
     n = frm.shape[0]
     sr = np.empty(_CHUNK)
     gr = np.empty(_CHUNK)
@@ -296,7 +301,7 @@ def split_at_limit(frm, to, cnt, scale, model, segments, limit):
         hi = min(lo + _CHUNK, n)
         k = hi - lo
         _chunk_damage(frm, to, cnt, lo, hi, scale, method, param, clip, ultimate,
-                      range_factor, segments, sr, gr, d, w)
+                      range_factor, segments, sr, gr, d, w, table)
         _below_terms(sr, d, cnt, lo, k, limit, cb, db, dt)
         c_below += _sum8(cb, k)
         c_total += _sum8(cnt[lo:hi], k)

@@ -18,11 +18,11 @@ METHOD_CODES = {"none": 0, "goodman": 1, "gerber": 2, "soderberg": 3, "morrow": 
                 "smith_watson_topper": 5, "walker": 6, "asme_elliptic": 7,
                 "en1993_reduced_compression": 8, "dnv_base_material": 8,
                 "dnv_stress_relieved": 8, "iiw_enhancement_case1": 9,
-                "iiw_enhancement_case2": 9}
+                "iiw_enhancement_case2": 9, "haigh": 10}
 
 @simd
 def _equivalent_ranges(frm, to, lo, hi, scale, method, param, clip, ultimate,
-                       range_factor, sr, gr):
+                       range_factor, sr, gr, table):
     """``sr[i - lo]`` = corrected range ``2 sigma_ar range_factor`` of cycle i,
     and ``gr[i - lo]`` = d log sr / d log scale (1 where the range scales
     with the load; 1/den for Goodman-type corrections, (1 + r^2)/(1 - r^2)
@@ -103,6 +103,37 @@ def _equivalent_ranges(frm, to, lo, hi, scale, method, param, clip, ultimate,
             v = inf if top > ultimate else v
             sr[j] = v
             acc += v
+    elif method == 10:
+        # A Haigh diagram: table = [k, means (k), amplitudes (k), A_ref];
+        # A(mean) linear between points, held below the first, the last
+        # segment extended above the last; sr = 2 a A_ref / A, inf at A <= 0.
+        k = int(table[0])
+        aref = table[1 + 2 * k]
+        last = (table[2 * k] - table[2 * k - 1]) / (table[k] - table[k - 1])
+        for j in range(n):
+            f = frm[lo + j]
+            t = to[lo + j]
+            a = abs(f - t) * half
+            mean = (f + t) * half
+            amp = table[1 + k]
+            slope = 0.0
+            if mean > table[k]:
+                amp = table[2 * k] + last * (mean - table[k])
+                slope = last
+            else:
+                for p in range(1, k):
+                    if mean > table[p]:
+                        m0 = table[p]
+                        a0 = table[k + p]
+                        sl = (table[k + p + 1] - a0) / (table[p + 1] - m0)
+                        amp = a0 + sl * (mean - m0)
+                        slope = sl
+            v = two * a * aref / amp if amp > 0.0 else inf
+            v = 0.0 if a == 0.0 else v
+            v = inf if mean + a > ultimate else v
+            sr[j] = v
+            gr[j] = 1.0 - mean * slope / amp if amp > 0.0 else 1.0
+            acc += v
     elif method == 7:
         # ASME ellipse: den = sqrt(1 - r^2), d log sr / d log s = 1 / (1 - r^2).
         inv = 1.0 / param
@@ -154,7 +185,8 @@ def _onset_and_range(frm, to, lo, hi, method, param, clip, ultimate):
     stresses at which one becomes a static overload (inf if none does),
     mirroring ``_equivalent_ranges`` (peak strictly above ``ultimate``, or
     the correction's denominator reaching zero: Goodman-type at mu >= param,
-    Gerber and the ASME ellipse at |mu| >= param), and the largest unscaled
+    Gerber and the ASME ellipse at |mu| >= param, a Haigh diagram at the
+    mean where it reaches zero amplitude, param), and the largest unscaled
     range.
 
     The smallest of ``ultimate / peak`` over the cycles is ``ultimate`` over
@@ -164,7 +196,7 @@ def _onset_and_range(frm, to, lo, hi, method, param, clip, ultimate):
     max_peak = 0.0
     max_mu = 0.0
     max_range = 0.0
-    ratio = (1 <= method <= 4) | (method == 7)
+    ratio = (1 <= method <= 4) | (method == 7) | (method == 10)
     gerber = (method == 2) | (method == 7)  # even in the mean: |mu| breaks down
     for i in range(lo, hi):
         rng = abs(frm[i] - to[i])

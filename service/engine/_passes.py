@@ -19,7 +19,8 @@ from . import _damage_kernels as _dk
 from ._buffers import FLOATS, POOL
 from ._threads import beside, helper_allowed, take_back
 from .assessment import AssessmentOptions
-from .mean_stress import FIXED_PARAMETERS, MEAN_STRESS_METHODS, clips_compressive_mean
+from .mean_stress import (FIXED_PARAMETERS, MEAN_STRESS_METHODS, clips_compressive_mean,
+                          haigh_reference, haigh_zero_mean)
 from .rainflow import CycleTable
 from .sn_curve import SNCurve
 
@@ -36,6 +37,13 @@ def _model_args(curve: SNCurve, opts: AssessmentOptions) -> tuple:
              "fatigue_strength_coefficient": opts.fatigue_strength_coefficient,
              "walker_exponent": opts.walker_exponent}.get(needs) or 1.0
     param = FIXED_PARAMETERS.get(method, param)
+    table = None
+    if method == "haigh":
+        points = opts.haigh_diagram
+        param = haigh_zero_mean(points)
+        k = len(points)
+        table = ([float(k)] + [m for m, _ in points] + [a for _, a in points]
+                 + [haigh_reference(points, opts.haigh_stress_ratio)])
     clip = clips_compressive_mean(method, opts.compressive_mean)
     segments = _dk.curve_segments(curve)
     # The kernel's power sum (eq_sum) is not what the equivalent range is
@@ -44,7 +52,7 @@ def _model_args(curve: SNCurve, opts: AssessmentOptions) -> tuple:
     return (_dk.model_array(
         method, float(param), clip,
         float(opts.ultimate_strength) if opts.ultimate_strength else math.inf,
-        opts.thickness_factor * opts.strength_factor, 3.0),
+        opts.thickness_factor * opts.strength_factor, 3.0, table),
         segments)
 
 

@@ -14,7 +14,7 @@ import numpy as np
 
 from .cautions import GENERAL_CODES
 from .errors import InvalidParameter
-from .mean_stress import equivalent_amplitude
+from .mean_stress import check_haigh, equivalent_amplitude
 
 @dataclass(frozen=True)
 class AssessmentOptions:
@@ -30,6 +30,11 @@ class AssessmentOptions:
         Material strengths. [MPa]
     walker_exponent : float
         Walker's gamma. [-]
+    haigh_diagram : tuple of (mean, amplitude), optional
+        For ``mean_stress_method`` haigh: the constant-life line of a
+        Haigh diagram from test data. [MPa]
+    haigh_stress_ratio : float
+        R of the S-N curve the diagram is used with (-1: fully reversed). [-]
     allowable_damage : float
         Miner sum at which failure is predicted (1.0; 0.5 is common for
         variable-amplitude welded details). [-]
@@ -57,6 +62,8 @@ class AssessmentOptions:
     yield_strength: float | None = None
     fatigue_strength_coefficient: float | None = None
     walker_exponent: float | None = None
+    haigh_diagram: tuple | None = None
+    haigh_stress_ratio: float = -1.0
     allowable_damage: float = 1.0
     load_factor: float = 1.0
     strength_factor: float = 1.0
@@ -73,7 +80,11 @@ class AssessmentOptions:
                              yield_strength=self.yield_strength,
                              fatigue_strength_coefficient=self.fatigue_strength_coefficient,
                              walker_exponent=self.walker_exponent,
-                             compressive_mean=self.compressive_mean)
+                             compressive_mean=self.compressive_mean,
+                             haigh_diagram=self.haigh_diagram,
+                             haigh_stress_ratio=self.haigh_stress_ratio)
+        if self.haigh_diagram is not None:
+            object.__setattr__(self, "haigh_diagram", check_haigh(self.haigh_diagram))
         for name in ("allowable_damage", "load_factor", "strength_factor",
                      "thickness_factor", "equivalent_slope", "equivalent_cycles"):
             v = getattr(self, name)

@@ -126,6 +126,9 @@ CAUTION_TEXTS = {
     "strain_life_estimate": "The strain-life constants are an {source}: lives from such "
                             "estimates scatter by a factor of several; use test data for "
                             "decisions.",
+    "haigh_ratio_mismatch": "The Haigh diagram is referred to R = {diagram:g}, but the S-N "
+                            "curve is for R = {curve:g}: set haigh_stress_ratio to the curve's "
+                            "ratio, or the correction shifts every cycle.",
     # Inputs.
     "implausible_value": "The value {field} = {value:.6g} {unit} is unusual for {what}; {hint}.",
 }
@@ -148,6 +151,7 @@ _SEVERITY = {
     "hot_spot_gauge_position": "warning", "hot_spot_gauge_in_notch": "warning",
     "hot_spot_curve": "warning", "shear_interaction_exceeded": "warning",
     "interaction_non_proportional_en": "warning", "strain_life_estimate": "warning",
+    "haigh_ratio_mismatch": "warning",
     "low_cycle_regime": "warning", "below_fatigue_limit": "warning",
     "yield_not_checked": "warning",
     "estimate_scatter": "general", "method_choice": "general", "engineer_sign_off": "general",

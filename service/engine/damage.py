@@ -259,6 +259,10 @@ def _method_checks(table, per_cycle, damage, curve, opts):
     if curve.family == "estimate" and curve.fatigue_limit_cycles is None:
         # sn_estimate builds a limit for steels only.
         notes.append(caution("estimate_not_steel"))
+    if method == "haigh" and curve.stress_ratio is not None and abs(
+            curve.stress_ratio - opts.haigh_stress_ratio) > 1e-9:
+        notes.append(caution("haigh_ratio_mismatch", diagram=opts.haigh_stress_ratio,
+                             curve=curve.stress_ratio))
     if method not in ("none",) + CODE_RULES and curve.family in ("welded", "welded_shear"):
         notes.append(caution("mean_stress_on_welded_curve", method=method))
     if (method == "none" and curve.stress_ratio == -1.0 and len(table)

@@ -284,6 +284,92 @@ def iiw_enhancement(stress_amplitude, stress_mean, case):
     return a / iiw_enhancement_factor(a, stress_mean, case)
 
 
+def check_haigh(points) -> tuple:
+    """A Haigh diagram's points ``[[mean, amplitude], ...]`` [MPa], checked:
+    at least two, means increasing, amplitudes positive (the last may be 0,
+    the static limit), reaching zero amplitude (itself or by extending its
+    last segment) only at a tensile mean. Returns them as a tuple of pairs."""
+    try:
+        pts = tuple((float(m), float(a)) for m, a in points)
+    except (TypeError, ValueError):
+        raise InvalidParameter("haigh_diagram points must be [[mean, amplitude], ...] in MPa",
+                               field="haigh_diagram") from None
+    if len(pts) < 2 or len(pts) > 64:
+        raise InvalidParameter("a Haigh diagram needs 2 to 64 points", field="haigh_diagram")
+    means = [m for m, _ in pts]
+    amps = [a for _, a in pts]
+    if not all(np.isfinite(means)) or not all(np.isfinite(amps)):
+        raise InvalidParameter("Haigh diagram values must be finite", field="haigh_diagram")
+    if any(b <= a for a, b in zip(means, means[1:])):
+        raise InvalidParameter("Haigh diagram means must increase", field="haigh_diagram")
+    if any(a <= 0 for a in amps[:-1]) or amps[-1] < 0:
+        raise InvalidParameter("Haigh diagram amplitudes must be positive (the last may be 0)",
+                               field="haigh_diagram")
+    if haigh_zero_mean(pts) <= 0:
+        raise InvalidParameter("the Haigh diagram must reach zero amplitude at a tensile mean",
+                               field="haigh_diagram")
+    return pts
+
+
+def haigh_zero_mean(points) -> float:
+    """The mean at which the diagram (its last segment extended) reaches zero
+    amplitude: a cycle at or beyond it is a static failure. [MPa]"""
+    (m1, a1), (m2, a2) = points[-2], points[-1]
+    if a2 == 0.0:
+        return m2
+    slope = (a2 - a1) / (m2 - m1)
+    return m2 - a2 / slope if slope < 0 else np.inf
+
+
+def haigh_amplitude(points, mean) -> np.ndarray:
+    """The diagram's amplitude at each ``mean``: linear between points, held
+    below the first (no benefit beyond the data), the last segment extended
+    above the last (to zero). [MPa]"""
+    m = np.asarray([p[0] for p in points])
+    a = np.asarray([p[1] for p in points])
+    x = np.asarray(mean, dtype=np.float64)
+    inside = np.interp(x, m, a)
+    slope = (a[-1] - a[-2]) / (m[-1] - m[-2])
+    return np.where(x > m[-1], a[-1] + slope * (x - m[-1]), inside)
+
+
+def haigh_reference(points, stress_ratio: float) -> float:
+    r"""The diagram's amplitude at the stress ratio R of the S-N curve it is
+    used with: where the line :math:`\sigma_m = \kappa\sigma_a`,
+    :math:`\kappa = (1+R)/(1-R)`, meets it (R = -1: at zero mean). [MPa]"""
+    if not -np.inf < stress_ratio < 1.0:
+        raise InvalidParameter("the Haigh diagram's stress_ratio must be below 1",
+                               field="haigh_stress_ratio", value=stress_ratio)
+    kappa = (1.0 + stress_ratio) / (1.0 - stress_ratio)
+    # A(kappa a) - a falls from A(0) > 0 as a grows: bisect it.
+    lo, hi = 0.0, max(p[1] for p in points) * 1.0001
+    for _ in range(200):
+        mid = 0.5 * (lo + hi)
+        if float(haigh_amplitude(points, kappa * mid)) > mid:
+            lo = mid
+        else:
+            hi = mid
+    return 0.5 * (lo + hi)
+
+
+def haigh(stress_amplitude, stress_mean, points, reference_amplitude):
+    r"""
+    Equivalent amplitude from a user's Haigh diagram (constant-life line
+    through test points): :math:`\sigma_{eq} = \sigma_a\,A_{ref}/A(\sigma_m)`,
+    with :math:`A` the diagram's amplitude at the cycle's mean and
+    :math:`A_{ref}` its amplitude at the curve's stress ratio
+    (:func:`haigh_reference`); ``inf`` (static) where :math:`A \le 0`. The
+    constant-life lines of other lives are taken as the same shape scaled
+    (the normalised Haigh diagram; common practice). [MPa]
+    """
+    a = np.asarray(stress_amplitude, dtype=np.float64)
+    amp_at = haigh_amplitude(points, stress_mean)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        out = np.where(amp_at > 0.0, a * reference_amplitude / np.where(amp_at > 0, amp_at, 1.0),
+                       np.inf)
+    return np.where(a == 0.0, 0.0, out)
+
+
 #: Code rules whose parameter is fixed by the code, not a material value.
 FIXED_PARAMETERS = {"en1993_reduced_compression": 0.6, "dnv_base_material": 0.6,
                     "dnv_stress_relieved": 0.8, "iiw_enhancement_case1": 1.0,
@@ -304,6 +390,7 @@ MEAN_STRESS_METHODS = {
     "dnv_stress_relieved": (reduced_compression, None),
     "iiw_enhancement_case1": (iiw_enhancement, None),
     "iiw_enhancement_case2": (iiw_enhancement, None),
+    "haigh": (haigh, "haigh_diagram"),
 }
 
 #: The codes' own rules for welded and base-material details (their curves
@@ -354,7 +441,8 @@ def equivalent_amplitude(stress_amplitude, stress_mean, method: str = "goodman",
                          yield_strength: float | None = None,
                          fatigue_strength_coefficient: float | None = None,
                          walker_exponent: float | None = None,
-                         compressive_mean: str = "no_benefit"):
+                         compressive_mean: str = "no_benefit",
+                         haigh_diagram=None, haigh_stress_ratio: float = -1.0):
     """
     Equivalent fully reversed amplitude by a method chosen at run time.
 
@@ -400,9 +488,12 @@ def equivalent_amplitude(stress_amplitude, stress_mean, method: str = "goodman",
     func, needs = MEAN_STRESS_METHODS[method]
     params = {"ultimate_strength": ultimate_strength, "yield_strength": yield_strength,
               "fatigue_strength_coefficient": fatigue_strength_coefficient,
-              "walker_exponent": walker_exponent}
+              "walker_exponent": walker_exponent, "haigh_diagram": haigh_diagram}
+    if haigh_diagram is not None:
+        haigh_diagram = check_haigh(haigh_diagram)
     if needs is not None and params[needs] is None:
-        unit = "" if needs == "walker_exponent" else " (MPa)"
+        unit = {"walker_exponent": "", "haigh_diagram": " (points [[mean, amplitude], ...] "
+                "in MPa)"}.get(needs, " (MPa)")
         raise InvalidParameter(f"mean_stress_method {method!r} needs {needs}{unit}",
                                field=needs)
     amp = np.asarray(stress_amplitude, dtype=np.float64)
@@ -410,7 +501,10 @@ def equivalent_amplitude(stress_amplitude, stress_mean, method: str = "goodman",
     used_mean = mean
     if clips_compressive_mean(method, compressive_mean):
         used_mean = np.maximum(mean, 0.0)
-    if method in FIXED_PARAMETERS:
+    if method == "haigh":
+        out = haigh(amp, mean, haigh_diagram, haigh_reference(haigh_diagram,
+                                                               float(haigh_stress_ratio)))
+    elif method in FIXED_PARAMETERS:
         out = func(amp, used_mean, FIXED_PARAMETERS[method])
     else:
         out = func(amp, used_mean, params[needs]) if needs else func(amp, used_mean)

@@ -168,7 +168,8 @@ def entered_ranges(table, opts) -> np.ndarray:
         table.stress_amplitude * lf, table.stress_mean * lf, opts.mean_stress_method,
         ultimate_strength=opts.ultimate_strength, yield_strength=opts.yield_strength,
         fatigue_strength_coefficient=opts.fatigue_strength_coefficient,
-        walker_exponent=opts.walker_exponent, compressive_mean=opts.compressive_mean)
+        walker_exponent=opts.walker_exponent, compressive_mean=opts.compressive_mean,
+        haigh_diagram=opts.haigh_diagram, haigh_stress_ratio=opts.haigh_stress_ratio)
     return 2.0 * amp * opts.thickness_factor * opts.strength_factor
 
 

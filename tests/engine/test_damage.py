@@ -24,6 +24,11 @@ def constant_amplitude(rng, n, mean=0.0):
     return x
 
 
+#: A Haigh diagram of invented test points (mean, amplitude) [MPa]: a benefit
+#: in compression, a fall in tension to zero amplitude at 430 MPa.
+HAIGH = ((-300.0, 190.0), (0.0, 160.0), (150.0, 120.0), (300.0, 60.0), (430.0, 0.0))
+
+
 def numpy_damage(table, curve, opts):
     """The reference path: the documented numpy functions, step by step."""
     amp, over = equivalent_amplitude(
@@ -31,7 +36,8 @@ def numpy_damage(table, curve, opts):
         opts.mean_stress_method, ultimate_strength=opts.ultimate_strength,
         yield_strength=opts.yield_strength,
         fatigue_strength_coefficient=opts.fatigue_strength_coefficient,
-        walker_exponent=opts.walker_exponent, compressive_mean=opts.compressive_mean)
+        walker_exponent=opts.walker_exponent, compressive_mean=opts.compressive_mean,
+        haigh_diagram=opts.haigh_diagram, haigh_stress_ratio=opts.haigh_stress_ratio)
     rng = 2 * amp * opts.thickness_factor * opts.strength_factor
     return palmgren_miner(table.count, curve.cycles_to_failure(rng)), over
 
@@ -149,7 +155,8 @@ def test_compiled_path_equals_numpy_definitions(x, method, curve, policy):
     opts = AssessmentOptions(mean_stress_method=method, ultimate_strength=450.0,
                              yield_strength=300.0, fatigue_strength_coefficient=900.0,
                              walker_exponent=0.6, compressive_mean=policy, load_factor=1.2,
-                             thickness_factor=1.05, reserve_factor=False)
+                             thickness_factor=1.05, reserve_factor=False,
+                             haigh_diagram=HAIGH, haigh_stress_ratio=-1.0)
     table = astm_e1049(x)
     c = catalogue_curve(curve)
     r = assess(table, c, opts)
@@ -504,3 +511,25 @@ def test_first_pass_along_at_real_sizes():
     _identical(along, assess(astm_e1049(x), EN71, opts))
     with one_thread():
         _identical(along, assess_history(x, EN71, opts))
+
+
+
+def test_a_haigh_diagram_through_the_whole_assessment():
+    # The reserve factor with a user's Haigh diagram (nonlinear in the
+    # load, like Goodman) brings the damage to the allowable sum, and a
+    # diagram referred to another R than the curve's is cautioned.
+    rng = np.random.default_rng(8)
+    x = 120 + np.cumsum(rng.normal(0, 20, 3000))
+    x = 80 + 150 * (x - x.mean()) / np.abs(x - x.mean()).max()
+    from dataclasses import replace
+
+    curve = replace(basquin_range(4.0, 1e14), stress_ratio=-1.0)   # tested fully reversed
+    opts = AssessmentOptions(mean_stress_method="haigh", haigh_diagram=HAIGH)
+    r = assess_history(x, curve, opts)
+    again = assess_history(x * r.reserve_factor, curve,
+                           AssessmentOptions(mean_stress_method="haigh", haigh_diagram=HAIGH,
+                                             reserve_factor=False))
+    assert again.damage == pytest.approx(1.0, rel=1e-6)
+    other = assess_history(x, curve, AssessmentOptions(
+        mean_stress_method="haigh", haigh_diagram=HAIGH, haigh_stress_ratio=0.0))
+    assert "haigh_ratio_mismatch" in {c.code for c in other.cautions}

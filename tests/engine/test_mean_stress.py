@@ -66,7 +66,7 @@ def test_goodman_at_least_gerber_for_tensile_means(a, m):
        st.sampled_from(ms.COMPRESSIVE_MEAN_POLICIES))
 def test_never_nan_never_negative(a, m, method, policy):
     kw = {"ultimate_strength": SU, "yield_strength": SY, "fatigue_strength_coefficient": SF,
-          "walker_exponent": 0.6}
+          "walker_exponent": 0.6, "haigh_diagram": [[-200, 150], [0, 120], [350, 0]]}
     out, over = ms.equivalent_amplitude([a], [m], method, compressive_mean=policy, **kw)
     assert not np.isnan(out[0]) and out[0] >= 0
     assert over[0] == (math.isinf(out[0]))
@@ -191,3 +191,38 @@ def test_the_codes_rules_on_a_welded_curve_raise_no_mismatch_caution():
     r = assess_history(x, catalogue_curve("IIW:FAT90"),
                        AssessmentOptions(mean_stress_method="goodman", ultimate_strength=500.0))
     assert "mean_stress_on_welded_curve" in {c.code for c in r.cautions}
+
+
+
+# ---------------------------------------------------------------- a user's Haigh diagram
+
+# Invented test points (mean, amplitude) at one life [MPa]; the curve is for
+# R = -1 unless said otherwise.
+POINTS = [[-250.0, 180.0], [0.0, 150.0], [200.0, 100.0], [400.0, 0.0]]
+
+
+@pytest.mark.parametrize("a, m, expected", [
+    (100.0, 0.0, 100.0),                       # on the curve's own ratio: as is
+    (100.0, 100.0, 100.0 * 150.0 / 125.0),     # A(100) = 125 by hand
+    (50.0, 300.0, 50.0 * 150.0 / 50.0),        # A(300) = 50
+    (80.0, -100.0, 80.0 * 150.0 / 162.0),      # A(-100) = 150 + 30 * 100/250 = 162
+    (80.0, -400.0, 80.0 * 150.0 / 180.0),      # held beyond the first point
+])
+def test_haigh_diagram_by_hand(a, m, expected):
+    out, over = ms.equivalent_amplitude([a], [m], "haigh", haigh_diagram=POINTS)
+    assert out[0] == pytest.approx(expected, rel=1e-12) and not over[0]
+
+
+def test_haigh_diagram_breakdown_and_the_curves_ratio():
+    out, over = ms.equivalent_amplitude([10.0], [400.0], "haigh", haigh_diagram=POINTS)
+    assert math.isinf(out[0]) and over[0]                # zero amplitude: static
+    # A curve for R = 0: the reference is where sm = sa meets the diagram,
+    # A(a) = a on the segment 0..200: 150 - 0.25 a = a, a = 120 (by hand).
+    assert ms.haigh_reference(ms.check_haigh(POINTS), 0.0) == pytest.approx(120.0, rel=1e-12)
+    out, _ = ms.equivalent_amplitude([120.0], [120.0], "haigh", haigh_diagram=POINTS,
+                                     haigh_stress_ratio=0.0)
+    assert out[0] == pytest.approx(120.0, rel=1e-9)       # R = 0 on an R = 0 curve
+    with pytest.raises(InvalidParameter):
+        ms.equivalent_amplitude([1.0], [1.0], "haigh", haigh_diagram=[[0, 100], [-5, 50]])
+    with pytest.raises(InvalidParameter):
+        ms.equivalent_amplitude([1.0], [1.0], "haigh")     # no diagram
