@@ -398,7 +398,8 @@ def warm_up() -> None:
     for method in MEAN_STRESS_METHODS:
         opts = AssessmentOptions(mean_stress_method=method, ultimate_strength=900.0,
                                  yield_strength=600.0, fatigue_strength_coefficient=1200.0,
-                                 walker_exponent=0.5)
+                                 walker_exponent=0.5,
+                                 haigh_diagram=((0.0, 300.0), (800.0, 0.0)))
         assess_history(x, curve, opts)
     from .many import assess_many
 

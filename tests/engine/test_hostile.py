@@ -36,7 +36,8 @@ def _no_nan(r):
 def test_assessment_of_hostile_histories(values, method):
     opts = AssessmentOptions(mean_stress_method=method, ultimate_strength=500.0,
                              yield_strength=400.0, fatigue_strength_coefficient=900.0,
-                             walker_exponent=0.5)
+                             walker_exponent=0.5,
+                             haigh_diagram=((-200.0, 220.0), (0.0, 200.0), (450.0, 0.0)))
     try:
         r = assess_history(values, catalogue_curve("EN1993-1-9:71"), opts)
     except EngineError as exc:
