@@ -226,3 +226,27 @@ def test_haigh_diagram_breakdown_and_the_curves_ratio():
         ms.equivalent_amplitude([1.0], [1.0], "haigh", haigh_diagram=[[0, 100], [-5, 50]])
     with pytest.raises(InvalidParameter):
         ms.equivalent_amplitude([1.0], [1.0], "haigh")     # no diagram
+
+
+def test_a_stress_relieved_detail_under_r_0_worked_by_hand():
+    # IIW recommendations 2016 sec. 3.5.2 (from memory), case 1: at R = 0 the
+    # FAT class is raised by f(0) = 1.2. 100 MPa ranges at R = 0 (0 -> 100)
+    # on FAT 90: N = 2e6 (1.2 * 90 / 100)^3 = 2.519e6 cycles (m = 3 above the
+    # knee at 1e7), so 1e5 cycles use 1e5 / 2.519e6 of the life.
+    from service.engine.assessment import AssessmentOptions
+    from service.engine.damage import assess_history
+    from service.engine.sn_catalogue import catalogue_curve
+
+    x = np.tile([0.0, 100.0], 100_001)[:-1]        # 1e5 full cycles and a closing half
+    r = assess_history(x, catalogue_curve("IIW:FAT90"),
+                       AssessmentOptions(mean_stress_method="iiw_enhancement_case1",
+                                         reserve_factor=False))
+    n_f = 2e6 * (1.2 * 90.0 / 100.0) ** 3
+    assert n_f == pytest.approx(2.519e6, rel=1e-3)
+    assert r.damage == pytest.approx(r.cycles_counted / n_f, rel=1e-9)
+    # EN 1993-1-9 7.2.1(2): the same range fully in compression counts 60 %.
+    y = np.tile([-100.0, 0.0], 100_001)[:-1]
+    en = assess_history(y, catalogue_curve("EN1993-1-9:71"),
+                        AssessmentOptions(mean_stress_method="en1993_reduced_compression",
+                                          reserve_factor=False))
+    assert en.damage == pytest.approx(en.cycles_counted / (2e6 * (71 / 60.0) ** 3), rel=1e-9)
