@@ -263,25 +263,24 @@ def _first_loading(x, rule, e_mod, k, inv_n, n):
 
 
 @kernel
-def _local_states(x, rule, e_mod, k, inv_n, n, sig, eps):
+def _follow(x, rule, e_mod, k, inv_n, n, sig, eps, st_x, st_s, st_e, sp):
     """Local stress and strain at each turning point ``x`` (pseudo stress or
-    strain), following the material's memory from an unloaded start."""
+    strain), following the material's memory: the stack ``st_x, st_s,
+    st_e`` (``sp`` entries; room for ``sp + len(x)``) holds the open
+    reversal points and is left as it stands after the last point (so a
+    history can be followed block by block). Returns the new ``sp``."""
     m = x.shape[0]
-    stack = np.empty(m, np.int64)
-    sp = 0
     for j in range(m):
         v = x[j]
         while True:
             if sp >= 2:
-                r = stack[sp - 1]
-                q = stack[sp - 2]
-                if abs(v - x[r]) >= abs(x[q] - x[r]):
-                    sp -= 2  # the loop q-r closes: the interrupted branch goes on
+                if abs(v - st_x[sp - 1]) >= abs(st_x[sp - 2] - st_x[sp - 1]):
+                    sp -= 2  # the loop closes: the interrupted branch goes on
                     continue
             elif sp == 1:
-                r = stack[0]
+                r = st_x[0]
                 # The first-loading curve is met again at the mirror of r.
-                if (v - x[r]) * x[r] < 0.0 and abs(v - x[r]) >= 2.0 * abs(x[r]):
+                if (v - r) * r < 0.0 and abs(v - r) >= 2.0 * abs(r):
                     sp = 0
                     continue
             break
@@ -291,27 +290,67 @@ def _local_states(x, rule, e_mod, k, inv_n, n, sig, eps):
             sig[j] = sgn * s
             eps[j] = sgn * (s / e_mod + (s / k) ** inv_n)
         else:
-            r = stack[sp - 1]
-            dv = abs(v - x[r])
+            dv = abs(v - st_x[sp - 1])
             half = _first_loading(0.5 * dv, rule, e_mod, k, inv_n, n)
-            sgn = 1.0 if v >= x[r] else -1.0
-            sig[j] = sig[r] + sgn * 2.0 * half
-            eps[j] = eps[r] + sgn * 2.0 * (half / e_mod + (half / k) ** inv_n)
-        stack[sp] = j
+            sgn = 1.0 if v >= st_x[sp - 1] else -1.0
+            sig[j] = st_s[sp - 1] + sgn * 2.0 * half
+            eps[j] = st_e[sp - 1] + sgn * 2.0 * (half / e_mod + (half / k) ** inv_n)
+        st_x[sp] = v
+        st_s[sp] = sig[j]
+        st_e[sp] = eps[j]
         sp += 1
+    return sp
+
+
+@dataclass
+class Memory:
+    """The open reversal points of a followed history (oldest first): the
+    input value, local stress [MPa] and strain [-] of each; empty for an
+    unloaded start."""
+
+    x: list
+    stress: list
+    strain: list
+
+    @classmethod
+    def empty(cls) -> "Memory":
+        return cls([], [], [])
+
+    def to_dict(self) -> dict:
+        return {"x": list(map(float, self.x)), "stress": list(map(float, self.stress)),
+                "strain": list(map(float, self.strain))}
+
+    @classmethod
+    def from_dict(cls, data: dict) -> "Memory":
+        return cls(list(data["x"]), list(data["stress"]), list(data["strain"]))
+
+
+def follow(x, material: StrainLifeMaterial, rule: str, memory: Memory | None = None):
+    """``(stress, strain, memory)``: the local state at each turning point
+    ``x`` (in order) starting from ``memory`` (an unloaded start if None),
+    and the memory after the last. [MPa], [-]"""
+    x = np.ascontiguousarray(x, dtype=np.float64)
+    memory = memory or Memory.empty()
+    sp = len(memory.x)
+    st_x = np.empty(sp + x.shape[0])
+    st_s = np.empty_like(st_x)
+    st_e = np.empty_like(st_x)
+    st_x[:sp], st_s[:sp], st_e[:sp] = memory.x, memory.stress, memory.strain
+    sig = np.empty_like(x)
+    eps = np.empty_like(x)
+    m = material
+    sp = _follow(x, _RULE_CODES[rule], float(m.youngs_modulus),
+                 float(m.cyclic_strength_coefficient), 1.0 / m.cyclic_hardening_exponent,
+                 float(m.cyclic_hardening_exponent), sig, eps, st_x, st_s, st_e, sp)
+    return sig, eps, Memory(st_x[:sp].tolist(), st_s[:sp].tolist(), st_e[:sp].tolist())
 
 
 def local_states(x, material: StrainLifeMaterial, rule: str):
     """``(stress, strain)`` at the notch root for each turning point ``x``
     (pseudo-elastic stress [MPa] for ``neuber``/``glinka``, strain [-] for
-    ``strain``), with Masing branches and memory. [MPa], [-]"""
-    x = np.ascontiguousarray(x, dtype=np.float64)
-    sig = np.empty_like(x)
-    eps = np.empty_like(x)
-    m = material
-    _local_states(x, _RULE_CODES[rule], float(m.youngs_modulus),
-                  float(m.cyclic_strength_coefficient), 1.0 / m.cyclic_hardening_exponent,
-                  float(m.cyclic_hardening_exponent), sig, eps)
+    ``strain``), with Masing branches and memory, from an unloaded start.
+    [MPa], [-]"""
+    sig, eps, _ = follow(x, material, rule)
     return sig, eps
 
 
