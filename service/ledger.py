@@ -30,7 +30,9 @@ from service.engine._threads import in_one_thread
 from service.engine.damage import AssessmentOptions, assess
 from service.engine.errors import InvalidLoadHistory, InvalidParameter, unknown
 from service.engine.rainflow import CountingState, close_residue, count_block
-from service.engine.settings import point_from_dict, resolve, screening_from_dict
+from service.engine.settings import (is_strain_life, point_from_dict, resolve,
+                                     screening_from_dict, strain_life_from_dict)
+from service.engine.strain_life_blocks import LocalState, close_local, count_block_local
 from service.store import ledger as sql
 from service.store import parquet, sqlite
 
@@ -59,10 +61,6 @@ def check_settings(settings, lookup) -> tuple[dict, dict]:
     """
     if not isinstance(settings, dict):
         raise InvalidParameter("settings must be an object", field="settings")
-    if settings.get("method", "stress_life") != "stress_life":
-        raise InvalidParameter("ledger points are assessed by stress-life; strain-life points "
-                               "are offered in assessments (the loops' memory across blocks "
-                               "is not kept yet)", field="method")
     toe = None
     if "hot_spot" in settings:
         # A hot-spot point: its gauges arrive as channels of the blocks.
@@ -80,7 +78,13 @@ def check_settings(settings, lookup) -> tuple[dict, dict]:
         raise InvalidParameter(f"gate {gate!r} must be a number >= 0 (MPa)", field="gate")
     body = {k: v for k, v in settings.items() if k not in ("gate", "hot_spot")}
     resolved = resolve(body, lookup) if lookup else body
-    point_from_dict(resolved)
+    if is_strain_life(resolved):
+        if toe is not None:
+            raise InvalidParameter("a hot-spot point is assessed on hot-spot S-N curves, not "
+                                   "by strain-life", field="method")
+        strain_life_from_dict(resolved)
+    else:
+        point_from_dict(resolved)
     resolved = {**resolved, "gate": float(gate)}
     if toe is not None:
         resolved["hot_spot"] = toe
@@ -94,11 +98,17 @@ def gauges_of(row: dict) -> list[str] | None:
 
 
 def _model(resolved: dict):
+    """``(curve, opts, gate, policy, thresholds, strain)``: ``strain`` is
+    ``(material, params)`` for a strain-life point (curve None), else None."""
     settings = {k: v for k, v in resolved.items() if k not in ("gate", "hot_spot")}
+    policy, thresholds = screening_from_dict(settings)
+    gate = float(resolved.get("gate", 0.0))
+    if is_strain_life(settings):
+        material, params, opts = strain_life_from_dict(settings)
+        return None, opts, gate, policy, thresholds, (material, params)
     curve, opts, _ = point_from_dict(settings)
     opts = replace(opts, reserve_factor=False, top_cycles=0)
-    policy, thresholds = screening_from_dict(settings)
-    return curve, opts, float(resolved.get("gate", 0.0)), policy, thresholds
+    return curve, opts, gate, policy, thresholds, None
 
 
 def screened(name: str, samples: np.ndarray, rate, model) -> tuple[np.ndarray, list]:
@@ -106,7 +116,7 @@ def screened(name: str, samples: np.ndarray, rate, model) -> tuple[np.ndarray, l
     of its screening: by the point's policy reported, refused (422 naming
     the point and the sample: nothing is stored) or cleaned (the same
     cleaning again on every recount, so totals stay exact)."""
-    _, _, _, policy, thresholds = model
+    policy, thresholds = model[3], model[4]
     if policy == "off":
         return samples, []
     findings = screening.screen(samples, rate, thresholds)
@@ -158,7 +168,9 @@ def _start(row: dict) -> dict:
 def _advance(totals: dict, samples: np.ndarray, block: dict, model) -> dict:
     """Totals after counting one more block of a point (``samples`` as
     :func:`screened` gives them)."""
-    curve, opts, gate, _, _ = model
+    curve, opts, gate, _, _, strain = model
+    if strain is not None:
+        return _advance_strain_life(totals, samples, block, opts, gate, *strain)
     state = (CountingState.from_dict(totals["counting_state"])
              if totals["counting_state"] else None)
     table, state = count_block(samples, state, gate=gate)
@@ -167,6 +179,31 @@ def _advance(totals: dict, samples: np.ndarray, block: dict, model) -> dict:
     return {"last_seq": totals["last_seq"], "counting_state": state.to_dict(),
             "damage": totals["damage"] + d, "residue_damage": residue,
             "cycles": totals["cycles"] + table.total_count,
+            "hours": totals["hours"] + samples.shape[0] / block["sample_rate_hz"] / _HOUR_S,
+            "overload": totals["overload"] or over,
+            "last_block_at": block.get("recorded_at") or block["created_at"]}
+
+
+def _advance_strain_life(totals, samples, block, opts, gate, material, params) -> dict:
+    """:func:`_advance` for a strain-life point: the block followed through
+    the notch with the memory and the residue's local states carried in the
+    point's state (``engine.strain_life_blocks``), so the totals equal the
+    whole history assessed at once."""
+    kind = params["input_kind"]
+    scale = (params["kt"] if kind == "nominal"
+             else 1.0 / material.youngs_modulus if kind == "local_strain" else 1.0)
+    rule = "strain" if kind == "local_strain" else params["rule"]
+    msm = params["mean_stress_method"]
+    held = (totals["counting_state"] or {}).get("strain_life")
+    state = LocalState.from_dict(held) if held else None
+    loops, state = count_block_local(samples * scale, state, material, rule=rule,
+                                     mean_stress_method=msm, gate=gate * scale)
+    tail = close_local(state, material, rule=rule, mean_stress_method=msm)
+    over = bool(np.any(loops["reversals_to_failure"] == 0.0))
+    d = math.inf if over else float(np.sum(loops["damage"]))
+    return {"last_seq": totals["last_seq"], "counting_state": {"strain_life": state.to_dict()},
+            "damage": totals["damage"] + d, "residue_damage": float(np.sum(tail["damage"])),
+            "cycles": totals["cycles"] + float(np.sum(loops["count"])),
             "hours": totals["hours"] + samples.shape[0] / block["sample_rate_hz"] / _HOUR_S,
             "overload": totals["overload"] or over,
             "last_block_at": block.get("recorded_at") or block["created_at"]}

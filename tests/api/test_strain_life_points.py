@@ -78,9 +78,39 @@ def test_an_estimated_material_is_labelled_and_bad_settings_refused(client):
         r = client.post("/v1/assessments", json={"samples": {"g": x.tolist()}, "unit": "MPa",
                                                  "settings": settings})
         assert r.status_code == 422 and r.get_json()["field"] == field, (settings, r.get_json())
-    # The ledger does not take strain-life points yet, and says so.
+    # A hot-spot point cannot be a strain-life point.
     client.post("/v1/assets", json={"name": "lug"})
     r = client.post("/v1/assets/lug/points", json={
-        "name": "a", "unit": "MPa", "settings": {"method": "strain_life",
-                                                 "strain_life": {"material": MATERIAL}}})
+        "name": "a", "unit": "MPa", "settings": {
+            "method": "strain_life", "strain_life": {"material": MATERIAL},
+            "hot_spot": {"gauges": ["a", "b", "c"], "extrapolation": "fixed_distance"}}})
     assert_problem(r, 422, "invalid-parameter", field="method")
+
+
+def test_a_ledger_strain_life_point_equals_the_whole_history(client):
+    # Issue 20: block by block, the material memory and the residue's local
+    # states carried in the point's state; after the last block the damage
+    # with the residue closed (damage_if_ended) is that of the whole history
+    # assessed at once, and a void recounts from the stored blocks.
+    from tests.api.test_ledger import post
+
+    x = nominal(5000, seed=4)
+    client.post("/v1/assets", json={"name": "lug"})
+    r = client.post("/v1/assets/lug/points", json={
+        "name": "bore", "unit": "MPa", "settings": {
+            "method": "strain_life", "gate": 2.0, "strain_life": {
+                "material": MATERIAL, "kt": 2.6, "mean_stress_method": "morrow"}}})
+    assert r.status_code == 201, r.get_json()
+    ids = [post(client, "lug", seq, {"bore": part}, rate=100.0).get_json()["block"]["id"]
+           for seq, part in enumerate(np.split(x, [1700, 1702, 3900]), 1)]
+    point = client.get("/v1/assets/lug/points/bore").get_json()
+    mat = sl.StrainLifeMaterial(**MATERIAL)
+    whole = sl.assess_strain_life(x, mat, kt=2.6, mean_stress_method="morrow", gate=2.0,
+                                  reserve_factor=False)
+    assert point["damage_if_ended"] == pytest.approx(whole.damage, rel=1e-12)
+    assert point["cycles_counted"] < whole.cycles_counted   # the residue still open
+    assert client.post(f"/v1/assets/lug/blocks/{ids[2]}/void").status_code == 200
+    point = client.get("/v1/assets/lug/points/bore").get_json()
+    kept = sl.assess_strain_life(np.concatenate([x[:1702], x[3900:]]), mat, kt=2.6,
+                                 mean_stress_method="morrow", gate=2.0, reserve_factor=False)
+    assert point["damage_if_ended"] == pytest.approx(kept.damage, rel=1e-12)
