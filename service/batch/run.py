@@ -22,7 +22,7 @@ from service.engine import cautions as _cautions
 from service.engine.errors import InvalidParameter
 from service.engine.rainflow import resolve_gate
 from service.runs import json_safe
-from service.engine.settings import point_from_dict
+from service.engine.settings import is_strain_life, point_from_dict, strain_life_from_dict
 
 from .dataset import Dataset, partitions
 from .tasks import RESULT_COLUMNS, _failed, assess_group
@@ -74,7 +74,10 @@ def run_batch(dataset: Dataset, settings: dict, client, *,
     """
     from distributed import as_completed
 
-    point_from_dict(settings)
+    if is_strain_life(settings):
+        strain_life_from_dict(settings)
+    else:
+        point_from_dict(settings)
     resolve_gate(np.zeros(1), gate, gate_fraction)  # a bad gate fails here, not per task
     if partition_points < 1:
         raise ValueError("partition_points must be at least 1")

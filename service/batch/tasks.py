@@ -10,6 +10,7 @@ the group's other points go on.
 
 from __future__ import annotations
 
+import math
 import os
 import resource
 import threading
@@ -21,8 +22,11 @@ from service.engine import hot_spot
 from service.engine import units as engine_units
 from service.engine.damage import assess
 from service.engine.errors import EngineError
+from service.engine.errors import InvalidParameter
 from service.engine.rainflow import CycleTable, close_residue, count_block, resolve_gate
-from service.engine.settings import point_from_dict
+from service.engine.strain_life_blocks import close_local, count_block_local
+from service.engine.settings import (STRAIN_LIFE_SHARED, is_strain_life, point_from_dict,
+                                     strain_life_from_dict)
 
 from .dataset import read_group
 
@@ -53,12 +57,23 @@ def assess_group(files, layout: str, points: list[str], settings: dict, *,
     probe = _RssProbe() if measure_memory else None
     overrides = overrides or {}
     models, rows, states, tables, counts, failed, toes = {}, {}, {}, {}, {}, {}, {}
+    strain, local = {}, {}
     for p in points:
         own = dict(overrides.get(p, {}))
         try:
             if "hot_spot" in own:
                 toes[p] = declarations.hot_spot_spec(p, own.pop("hot_spot"), None)
-            models[p] = point_from_dict({**settings, **own})
+            base = settings
+            if own.get("method") == "strain_life":
+                base = {k: v for k, v in settings.items() if k in STRAIN_LIFE_SHARED}
+            merged = {**base, **own}
+            if is_strain_life(merged):
+                if p in toes:
+                    raise InvalidParameter("a hot-spot point is assessed on hot-spot S-N "
+                                           "curves, not by strain-life", field="method")
+                strain[p] = strain_life_from_dict(merged)
+            else:
+                models[p] = point_from_dict(merged)
         except EngineError as exc:
             failed[p] = exc.message
     live = [p for p in points if p not in failed]
@@ -68,6 +83,10 @@ def assess_group(files, layout: str, points: list[str], settings: dict, *,
         for p, mpa in _file_histories(f, layout, live, toes, unit, youngs_modulus,
                                       failed).items():
             try:
+                if p in strain:
+                    _strain_block(p, mpa, strain[p], gates[p], local)
+                    counts[p] = counts.get(p, 0) + mpa.shape[0]
+                    continue
                 table, states[p] = count_block(mpa, states.get(p), gate=gates[p])
             except EngineError as exc:
                 # count_block numbers samples across the whole history.
@@ -84,9 +103,12 @@ def assess_group(files, layout: str, points: list[str], settings: dict, *,
         if counts.get(p, 0) < 2:
             rows[p] = _failed(p, "fewer than two samples in the dataset")
             continue
+        duration = counts[p] / sample_rate_hz if sample_rate_hz else None
+        if p in strain:
+            rows[p] = _strain_row(p, strain[p], local.pop(p), counts[p], duration, gates[p])
+            continue
         curve, opts, _ = models[p]
         table = CycleTable.concat(tables.pop(p) + [close_residue(states.pop(p))])
-        duration = counts[p] / sample_rate_hz if sample_rate_hz else None
         try:
             r = assess(table, curve, opts, duration_s=duration)
         except EngineError as exc:
@@ -104,6 +126,53 @@ def assess_group(files, layout: str, points: list[str], settings: dict, *,
             "peak_rss_kb": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss,
             "seconds": time.perf_counter() - t0,
             "rss_rise_bytes": probe.stop() if probe else None}
+
+
+def _strain_params(model):
+    material, params, _ = model
+    kind = params["input_kind"]
+    scale = (params["kt"] if kind == "nominal"
+             else 1.0 / material.youngs_modulus if kind == "local_strain" else 1.0)
+    return material, scale, "strain" if kind == "local_strain" else params["rule"], \
+        params["mean_stress_method"]
+
+
+def _strain_block(p, mpa, model, gate, local) -> None:
+    """One file of a strain-life point followed through the notch, the
+    memory carried to the next file (``engine.strain_life_blocks``)."""
+    material, scale, rule, msm = _strain_params(model)
+    held = local.get(p) or {"state": None, "damage": 0.0, "cycles": 0.0, "over": 0,
+                            "max_amp": 0.0}
+    loops, held["state"] = count_block_local(mpa * scale, held["state"], material, rule=rule,
+                                             mean_stress_method=msm, gate=gate * scale)
+    held["damage"] += float(np.sum(loops["damage"]))
+    held["cycles"] += float(np.sum(loops["count"]))
+    held["over"] += int(np.sum(loops["reversals_to_failure"] == 0.0))
+    if len(loops["count"]):
+        held["max_amp"] = max(held["max_amp"], float(np.max(loops["strain_amplitude"])))
+    local[p] = held
+
+
+def _strain_row(p, model, held, samples, duration, gate) -> dict:
+    """A strain-life point's result row: the files' loops and the residue
+    closed as half cycles (the reserve factor is not searched in batches)."""
+    material, scale, rule, msm = _strain_params(model)
+    opts = model[2]
+    tail = close_local(held["state"], material, rule=rule, mean_stress_method=msm)
+    over = held["over"] + int(np.sum(tail["reversals_to_failure"] == 0.0))
+    damage = math.inf if over else held["damage"] + float(np.sum(tail["damage"]))
+    cycles = held["cycles"] + float(np.sum(tail["count"]))
+    life = 0.0 if over else (math.inf if damage == 0 else opts.allowable_damage / damage)
+    flags = ["static_overload"] if over else (
+        ["allowable_reached"] if damage >= opts.allowable_damage else [])
+    return {"point": p, "status": "ok", "damage": damage, "damage_per_repeat": None,
+            "life_repeats": life, "life_hours": (life * duration / 3600.0 if duration
+                                                 else None),
+            "life_cycles": life * cycles if math.isfinite(life) else math.inf,
+            "reserve_factor": None, "equivalent_range": None, "cycles_counted": cycles,
+            "max_range": None, "reserve_limited_by": None, "overload_cycles": over,
+            "samples": samples, "gate_mpa": gate, "flags": ";".join(flags),
+            "cautions": "strain_life_method", "error": None}
 
 
 def _file_histories(f, layout, points, toes, unit, youngs_modulus, failed) -> dict:

@@ -236,6 +236,33 @@ def test_cli_batch_assesses_hot_spot_points_from_their_gauges(tmp_path, capsys):
     assert "hs9" in capsys.readouterr().err
 
 
+def test_batch_strain_life_points_equal_the_whole_history(tmp_path):
+    # Issue 20: a strain-life point read file by file (memory and residue
+    # states carried across the file joins) gives the whole history's
+    # damage; stress-life points beside it are untouched.
+    from service.engine import strain_life as sl
+
+    full = histories(3, 2400, seed=13)
+    write_wide(tmp_path, full, pieces=3)
+    material = {"youngs_modulus": 206000.0, "cyclic_strength_coefficient": 1150.0,
+                "cyclic_hardening_exponent": 0.16, "fatigue_strength_coefficient": 1050.0,
+                "fatigue_strength_exponent": -0.085, "fatigue_ductility_coefficient": 0.45,
+                "fatigue_ductility_exponent": -0.6}
+    overrides = {"p01": {"method": "strain_life", "strain_life": {
+        "material": material, "kt": 3.0, "mean_stress_method": "smith_watson_topper"}}}
+    with connect(threads=2) as c:
+        res = run_batch(open_dataset(tmp_path), SETTINGS, c, partition_points=2,
+                        overrides=overrides)
+    rows = {r["point"]: r for r in res.rows}
+    ref = sl.assess_strain_life(full["p01"], sl.StrainLifeMaterial(**material), kt=3.0,
+                                mean_stress_method="smith_watson_topper", reserve_factor=False)
+    assert rows["p01"]["status"] == "ok", rows["p01"]
+    assert rows["p01"]["damage"] == pytest.approx(ref.damage, rel=1e-12)
+    assert rows["p01"]["cycles_counted"] == ref.cycles_counted
+    other = assess_history(full["p00"], EN71, OPTS)
+    assert rows["p00"]["damage"] == pytest.approx(other.damage, rel=1e-12)
+
+
 def test_api_jobs_run_on_the_cluster(tmp_path, two_workers):
     # The API's async jobs use the configured scheduler: same results as
     # the in-process job, and progress from the cluster's tasks.
