@@ -32,6 +32,7 @@ from service.engine.errors import InvalidLoadHistory, InvalidParameter, unknown
 from service.engine.rainflow import CountingState, close_residue, count_block
 from service.engine.settings import (is_strain_life, point_from_dict, resolve,
                                      screening_from_dict, strain_life_from_dict)
+from service.engine.strain_life import pseudo_of_stored
 from service.engine.strain_life_blocks import LocalState, close_local, count_block_local
 from service.store import ledger as sql
 from service.store import parquet, sqlite
@@ -189,10 +190,7 @@ def _advance_strain_life(totals, samples, block, opts, gate, material, params) -
     the notch with the memory and the residue's local states carried in the
     point's state (``engine.strain_life_blocks``), so the totals equal the
     whole history assessed at once."""
-    kind = params["input_kind"]
-    scale = (params["kt"] if kind == "nominal"
-             else 1.0 / material.youngs_modulus if kind == "local_strain" else 1.0)
-    rule = "strain" if kind == "local_strain" else params["rule"]
+    scale, rule = pseudo_of_stored(material, params)
     msm = params["mean_stress_method"]
     held = (totals["counting_state"] or {}).get("strain_life")
     state = LocalState.from_dict(held) if held else None

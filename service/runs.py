@@ -15,8 +15,7 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from service.engine import (cautions, histograms, hot_spot, multiaxial, screening,
-                            strain_life, weld_interaction)
+from service.engine import cautions, histograms, hot_spot, multiaxial, screening
 from service.engine._threads import in_one_thread
 from service.engine.damage import assess, assess_history
 from service.engine.errors import InvalidLoadHistory, InvalidParameter, unknown
@@ -24,7 +23,7 @@ from service.engine.rainflow import RESIDUE_TREATMENTS, CycleTable, astm_e1049, 
 from service.engine.settings import (STRAIN_LIFE_SHARED, USER_CURVE_PREFIX, is_strain_life,
                                      point_from_dict, resolve, screening_from_dict,
                                      strain_life_from_dict, thickness_note)
-from service import declarations
+from service import declarations, point_methods
 from service.store import parquet, sqlite
 
 #: Mean samples a point above which points are assessed on worker threads.
@@ -218,9 +217,10 @@ def assess_point(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
     Its gate fraction applies to the range of its signed von Mises history.
     """
     if point.hot_spot is not None:
-        return _assess_hot_spot(point, gate, gate_fraction, residue, duration_s)
+        return point_methods.assess_hot_spot(point, gate, gate_fraction, residue, duration_s)
     if is_strain_life(point.settings):
-        return _assess_strain_life(point, gate, gate_fraction, residue, duration_s)
+        return point_methods.assess_strain_life(point, gate, gate_fraction, residue,
+                                                duration_s)
     curve, opts, estimate = point_from_dict(point.settings)
     policy, thresholds = screening_from_dict(point.settings)
     rate = point.sample_count / duration_s if duration_s else None
@@ -230,11 +230,8 @@ def assess_point(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
     signal = None
     interaction_flag = None
     if point.multiaxial is None:
-        findings = _screened(point.name, point.samples, rate, policy, thresholds)
-        samples, cleaned = point.samples, None
-        if findings and policy == "clean":
-            samples, done = screening.clean(point.samples, findings, thresholds)
-            cleaned = {"done": done}
+        samples, findings, cleaned = screen_channel(point.name, point.samples, rate, policy,
+                                                    thresholds)
         g = resolve_gate(samples, gate or 0.0, gate_fraction)
         if findings:
             # Counted here to keep the cycles' sample indices for the shares.
@@ -275,7 +272,7 @@ def assess_point(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
         extra_cautions += list(m.cautions)
         block = {**spec, **m.summary()}
         if "shear_interaction" in spec:
-            inter = _interaction(spec, comps, curve, opts, shear_curve, shear_opts,
+            inter = point_methods.interaction(spec, comps, curve, opts, shear_curve, shear_opts,
                                  m.non_proportional, g, residue, duration_s)
             block["shear_interaction"] = inter.summary()
             extra_cautions += list(inter.cautions)
@@ -286,14 +283,8 @@ def assess_point(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
         # Cleaning a multiaxial point's channels is not offered: the
         # findings are reported (or refused).
         signal = _signal_block("report" if policy == "clean" else policy, findings, None)
-    if signal and signal["findings"]:
-        kinds = sorted({f["kind"] for f in signal["findings"]})
-        shares = [f["damage_share"] for f in signal["findings"]
-                  if f.get("damage_share") is not None]
-        extra_cautions.append(cautions.caution(
-            "signal_findings", kinds=", ".join(kinds),
-            share=(f" (up to {max(shares):.0%} of the damage in cycles they touch)"
-                   if shares else "")))
+    if findings:
+        extra_cautions.append(findings_caution(findings))
     note = thickness_note(settings_used, curve) if point.multiaxial is None or \
         settings_used is point.settings else None
     if note is not None:
@@ -318,131 +309,25 @@ def assess_point(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
     return json_safe(out), r.damage_per_cycle
 
 
-def _assess_hot_spot(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
-    """A hot-spot point: its gauges screened, extrapolated to the weld toe
-    (``engine.hot_spot``), and the hot-spot history assessed as one channel.
-    Cleaning applies to single channels: a hot-spot point's findings are
-    reported (or refused)."""
-    spec = point.hot_spot
-    policy, thresholds = screening_from_dict(point.settings)
-    rate = point.sample_count / duration_s if duration_s else None
-    findings = []
-    for g in spec["gauges"]:
-        for f in _screened(g, point.samples[g], rate, policy, thresholds):
-            f.description = f"{g}: {f.description}"
-            findings.append(f)
-    ex = declarations.hot_spot_plan(spec)
-    history = hot_spot.extrapolate([point.samples[g] for g in spec["gauges"]], ex.weights)
-    inner = PlannedPoint(point.name, history, {**point.settings, "screening": "off"})
-    out, damage_per_cycle = assess_point(inner, gate, gate_fraction, residue, duration_s)
-    unit = "mm"
-    extra = [cautions.caution(
-        "hot_spot_extrapolated", method=ex.method,
-        positions=", ".join(f"{p:.3g} {unit}" for p in ex.positions_mm),
-        weights=", ".join(f"{w:.4g}" for w in ex.weights)), *ex.cautions]
-    if out["curve"]["name"] not in hot_spot.HOT_SPOT_CURVES:
-        extra.append(cautions.caution("hot_spot_curve", curve=out["curve"]["name"]))
-    if findings:
-        table = astm_e1049(history, gate=out["gate_mpa"], residue=residue)
-        screening.damage_shares(findings, table.start_index, table.end_index, damage_per_cycle)
-        shares = [f.damage_share for f in findings if f.damage_share is not None]
-        extra.append(cautions.caution(
-            "signal_findings", kinds=", ".join(sorted({f.kind for f in findings})),
-            share=(f" (up to {max(shares):.0%} of the damage in cycles they touch)"
-                   if shares else "")))
-    out.update(settings_used=point.settings,
-               screening=_signal_block("report" if policy == "clean" else policy, findings,
-                                       None),
-               cautions=out["cautions"] + [c.as_dict() for c in extra],
-               hot_spot={k: v for k, v in spec.items() if k != "kind"})
-    return json_safe(out), damage_per_cycle
-
-
-def _interaction(spec, comps, curve, opts, shear_curve, shear_opts, non_proportional, gate,
-                 residue, duration_s):
-    """The weld's normal stress (``sxx`` or ``syy``, across the weld) and its
-    shear (``sxy``) counted and assessed on their own curves and combined by
-    the declared rule (``engine.weld_interaction``)."""
-    si = spec["shear_interaction"]
-    normal = comps[("sxx", "syy").index(si["normal"])]
-    parts = [assess_history(x, c, o, gate=gate, residue=residue, duration_s=duration_s)
-             for x, c, o in ((normal, curve, opts), (comps[2], shear_curve, shear_opts))]
-    return weld_interaction.check(si["rule"], *parts, normal_component=si["normal"],
-                                  non_proportional=non_proportional, loading=si["loading"],
-                                  comparison_value=si["comparison_value"],
-                                  duration_s=duration_s)
-
-
-def _assess_strain_life(point: PlannedPoint, gate, gate_fraction, residue, duration_s):
-    """A single channel by the local strain approach (``engine.strain_life``):
-    screened like any point, then followed through the notch root loop by
-    loop; the result has the stress-life result's shape (equivalent range
-    and per-repeat figures do not apply: null), and a ``strain_life`` block
-    with the material, the method and the largest local values."""
-    material, params, opts = strain_life_from_dict(point.settings)
-    policy, thresholds = screening_from_dict(point.settings)
-    rate = point.sample_count / duration_s if duration_s else None
-    findings = _screened(point.name, point.samples, rate, policy, thresholds)
-    samples, cleaned = point.samples, None
+def screen_channel(name: str, samples, rate, policy: str, thresholds):
+    """``(samples, findings, cleaned)`` of one channel by its screening
+    policy: the samples to count (cleaned under ``clean``), the findings,
+    and what cleaning did (None when nothing was cleaned)."""
+    findings = _screened(name, samples, rate, policy, thresholds)
     if findings and policy == "clean":
-        samples, done = screening.clean(point.samples, findings, thresholds)
-        cleaned = {"done": done}
-    g = resolve_gate(samples, gate or 0.0, gate_fraction)
-    x = samples / material.youngs_modulus if params["input_kind"] == "local_strain" else samples
-    xg = g / material.youngs_modulus if params["input_kind"] == "local_strain" else g
-    r = strain_life.assess_strain_life(x, material, **params,
-                                       allowable_damage=opts.allowable_damage,
-                                       residue=residue, gate=xg, duration_s=duration_s)
-    loops = r.loops
-    extra = [cautions.caution(
-        "strain_life_method", input=params["input_kind"].replace("_", " "),
-        rule=("" if params["input_kind"] == "local_strain"
-              else f", {params['rule'].capitalize()}'s rule with Kt = {params['kt']:g}"),
-        mean=params["mean_stress_method"].replace("_", "-"), source=material.source)]
-    if material.source.startswith("estimate"):
-        extra.append(cautions.caution("strain_life_estimate", source=material.source))
-    if findings:
-        screening.damage_shares(findings, loops["start_index"], loops["end_index"],
-                                loops["damage"])
-        extra.append(cautions.caution(
-            "signal_findings", kinds=", ".join(sorted({f.kind for f in findings})), share=""))
-    damage = r.damage
-    finite = math.isfinite(damage) and damage > 0
-    top = [{"start_index": t["start_index"], "end_index": t["end_index"], "count": t["count"],
-            "stress_range": None, "stress_mean": t["stress_mean"],
-            "strain_amplitude": t["strain_amplitude"], "stress_max": t["stress_max"],
-            "reversals_to_failure": t["reversals_to_failure"], "damage": t["damage"],
-            "damage_share": t["damage"] / damage if finite else None}
-           for t in r.top_loops(10)]
-    flags = list(r.flags)
-    table_ranges = np.abs(np.diff(x)) if x.shape[0] > 1 else np.zeros(1)
-    out = {
-        "point": point.name, "damage": damage, "damage_per_repeat": None,
-        "residue_damage_share": None, "life_repeats": r.life_repeats,
-        "life_hours": r.life_hours, "life_cycles": r.life_cycles,
-        "reserve_factor": r.reserve_factor,
-        "reserve_limited_by": "fatigue" if r.reserve_factor is not None else None,
-        "equivalent_range": None, "equivalent_slope": None, "equivalent_cycles": None,
-        "cycles_counted": r.cycles_counted, "max_range": float(np.max(table_ranges)) * (
-            material.youngs_modulus if params["input_kind"] == "local_strain" else 1.0),
-        "overload_cycles": int(np.sum(loops["reversals_to_failure"] == 0.0)),
-        "below_limit": None, "flags": flags, "runout": math.isinf(r.life_repeats),
-        "gate_mpa": g, "top_cycles": top,
-        "curve": {"name": "strain-life", "source": material.source,
-                  "family": "strain_life"},
-        "estimate": None,
-        "options": {"allowable_damage": opts.allowable_damage, "residue": residue,
-                    "method": "strain_life", **params},
-        "settings_used": point.settings,
-        "cautions": [c.as_dict() for c in extra],
-        "screening": _signal_block(policy, findings, cleaned),
-        "strain_life": {"material": material.as_dict(),
-                        "transition_reversals": material.transition_reversals(),
-                        "max_strain_amplitude": r.max_strain_amplitude,
-                        "max_stress": r.max_stress, **{k: v for k, v in r.method.items()
-                                                      if k != "gate"}},
-    }
-    return json_safe(out), loops["damage"]
+        samples, done = screening.clean(samples, findings, thresholds)
+        return samples, findings, {"done": done}
+    return samples, findings, None
+
+
+def findings_caution(findings: list):
+    """The ``signal_findings`` caution of a point's findings (with the
+    largest damage share of the cycles they touch, when known)."""
+    shares = [f.damage_share for f in findings if f.damage_share is not None]
+    return cautions.caution(
+        "signal_findings", kinds=", ".join(sorted({f.kind for f in findings})),
+        share=(f" (up to {max(shares):.0%} of the damage in cycles they touch)"
+               if shares else ""))
 
 
 def _screened(channel: str, samples, rate, policy: str, thresholds) -> list:
@@ -546,26 +431,11 @@ def point_cycles(data_dir, assessment: dict, point: str,
     res = assessment["result"]["points"][point]
     samples = point_samples(data_dir, assessment, point, con)
     if is_strain_life(res["settings_used"]):
-        return strain_life_cycles(samples, res)
+        return point_methods.strain_life_cycles(samples, res)
     table = astm_e1049(samples, gate=res["gate_mpa"], residue=res["options"]["residue"])
     curve, opts, _ = point_from_dict(res["settings_used"])
     r = assess(table, curve, replace(opts, reserve_factor=False, top_cycles=0))
     return table, r.damage_per_cycle
-
-
-def strain_life_cycles(samples, res: dict) -> tuple[CycleTable, np.ndarray]:
-    """A strain-life point's cycle table (of the history as sent, MPa) and
-    per-loop damage, recounted as the result was made."""
-    material, params, opts = strain_life_from_dict(res["settings_used"])
-    strain = params["input_kind"] == "local_strain"
-    x = samples / material.youngs_modulus if strain else samples
-    g = res["gate_mpa"] / material.youngs_modulus if strain else res["gate_mpa"]
-    r = strain_life.assess_strain_life(x, material, **params,
-                                       allowable_damage=opts.allowable_damage,
-                                       residue=res["options"]["residue"], gate=g,
-                                       reserve_factor=False)
-    table = astm_e1049(samples, gate=res["gate_mpa"], residue=res["options"]["residue"])
-    return table, r.loops["damage"]
 
 
 def point_samples(data_dir, assessment: dict, point: str, con=None) -> np.ndarray:

@@ -24,6 +24,7 @@ from service.engine.damage import assess
 from service.engine.errors import EngineError
 from service.engine.errors import InvalidParameter
 from service.engine.rainflow import CycleTable, close_residue, count_block, resolve_gate
+from service.engine.strain_life import pseudo_of_stored
 from service.engine.strain_life_blocks import close_local, count_block_local
 from service.engine.settings import (STRAIN_LIFE_SHARED, is_strain_life, point_from_dict,
                                      strain_life_from_dict)
@@ -130,11 +131,8 @@ def assess_group(files, layout: str, points: list[str], settings: dict, *,
 
 def _strain_params(model):
     material, params, _ = model
-    kind = params["input_kind"]
-    scale = (params["kt"] if kind == "nominal"
-             else 1.0 / material.youngs_modulus if kind == "local_strain" else 1.0)
-    return material, scale, "strain" if kind == "local_strain" else params["rule"], \
-        params["mean_stress_method"]
+    scale, rule = pseudo_of_stored(material, params)
+    return material, scale, rule, params["mean_stress_method"]
 
 
 def _strain_block(p, mpa, model, gate, local) -> None:

@@ -406,6 +406,25 @@ def reversals_to_failure(strain_amplitude, material: StrainLifeMaterial, *,
     return out
 
 
+def input_of_stored(material: StrainLifeMaterial, input_kind: str) -> float:
+    """The factor from a channel as the service stores it [MPa] to the
+    engine's input: 1 for stresses, 1/E for a notch-root strain (stored as
+    E times strain, so send it with the material's E as youngs_modulus)."""
+    return 1.0 / material.youngs_modulus if input_kind == "local_strain" else 1.0
+
+
+def pseudo_of_stored(material: StrainLifeMaterial, params: dict) -> tuple[float, str]:
+    """``(factor, rule)`` that turn a stored channel [MPa] into what the
+    notch is followed with: Kt times a nominal stress, an elastic local
+    stress as it is, a notch-root strain as strain (rule ``strain``)."""
+    kind = params["input_kind"]
+    if kind == "nominal":
+        return float(params["kt"]), params["rule"]
+    if kind == "local_strain":
+        return input_of_stored(material, kind), "strain"
+    return 1.0, params["rule"]
+
+
 # ---------------------------------------------------------------------------- assessment
 
 

@@ -77,18 +77,9 @@ def assessment_plot(con, data_dir, row: dict, resource: dict, name: str,
 
 def _strain_life_plot(reads, res: dict, point: str, of: str):
     """The strain-life curve and the worst loops of a strain-life point."""
-    from service.engine import strain_life
-    from service.engine.settings import strain_life_from_dict
+    from service import point_methods
 
-    material, params, opts = strain_life_from_dict(res["settings_used"])
-    samples = reads.samples(point)
-    strain = params["input_kind"] == "local_strain"
-    x = samples / material.youngs_modulus if strain else samples
-    r = strain_life.assess_strain_life(
-        x, material, **params, allowable_damage=opts.allowable_damage,
-        residue=res["options"]["residue"],
-        gate=res["gate_mpa"] / material.youngs_modulus if strain else res["gate_mpa"],
-        reserve_factor=False)
+    material, r = point_methods.recount_strain_life(reads.samples(point), res)
     return plots.strain_life(material, r.loops,
                              title=f"Strain-life curve and loops: point {point} ({of})")
 

@@ -39,6 +39,11 @@ def test_a_notch_point_by_strain_life(client):
     assert p["reserve_factor"] == pytest.approx(ref.reserve_factor, rel=1e-9)
     assert p["life_hours"] == pytest.approx(ref.life_hours, rel=1e-12)
     assert p["strain_life"]["notch_rule"] == "glinka" and p["curve"]["name"] == "strain-life"
+    # max_range is the largest counted range of the history as sent (as in
+    # stress-life), not a step between samples.
+    ranges = np.abs(x[ref.loops["start_index"]] - x[ref.loops["end_index"]])
+    assert p["max_range"] == pytest.approx(ranges.max(), rel=1e-12)
+    assert p["max_range"] > 200.0
     worst = ref.top_loops(1)[0]
     assert p["top_cycles"][0]["strain_amplitude"] == pytest.approx(worst["strain_amplitude"],
                                                                   rel=1e-12)
