@@ -21,10 +21,13 @@ def stop_waitress(server, thread, timeout_s: float = 10.0) -> None:
     try:
         server.trigger.pull_trigger(lambda: [ch.close() for ch in list(server._map.values())])
     except OSError:
-        # The loop ended between the check and the pull (its trigger is
-        # closed with it); there is nothing left to stop.
+        # The loop is ending or has ended between the check and the pull:
+        # its trigger is closed first, the thread returns a moment later.
+        # Only a loop that is still running after the wait is an error.
+        thread.join(timeout=timeout_s)
         if thread.is_alive():
             raise
+        return
     thread.join(timeout=timeout_s)
 
 
