@@ -8,6 +8,7 @@ from service.reports import build
 
 from . import caching, data_dir, db
 from .assessments import load as load_assessment, resource as assessment_resource
+from .duty_cycles import load as load_duty, resource as duty_resource
 from .ledger import _asset, _point
 from .problems import ApiProblem, NotAcceptable, NotFound
 
@@ -65,6 +66,26 @@ def assessment_plot(assessment_id: str, plot: str):
     body = build.assessment_plot(db(), data_dir(), row, assessment_resource(row), plot,
                                  point, fmt)
     return caching.immutable(Response(body, mimetype=_IMAGE[fmt]), etag)
+
+
+@bp.get("/v1/duty-cycles/<duty_id>/report")
+def duty_cycle_report(duty_id: str):
+    """A self-contained HTML page of a duty cycle (fixed once made: ETag, 304)."""
+    row = load_duty(duty_id)
+    etag = caching.etag_of("text/html")
+    return caching.not_modified(etag) or caching.immutable(
+        _html(build.duty_cycle_page(duty_resource(row))), etag)
+
+
+@bp.get("/v1/duty-cycles/<duty_id>/plots/<plot>")
+def duty_cycle_plot(duty_id: str, plot: str):
+    """One plot of a duty cycle (``damage`` or ``events``), SVG or PNG."""
+    fmt = _image_format()
+    row = load_duty(duty_id)
+    if plot not in ("damage", "events"):
+        raise NotFound(f"no plot {plot!r}", field="plot", valid=["damage", "events"])
+    return Response(build.duty_cycle_plots(duty_resource(row), fmt)[plot],
+                    mimetype=_IMAGE[fmt])
 
 
 @bp.get("/v1/assets/<asset>/report")

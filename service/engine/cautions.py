@@ -129,6 +129,16 @@ CAUTION_TEXTS = {
     "haigh_ratio_mismatch": "The Haigh diagram is referred to R = {diagram:g}, but the S-N "
                             "curve is for R = {curve:g}: set haigh_stress_ratio to the curve's "
                             "ratio, or the correction shifts every cycle.",
+    # Duty cycles (engine/duty_cycle.py).
+    "duty_cycle_order": "Cycles formed between events carry {share:.0%} of the design damage; "
+                        "they depend on the order of the events, taken as listed ({order}); "
+                        "in service the order may differ.",
+    "duty_cycle_governing": "Each event's own governing history of this multiaxial or hot-spot "
+                            "point is combined; where the governing reduction or plane differs "
+                            "between events ({which}), the combination mixes planes.",
+    "duty_cycle_short_event": "The event {event!r} is {repeats:.3g} repeats of its recording: "
+                              "fewer than one pass scales its cycles, which holds only if "
+                              "the part of the recording used is like the whole.",
     # Inputs.
     "implausible_value": "The value {field} = {value:.6g} {unit} is unusual for {what}; {hint}.",
 }
@@ -151,7 +161,8 @@ _SEVERITY = {
     "hot_spot_gauge_position": "warning", "hot_spot_gauge_in_notch": "warning",
     "hot_spot_curve": "warning", "shear_interaction_exceeded": "warning",
     "interaction_non_proportional_en": "warning", "strain_life_estimate": "warning",
-    "haigh_ratio_mismatch": "warning",
+    "haigh_ratio_mismatch": "warning", "duty_cycle_order": "warning",
+    "duty_cycle_governing": "warning",
     "low_cycle_regime": "warning", "below_fatigue_limit": "warning",
     "yield_not_checked": "warning",
     "estimate_scatter": "general", "method_choice": "general", "engineer_sign_off": "general",

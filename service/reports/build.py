@@ -114,3 +114,19 @@ def asset_page(con, asset_row: dict) -> str:
             for r in rows}
     return pages.asset_page(asset_row, statuses, svgs)
 
+
+
+def duty_cycle_plots(resource: dict, fmt: str = "svg") -> dict[str, bytes]:
+    """The plots of a duty cycle: design damage by point, event shares."""
+    pts = resource["result"]["points"]
+    damage = plots.damage_by_point(
+        {p: r["damage"] for p, r in pts.items()},
+        {p: r["allowable_damage"] for p, r in pts.items()},
+        title="Design damage by point", what="of the design life")
+    shares = plots.event_shares({p: {e["name"]: e["damage_share"] for e in r["events"]}
+                                 for p, r in pts.items()})
+    return {"damage": plots.render(damage, fmt), "events": plots.render(shares, fmt)}
+
+
+def duty_cycle_page(resource: dict) -> str:
+    return pages.duty_cycle_page(resource, duty_cycle_plots(resource))

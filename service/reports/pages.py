@@ -260,3 +260,69 @@ def asset_page(asset: dict, points: list[dict], plots: dict[str, bytes]) -> str:
             "</section>"]
     return _page(f"Asset {asset['name']}", asset.get("description") or "running damage",
                  body, general_cautions() + [caution("projection_assumes_same_loads")])
+
+
+DUTY_COLUMNS = (("damage", "design damage [-]"), ("allowable_damage", "allowable [-]"),
+                ("reserve_factor", "reserve factor [-]"),
+                ("life_duty_cycles", "life [duty cycles]"), ("life_hours", "life [h]"),
+                ("equivalent_range", "eq. range [MPa]"), ("dominant_event", "dominant event"),
+                ("between_events_share", "between events [-]"))
+
+
+def _verdict(passed) -> str:
+    if passed is None:
+        return "<td class='text' data-field='passed'>no target</td>"
+    if passed:
+        return "<td class='text' data-field='passed'>pass</td>"
+    return "<td class='flag' data-field='passed'>fail</td>"
+
+
+def duty_cycle_page(resource: dict, plots: dict[str, bytes]) -> str:
+    """The page of a duty cycle: verdict per point, events, variants, plots."""
+    res = resource["result"]
+    head = "".join(f"<th>{label}</th>" for _, label in DUTY_COLUMNS)
+    rows = "".join(
+        f"<tr data-point='{html.escape(p)}'><td>{html.escape(p)}</td>{_verdict(r['passed'])}"
+        + "".join(f"<td data-field='{k}'>{fmt(r.get(k))}</td>" for k, _ in DUTY_COLUMNS)
+        + f"{_flags_cell(r['flags'])}</tr>" for p, r in res["points"].items())
+    events = "".join(
+        f"<tr data-event='{html.escape(e['name'])}'><td>{html.escape(e['name'])}</td>"
+        f"<td class='text'>{html.escape(', '.join(f'{k} {v}' for k, v in e['source'].items()))}"
+        f"</td><td class='text'>{html.escape(', '.join(f'{k} {v:g}' for k, v in e['exposure'].items()))}"
+        f"</td><td data-field='repeats'>{fmt(e['repeats'])}</td>"
+        f"<td data-field='hours_per_pass'>{fmt(e['hours_per_pass'])}</td></tr>"
+        for e in res["events"])
+    target = res.get("target") or {}
+    said = ", ".join(f"{k} {v}" for k, v in target.items()) or "none (one duty cycle)"
+    facts = (f"<dl><dt>target</dt><dd>{html.escape(said)}</dd>"
+             f"<dt>duty cycles in the target</dt><dd>{fmt(res['duty_cycles'])}</dd>"
+             f"<dt>hours per duty cycle</dt><dd>{fmt(res['duty_cycle_hours'])}</dd>"
+             f"<dt>distance per duty cycle</dt><dd>{fmt(res['duty_cycle_distance'])}</dd></dl>")
+    body = [f"<section id='summary'><h2>Design life</h2>{facts}<table><thead><tr>"
+            f"<th>point</th><th>verdict</th>{head}<th>flags</th></tr></thead><tbody>{rows}"
+            "</tbody></table></section>",
+            "<section id='events'><h2>Events</h2><table><thead><tr><th>event</th>"
+            "<th>source</th><th>exposure</th><th>repeats per duty cycle</th>"
+            f"<th>hours per pass</th></tr></thead><tbody>{events}</tbody></table></section>"]
+    variants = [(p, n, v) for p, r in res["points"].items() for n, v in r["variants"].items()]
+    if variants:
+        vrows = "".join(
+            f"<tr data-point='{html.escape(p)}' data-variant='{html.escape(n)}'>"
+            f"<td>{html.escape(p)}</td><td class='text'>{html.escape(n)}</td>"
+            f"<td class='text'>{html.escape(str(v['curve']))}</td>{_verdict(v['passed'])}"
+            f"<td data-field='damage'>{fmt(v['damage'])}</td>"
+            f"<td data-field='reserve_factor'>{fmt(v['reserve_factor'])}</td>"
+            f"<td data-field='life_duty_cycles'>{fmt(v['life_duty_cycles'])}</td></tr>"
+            for p, n, v in variants)
+        body.append("<section id='variants'><h2>What if</h2><table><thead><tr><th>point</th>"
+                    "<th>variant</th><th>curve</th><th>verdict</th><th>design damage [-]</th>"
+                    "<th>reserve factor [-]</th><th>life [duty cycles]</th></tr></thead>"
+                    f"<tbody>{vrows}</tbody></table></section>")
+    figs = (_figure("plot-damage", plots["damage"], "Design damage of each point and its "
+                    "allowable sum.")
+            + _figure("plot-events", plots["events"], "Share of each point's design damage "
+                      "by event."))
+    body.append(f"<section id='plots'><h2>Plots</h2><div class='plots'>{figs}</div></section>")
+    return _page(f"Duty cycle {resource.get('name') or resource['id']}",
+                 f"{len(res['events'])} events, {len(res['points'])} points", body,
+                 res["cautions"])

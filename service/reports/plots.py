@@ -301,7 +301,7 @@ def _loop_stress_range(material, strain_range: float) -> float:
 
 
 def damage_by_point(damage: dict[str, float | None], allowable: dict[str, float],
-                    title: str | None = None):
+                    title: str | None = None, what: str = "of the recording"):
     """Damage of each point with its allowable damage sum marked."""
     names = list(damage)
     fig, ax = _figure(6.0, 0.8 + 0.35 * max(len(names), 1))
@@ -322,9 +322,34 @@ def damage_by_point(damage: dict[str, float | None], allowable: dict[str, float]
     # the line is never hidden in the frame.
     top = max([allowable[p] for p in names] + [v for v in finite if np.isfinite(v)] + [1e-6])
     ax.set_xlim(0, top * 3.0)
-    ax.set_xlabel("Miner damage of the recording (bar) and the allowable sum (line) [-] "
+    ax.set_xlabel(f"Miner damage {what} (bar) and the allowable sum (line) [-] "
                   "(log above 1e-6)")
     ax.set_title(title or "Damage by point", color=INK, loc="left")
+    return fig
+
+
+def event_shares(shares: dict[str, dict[str, float]], title: str | None = None):
+    """Each point's design damage split by event (stacked bars, shares of 1).
+
+    ``shares`` is ``{point: {event: share}}``; the events keep one colour
+    each across points."""
+    names = list(shares)
+    events = list(dict.fromkeys(e for p in names for e in shares[p]))
+    fig, ax = _figure(6.4, 1.0 + 0.35 * max(len(names), 1))
+    y = np.arange(len(names))
+    left = np.zeros(len(names))
+    for k, ev in enumerate(events):
+        width = np.array([shares[p].get(ev) or 0.0 for p in names])
+        ax.barh(y, width, left=left, color=SERIES[k % len(SERIES)], label=ev,
+                hatch=None if k < len(SERIES) else "//")
+        left += width
+    ax.set_yticks(y, names)
+    ax.invert_yaxis()
+    ax.set_xlim(0, 1)
+    ax.set_xlabel("share of the design damage [-] (a cycle between two events counts half "
+                  "to each)")
+    ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), frameon=False, fontsize=8)
+    ax.set_title(title or "Which events do the damage", color=INK, loc="left")
     return fig
 
 

@@ -1,6 +1,6 @@
 -- Metadata of the embedded store. Long arrays live in Parquet files beside
 -- the database; a row here names its file. Times are UTC ISO 8601 strings.
-PRAGMA user_version = 10;
+PRAGMA user_version = 11;
 
 -- Every stored thing belongs to a project (a namespace); an API key sees
 -- its own project's rows only. Without keys the service runs as project
@@ -85,6 +85,17 @@ CREATE TABLE IF NOT EXISTS superpositions (
     result          TEXT NOT NULL,   -- JSON: summary and the worst nodes in full
     nodes_file      TEXT NOT NULL    -- Parquet: node, damage, max_abs_equivalent
 );
+
+-- Duty cycles: stored events combined into a design life, with their result.
+CREATE TABLE IF NOT EXISTS duty_cycles (
+    id              TEXT PRIMARY KEY,
+    project         TEXT NOT NULL,
+    name            TEXT,
+    created_at      TEXT NOT NULL,
+    request         TEXT NOT NULL,   -- JSON: events, target, settings, variants as posted
+    result          TEXT NOT NULL    -- JSON: per point design damage, verdict, event shares
+);
+CREATE INDEX IF NOT EXISTS duty_cycles_project ON duty_cycles(project, created_at);
 
 -- What users enter themselves: S-N curves (from points or Basquin constants)
 -- and materials (strengths from a tensile test or a data sheet), by name.

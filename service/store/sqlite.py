@@ -60,7 +60,7 @@ def connect(data_dir: str | Path) -> sqlite3.Connection:
 
 
 #: Version of schema.sql (its PRAGMA user_version).
-SCHEMA_VERSION = 10
+SCHEMA_VERSION = 11
 
 
 class IncompatibleStore(RuntimeError):
@@ -373,6 +373,41 @@ def get_superposition(con, project: str, sup_id: str) -> dict | None:
     out["request"] = json.loads(out["request"])
     out["result"] = json.loads(out["result"])
     return out
+
+
+# ---------------------------------------------------------------- duty cycles
+
+
+def insert_duty_cycle(con, row: dict) -> None:
+    con.execute("INSERT INTO duty_cycles (id, project, name, created_at, request, result) "
+                "VALUES (?, ?, ?, ?, ?, ?)",
+                (row["id"], row["project"], row["name"], row["created_at"],
+                 json.dumps(row["request"]), json.dumps(row["result"])))
+
+
+def _duty_cycle(r) -> dict | None:
+    if r is None:
+        return None
+    out = dict(r)
+    out["request"] = json.loads(out["request"])
+    out["result"] = json.loads(out["result"])
+    return out
+
+
+def get_duty_cycle(con, project: str, duty_id: str) -> dict | None:
+    return _duty_cycle(con.execute("SELECT * FROM duty_cycles WHERE id = ? AND project = ?",
+                                   (duty_id, project)).fetchone())
+
+
+def list_duty_cycles(con, project: str, limit: int = 100, offset: int = 0) -> list[dict]:
+    return [_duty_cycle(r) for r in con.execute(
+        "SELECT * FROM duty_cycles WHERE project = ? ORDER BY created_at DESC, id "
+        "LIMIT ? OFFSET ?", (project, limit, offset))]
+
+
+def delete_duty_cycle(con, project: str, duty_id: str) -> bool:
+    return con.execute("DELETE FROM duty_cycles WHERE id = ? AND project = ?",
+                       (duty_id, project)).rowcount > 0
 
 
 # ---------------------------------------------------------------- user curves, materials
