@@ -311,6 +311,44 @@ class Client:
     def curves(self) -> list[dict]:
         return self.get_json("/v1/curves")["items"]
 
+    # ------------------------------------------------------------------ duty cycles
+
+    def create_duty_cycle(self, events: list[dict], *, target: dict | None = None,
+                          settings: dict | None = None, name: str | None = None,
+                          **fields) -> dict:
+        """Combine stored events into a design life and check it against
+        ``target`` (``{"hours": ...}``, ``{"repeats": ...}`` or
+        ``{"distance": ...}``); each event names ``assessment_id``,
+        ``history_id`` or ``ledger`` and its ``repeats``, ``hours``,
+        ``distance`` or ``share``. ``fields``: ``points``, ``gate``,
+        ``variants``. Returns the stored duty cycle."""
+        doc = {"events": events, **fields}
+        for key, value in (("target", target), ("settings", settings), ("name", name)):
+            if value is not None:
+                doc[key] = value
+        return self.post_json("/v1/duty-cycles", doc)[1]
+
+    def duty_cycle(self, duty_id: str) -> dict:
+        return self.get_json(f"/v1/duty-cycles/{urllib.parse.quote(duty_id, safe='')}")
+
+    def duty_cycle_summary(self, duty_id: str):
+        """Per point: verdict, design damage, reserve factor, lives and the
+        dominant event, as a DataFrame (index: point)."""
+        import pandas as pd
+
+        res = self.duty_cycle(duty_id)["result"]
+        cols = ("passed", "damage", "allowable_damage", "reserve_factor",
+                "damage_per_duty_cycle", "life_duty_cycles", "life_hours", "life_distance",
+                "dominant_event", "between_events_share")
+        return pd.DataFrame([{"point": p, **{k: r.get(k) for k in cols}}
+                             for p, r in res["points"].items()]).set_index("point")
+
+    def what_if(self, duty_id: str, variants: list[dict]) -> dict:
+        """The stored duty cycle under ``variants`` (``{name, settings?,
+        load_scale?}``), side by side with its baseline; nothing is stored."""
+        return self.post_json(f"/v1/duty-cycles/{urllib.parse.quote(duty_id, safe='')}"
+                              "/what-if", {"variants": variants})[1]
+
     # ------------------------------------------------------------------ ledger
 
     def create_asset(self, name: str, description: str | None = None) -> dict:

@@ -222,16 +222,15 @@ def exposure(events: list[Event], target) -> dict:
     repeats = []
     for e in events:
         how, value = e.exposure
-        per = _per_pass(e, kind if how == "share" else how)
         if how == "repeats":
             repeats.append(value)
         elif how == "share":
             if kind not in ("hours", "distance"):
                 raise InvalidParameter("shares divide a target in hours or distance",
                                        field="target")
-            repeats.append(value * amount / per)
+            repeats.append(value * amount / _per_pass(e, kind))
         else:
-            repeats.append(value / per)
+            repeats.append(value / _per_pass(e, how))
     if shares:
         total = sum(e.exposure[1] for e in events)
         if abs(total - 1.0) > 1e-6:

@@ -22,7 +22,8 @@ from service.engine.weld_interaction import LOADINGS, NORMAL_COMPONENTS, SHEAR_I
 from service.engine.screening import FINDING_KINDS, SCREENING_POLICIES
 from service.engine.sn_curve import BELOW_LIMIT_TREATMENTS
 from service.engine.sn_estimate import LOAD_TYPE, MATERIAL_CLASSES, SURFACE_FINISH
-from service.reports.build import ASSESSMENT_PLOTS
+from service.duty_cycles import EVENT_SOURCES, EXPOSURES, TARGET_KINDS
+from service.reports.build import ASSESSMENT_PLOTS, DUTY_CYCLE_PLOTS
 
 from . import data_dir, db
 from .problems import NotFound
@@ -100,6 +101,10 @@ def methods():
                    finding_kinds=list(FINDING_KINDS),
                    plots=list(ASSESSMENT_PLOTS),
                    plot_formats=["svg", "png"],
+                   duty_cycle_sources=list(EVENT_SOURCES),
+                   duty_cycle_exposures=list(EXPOSURES),
+                   duty_cycle_targets=list(TARGET_KINDS),
+                   duty_cycle_plots=list(DUTY_CYCLE_PLOTS),
                    flags=list(FLAGS),
                    cautions=sorted(CAUTION_TEXTS),
                    caution_severities=list(SEVERITIES))

@@ -82,8 +82,8 @@ def duty_cycle_plot(duty_id: str, plot: str):
     """One plot of a duty cycle (``damage`` or ``events``), SVG or PNG."""
     fmt = _image_format()
     row = load_duty(duty_id)
-    if plot not in ("damage", "events"):
-        raise NotFound(f"no plot {plot!r}", field="plot", valid=["damage", "events"])
+    if plot not in build.DUTY_CYCLE_PLOTS:
+        raise NotFound(f"no plot {plot!r}", field="plot", valid=list(build.DUTY_CYCLE_PLOTS))
     return Response(build.duty_cycle_plots(duty_resource(row), fmt)[plot],
                     mimetype=_IMAGE[fmt])
 

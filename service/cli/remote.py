@@ -73,13 +73,14 @@ def _cmd_report(args) -> int:
 
     client = Client(args.url)
     path = (f"/v1/assets/{args.asset}/report" if args.asset
+            else f"/v1/duty-cycles/{args.duty_cycle}/report" if args.duty_cycle
             else f"/v1/assessments/{args.assessment}/report")
     try:
         _, _, body = client.request("GET", path, accept="text/html")
     except ServiceError as exc:
         print(f"error: {exc}", file=sys.stderr)
         return 2 if 400 <= exc.status < 500 else 3
-    out = Path(args.out or (f"{args.asset or args.assessment}.html"))
+    out = Path(args.out or (f"{args.asset or args.duty_cycle or args.assessment}.html"))
     out.write_bytes(body)
     print(f"wrote {out} ({len(body) / 1024:.0f} kB; open it in a browser, it needs no network)")
     return 0

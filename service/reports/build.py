@@ -115,6 +115,9 @@ def asset_page(con, asset_row: dict) -> str:
     return pages.asset_page(asset_row, statuses, svgs)
 
 
+#: Plots of a duty cycle.
+DUTY_CYCLE_PLOTS = ("damage", "events")
+
 
 def duty_cycle_plots(resource: dict, fmt: str = "svg") -> dict[str, bytes]:
     """The plots of a duty cycle: design damage by point, event shares."""

@@ -96,8 +96,12 @@ def populate(c, h) -> dict:
                                     "settings": {"curve": "EN1993-1-9:71"}})
     finally:
         c.environ_base.pop("HTTP_AUTHORIZATION")
+    r = c.post("/v1/duty-cycles", headers=h, json={
+        "name": "a-duty", "settings": {"curve": "EN1993-1-9:71"},
+        "events": [{"name": "a-event", "history_id": hid, "repeats": 2}]})
+    assert r.status_code == 201, r.get_json()
     return {"history": hid, "assessment": aid, "job": jid, "block": block_id,
-            "unit": uid, "superposition": sup["id"],
+            "unit": uid, "superposition": sup["id"], "duty": r.get_json()["id"],
             "names": ["a-hist", "a-curve", "a-steel", "a-asset", "a-point", "a-model"]}
 
 
@@ -106,7 +110,7 @@ def cases(a: dict) -> list[tuple]:
     with none of A's names or ids), or a status for creates that refer to A's
     resources by name. Destructive cases last."""
     hid, aid, jid, bid = a["history"], a["assessment"], a["job"], a["block"]
-    uid, sid = a["unit"], a["superposition"]
+    uid, sid, did = a["unit"], a["superposition"], a["duty"]
     block = dict(data=pq_bytes({"a-point": CA}), content_type=PARQUET)
     return [
         ("GET", "/v1/histories", "/v1/histories", {}, "hidden"),
@@ -173,6 +177,16 @@ def cases(a: dict) -> list[tuple]:
         ("GET", "/v1/superpositions/<sup_id>", f"/v1/superpositions/{sid}", {}, 404),
         ("GET", "/v1/superpositions/<sup_id>/nodes", f"/v1/superpositions/{sid}/nodes", {},
          404),
+        ("GET", "/v1/duty-cycles", "/v1/duty-cycles", {}, "hidden"),
+        ("POST", "/v1/duty-cycles", "/v1/duty-cycles",
+         dict(json={"events": [{"history_id": hid, "repeats": 1}],
+                    "settings": {"curve": "EN1993-1-9:71"}}), 404),
+        ("GET", "/v1/duty-cycles/<duty_id>", f"/v1/duty-cycles/{did}", {}, 404),
+        ("POST", "/v1/duty-cycles/<duty_id>/what-if", f"/v1/duty-cycles/{did}/what-if",
+         dict(json={"variants": [{"name": "v", "load_scale": 2}]}), 404),
+        ("GET", "/v1/duty-cycles/<duty_id>/report", f"/v1/duty-cycles/{did}/report", {}, 404),
+        ("GET", "/v1/duty-cycles/<duty_id>/plots/<plot>",
+         f"/v1/duty-cycles/{did}/plots/events", {}, 404),
         ("GET", "/metrics", "/metrics", {}, "hidden"),
         ("GET", "/v1/audit", "/v1/audit", {}, "hidden"),
         ("POST", "/v1/assets/<asset>/blocks/<block_id>/void",
@@ -181,6 +195,7 @@ def cases(a: dict) -> list[tuple]:
         ("DELETE", "/v1/materials/<name>", "/v1/materials/a-steel", {}, 404),
         ("DELETE", "/v1/histories/<history_id>", f"/v1/histories/{hid}", {}, 404),
         ("DELETE", "/v1/unit-stresses/<set_id>", f"/v1/unit-stresses/{uid}", {}, 404),
+        ("DELETE", "/v1/duty-cycles/<duty_id>", f"/v1/duty-cycles/{did}", {}, 404),
     ]
 
 

@@ -212,3 +212,43 @@ def test_report_command_writes_the_page(served, tmp_path, capsys):
     text = out.read_text()
     assert text.startswith("<!DOCTYPE html>") and "<svg" in text
     assert main(["report", "a_missing", "--url", served, "--out", str(out)]) == 2
+
+
+def test_duty_cycle_through_the_client_and_the_command(served, tmp_path, capsys):
+    # Two recordings as events, a target in hours; the command prints each
+    # point's verdict and exits 1 when a point fails. Design damage checked
+    # against the history built sample by sample and counted at once
+    # (ASTM E1049-85) on EN 1993-1-9:2005 curve 71.
+    from service.engine.rainflow import astm_e1049
+    from service.engine.damage import assess
+
+    c = Client(served)
+    lift = {"g": np.tile([-50.0, 70.0], 100)}
+    slew = {"g": np.tile([10.0, 40.0], 300)}
+    ids = [c.upload_history(x, unit="MPa", sample_rate_hz=20.0)["id"] for x in (lift, slew)]
+    events = [{"name": "lift", "history_id": ids[0], "repeats": 4},
+              {"name": "slew", "history_id": ids[1], "repeats": 1}]
+    doc = c.create_duty_cycle(events, target={"repeats": 2000},
+                              settings={"curve": "EN1993-1-9:71"}, name="crane shift")
+    one = np.concatenate([np.tile(lift["g"], 4), slew["g"]])
+    want = assess(astm_e1049(np.tile(one, 2000)), catalogue_curve("EN1993-1-9:71")).damage
+    table = c.duty_cycle_summary(doc["id"])
+    assert table.loc["g", "damage"] == pytest.approx(want, rel=1e-12)
+    assert bool(table.loc["g", "passed"]) == (want <= 1.0)
+    side = c.what_if(doc["id"], [{"name": "double", "load_scale": 2.0}])
+    assert side["points"]["g"]["variants"]["double"]["damage"] > want
+    request = tmp_path / "shift.json"
+    request.write_text(json.dumps({"events": events, "target": {"repeats": 2e5},
+                                   "settings": {"curve": "EN1993-1-9:71"}}))
+    code = main(["duty-cycle", str(request), "--url", served])
+    out = capsys.readouterr().out
+    assert code == 1 and "FAIL" in out and "lift" in out  # 100x the life used above
+    request.write_text(json.dumps({"events": events, "target": {"repeats": 10},
+                                   "settings": {"curve": "EN1993-1-9:71"}}))
+    assert main(["duty-cycle", str(request), "--url", served, "--json"]) == 0
+    stored = json.loads(capsys.readouterr().out)
+    assert stored["passed"] is True
+    page = tmp_path / "page.html"
+    assert main(["report", "--duty-cycle", stored["id"], "--url", served,
+                 "--out", str(page)]) == 0
+    assert "Duty cycle" in page.read_text()

@@ -1,0 +1,79 @@
+"""``cycleledger duty-cycle``: a duty cycle (a JSON file) checked by a running service."""
+
+from __future__ import annotations
+
+import json
+import sys
+from pathlib import Path
+
+from ._shared import _fmt
+
+
+def print_duty_cycle(doc: dict, out=None) -> None:
+    """The verdict per point, the events and the cautions, for people."""
+    out = out or sys.stdout
+    res = doc["result"]
+    target = ", ".join(f"{k} {v}" for k, v in (res.get("target") or {}).items()) or "none"
+    print(f"duty cycle {doc.get('name') or doc['id']}  (target {target}; "
+          f"{_fmt(res['duty_cycles'])} duty cycles of {_fmt(res['duty_cycle_hours'])} h; "
+          f"stresses in MPa)", file=out)
+    cols = [("point", 14), ("verdict", 9), ("damage", 10), ("allowable", 10),
+            ("reserve", 9), ("life dc", 10), ("life h", 10), ("dominant event", 18),
+            ("flags", 20)]
+    print("".join(f"{c:<{w}}" for c, w in cols), file=out)
+    for name, p in res["points"].items():
+        verdict = "-" if p["passed"] is None else ("pass" if p["passed"] else "FAIL")
+        row = [name, verdict, _fmt(p["damage"]), _fmt(p["allowable_damage"]),
+               _fmt(p["reserve_factor"]), _fmt(p["life_duty_cycles"]), _fmt(p["life_hours"]),
+               p.get("dominant_event") or "-", ",".join(p["flags"]) or "-"]
+        print("".join(f"{str(v):<{w}}" for v, (_, w) in zip(row, cols)), file=out)
+    print("\nEvents (repeats per duty cycle; share of each point's design damage):", file=out)
+    for k, e in enumerate(res["events"]):
+        shares = ", ".join(f"{p} {_fmt(r['events'][k]['damage_share'])}"
+                           for p, r in res["points"].items())
+        print(f"  - {e['name']}: {_fmt(e['repeats'])} repeats; {shares}", file=out)
+    variants = [(p, n, v) for p, r in res["points"].items() for n, v in r["variants"].items()]
+    if variants:
+        print("\nWhat if:", file=out)
+        for p, n, v in variants:
+            verdict = "-" if v["passed"] is None else ("pass" if v["passed"] else "FAIL")
+            print(f"  - {p} / {n}: {verdict}, damage {_fmt(v['damage'])}, reserve "
+                  f"{_fmt(v['reserve_factor'])}, curve {v['curve']}", file=out)
+    print("\nCautions:", file=out)
+    for c in res["cautions"]:
+        where = f" ({', '.join(c['points'])})" if c.get("points") else ""
+        print(f"  - [{c['code']}] {c['text']}{where}", file=out)
+
+
+def _cmd_duty_cycle(args) -> int:
+    from service.client import Client, ServiceError
+
+    request = json.loads(Path(args.file).read_text())
+    client = Client(args.url)
+    try:
+        doc = client.post_json("/v1/duty-cycles", request)[1]
+    except ServiceError as exc:
+        print(f"error: {exc}", file=sys.stderr)
+        for k in ("field", "valid"):
+            if k in exc.problem:
+                print(f"  {k}: {exc.problem[k]}", file=sys.stderr)
+        return 2 if 400 <= exc.status < 500 else 3
+    if args.json:
+        json.dump(doc, sys.stdout, indent=2)
+        print()
+    else:
+        print_duty_cycle(doc)
+        print(f"\n{args.url.rstrip('/')}{doc['links']['report']}")
+    return 1 if doc["passed"] is False else 0
+
+
+def add_parser(sub) -> None:
+    p = sub.add_parser("duty-cycle", help="check a duty cycle (JSON file) on a running service",
+                       description="Post a duty cycle: stored assessments, histories or "
+                       "ledger spans as events with their repeats, hours, distance or share, "
+                       "and a target; prints each point's verdict. Exit 1 if a point fails.")
+    p.add_argument("file", help="JSON file: {events, target, settings?, points?, variants?}")
+    p.add_argument("--url", default="http://127.0.0.1:8350",
+                   help="the service (default %(default)s)")
+    p.add_argument("--json", action="store_true", help="print the stored duty cycle as JSON")
+    p.set_defaults(func=_cmd_duty_cycle)
