@@ -95,14 +95,15 @@ def create_app(test_config: dict | None = None) -> Flask:
             con.execute("ROLLBACK")  # never leave a transaction open for the next request
 
     problems.register(app)
-    from . import (access, assessments, audit, catalogue, duty_cycles, histories, ledger,
-                   library, meta, metrics, reports, superpositions)
+    from . import (access, assessments, audit, catalogue, duty_cycles, edits, histories,
+                   ledger, library, meta, metrics, reports, superpositions)
 
     metrics.install(app)
     access.install(app)
     audit.install(app)
     for bp in (meta.bp, histories.bp, assessments.bp, catalogue.bp, library.bp, ledger.bp,
-               metrics.bp, reports.bp, superpositions.bp, audit.bp, duty_cycles.bp):
+               metrics.bp, reports.bp, superpositions.bp, audit.bp, duty_cycles.bp,
+               edits.bp):
         app.register_blueprint(bp)
     return app
 

@@ -50,6 +50,8 @@ ROUTE_SCOPES = {
     "duty_cycles.create": "write",
     "duty_cycles.what_if": "write",
     "duty_cycles.delete": "admin",
+    "edits.create": "write",
+    "edits.delete": "admin",
     "superpositions.delete_unit_stresses": "admin",
     "histories.delete": "admin",
     "library.create_curve": "admin",

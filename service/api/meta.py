@@ -23,6 +23,7 @@ from service.engine.screening import FINDING_KINDS, SCREENING_POLICIES
 from service.engine.sn_curve import BELOW_LIMIT_TREATMENTS
 from service.engine.sn_estimate import LOAD_TYPE, MATERIAL_CLASSES, SURFACE_FINISH
 from service.duty_cycles import EVENT_SOURCES, EXPOSURES, TARGET_KINDS
+from service.editing import EDIT_METHODS
 from service.reports.build import ASSESSMENT_PLOTS, DUTY_CYCLE_PLOTS
 
 from . import data_dir, db
@@ -105,6 +106,7 @@ def methods():
                    duty_cycle_exposures=list(EXPOSURES),
                    duty_cycle_targets=list(TARGET_KINDS),
                    duty_cycle_plots=list(DUTY_CYCLE_PLOTS),
+                   edit_methods=list(EDIT_METHODS),
                    flags=list(FLAGS),
                    cautions=sorted(CAUTION_TEXTS),
                    caution_severities=list(SEVERITIES))

@@ -139,6 +139,16 @@ CAUTION_TEXTS = {
     "duty_cycle_short_event": "The event {event!r} is {repeats:.3g} repeats of its recording: "
                               "fewer than one pass scales its cycles, which holds only if "
                               "the part of the recording used is like the whole.",
+    # Edited drive signals (engine/editing.py).
+    "edit_scope": "The edited signal keeps the damage on the curves and settings given; another "
+                  "curve, slope or mean-stress treatment weighs the removed cycles differently, "
+                  "and the joins change the frequency content: check the rig's response to "
+                  "the edited drive before relying on it.",
+    "edit_peak_valley": "Peak-valley reduction keeps the turning points, not the time between "
+                        "them: the rig's waveform and rate set the loading speed, which matters "
+                        "for resonances and rate-sensitive materials.",
+    "edit_short": "A channel keeps {kept:.1%} of its damage, less than the {keep:.0%} asked: "
+                  "the recording could not be cut further without losing more.",
     # Inputs.
     "implausible_value": "The value {field} = {value:.6g} {unit} is unusual for {what}; {hint}.",
 }
@@ -162,7 +172,7 @@ _SEVERITY = {
     "hot_spot_curve": "warning", "shear_interaction_exceeded": "warning",
     "interaction_non_proportional_en": "warning", "strain_life_estimate": "warning",
     "haigh_ratio_mismatch": "warning", "duty_cycle_order": "warning",
-    "duty_cycle_governing": "warning",
+    "duty_cycle_governing": "warning", "edit_short": "warning",
     "low_cycle_regime": "warning", "below_fatigue_limit": "warning",
     "yield_not_checked": "warning",
     "estimate_scatter": "general", "method_choice": "general", "engineer_sign_off": "general",

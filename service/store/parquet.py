@@ -19,6 +19,7 @@ HISTORIES = "histories"
 BLOCKS = "blocks"
 UNIT_STRESSES = "unit_stresses"
 SUPERPOSITIONS = "superpositions"
+EDITS = "edits"
 TMP_PREFIX = ".tmp-"
 _TMP = TMP_PREFIX
 

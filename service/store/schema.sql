@@ -97,6 +97,18 @@ CREATE TABLE IF NOT EXISTS duty_cycles (
 );
 CREATE INDEX IF NOT EXISTS duty_cycles_project ON duty_cycles(project, created_at);
 
+-- Edited drive signals (shorter recordings that keep the damage) and their report.
+CREATE TABLE IF NOT EXISTS edits (
+    id              TEXT PRIMARY KEY,
+    project         TEXT NOT NULL,
+    history_id      TEXT REFERENCES histories(id) ON DELETE SET NULL,
+    created_at      TEXT NOT NULL,
+    request         TEXT NOT NULL,   -- JSON: as posted
+    result          TEXT NOT NULL,   -- JSON: per channel damage and length kept
+    file            TEXT NOT NULL    -- Parquet: source_index, time_s?, channels (MPa)
+);
+CREATE INDEX IF NOT EXISTS edits_project ON edits(project, created_at);
+
 -- What users enter themselves: S-N curves (from points or Basquin constants)
 -- and materials (strengths from a tensile test or a data sheet), by name.
 CREATE TABLE IF NOT EXISTS user_curves (

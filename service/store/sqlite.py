@@ -263,7 +263,8 @@ def referenced_files(con) -> set[str]:
     for sql in ("SELECT file FROM histories", "SELECT file FROM blocks",
                 "SELECT samples_file FROM assessments WHERE samples_file IS NOT NULL",
                 "SELECT file FROM unit_stress_sets", "SELECT nodes_file FROM superpositions",
-                "SELECT input_file FROM jobs WHERE input_file IS NOT NULL"):
+                "SELECT input_file FROM jobs WHERE input_file IS NOT NULL",
+                "SELECT file FROM edits"):
         out.update(r[0] for r in con.execute(sql))
     return out
 
@@ -408,6 +409,37 @@ def list_duty_cycles(con, project: str, limit: int = 100, offset: int = 0) -> li
 def delete_duty_cycle(con, project: str, duty_id: str) -> bool:
     return con.execute("DELETE FROM duty_cycles WHERE id = ? AND project = ?",
                        (duty_id, project)).rowcount > 0
+
+
+# ---------------------------------------------------------------- edits
+
+
+def insert_edit(con, row: dict) -> None:
+    con.execute("INSERT INTO edits (id, project, history_id, created_at, request, result, "
+                "file) VALUES (?, ?, ?, ?, ?, ?, ?)",
+                (row["id"], row["project"], row["history_id"], row["created_at"],
+                 json.dumps(row["request"]), json.dumps(row["result"]), row["file"]))
+
+
+def get_edit(con, project: str, edit_id: str) -> dict | None:
+    r = con.execute("SELECT * FROM edits WHERE id = ? AND project = ?",
+                    (edit_id, project)).fetchone()
+    if r is None:
+        return None
+    out = dict(r)
+    out["request"] = json.loads(out["request"])
+    out["result"] = json.loads(out["result"])
+    return out
+
+
+def delete_edit(con, project: str, edit_id: str) -> str | None:
+    """Remove an edit's row; the file it named (for the caller to remove), or None."""
+    r = con.execute("SELECT file FROM edits WHERE id = ? AND project = ?",
+                    (edit_id, project)).fetchone()
+    if r is None:
+        return None
+    con.execute("DELETE FROM edits WHERE id = ?", (edit_id,))
+    return r[0]
 
 
 # ---------------------------------------------------------------- user curves, materials

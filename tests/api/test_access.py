@@ -100,8 +100,12 @@ def populate(c, h) -> dict:
         "name": "a-duty", "settings": {"curve": "EN1993-1-9:71"},
         "events": [{"name": "a-event", "history_id": hid, "repeats": 2}]})
     assert r.status_code == 201, r.get_json()
+    duty = r.get_json()["id"]
+    r = c.post("/v1/edits", headers=h, json={"history_id": hid, "length": 0.5,
+                                             "settings": {"curve": "EN1993-1-9:71"}})
+    assert r.status_code == 201, r.get_json()
     return {"history": hid, "assessment": aid, "job": jid, "block": block_id,
-            "unit": uid, "superposition": sup["id"], "duty": r.get_json()["id"],
+            "unit": uid, "superposition": sup["id"], "duty": duty, "edit": r.get_json()["id"],
             "names": ["a-hist", "a-curve", "a-steel", "a-asset", "a-point", "a-model"]}
 
 
@@ -110,7 +114,7 @@ def cases(a: dict) -> list[tuple]:
     with none of A's names or ids), or a status for creates that refer to A's
     resources by name. Destructive cases last."""
     hid, aid, jid, bid = a["history"], a["assessment"], a["job"], a["block"]
-    uid, sid, did = a["unit"], a["superposition"], a["duty"]
+    uid, sid, did, eid = a["unit"], a["superposition"], a["duty"], a["edit"]
     block = dict(data=pq_bytes({"a-point": CA}), content_type=PARQUET)
     return [
         ("GET", "/v1/histories", "/v1/histories", {}, "hidden"),
@@ -187,6 +191,10 @@ def cases(a: dict) -> list[tuple]:
         ("GET", "/v1/duty-cycles/<duty_id>/report", f"/v1/duty-cycles/{did}/report", {}, 404),
         ("GET", "/v1/duty-cycles/<duty_id>/plots/<plot>",
          f"/v1/duty-cycles/{did}/plots/events", {}, 404),
+        ("POST", "/v1/edits", "/v1/edits",
+         dict(json={"history_id": hid, "settings": {"curve": "EN1993-1-9:71"}}), 404),
+        ("GET", "/v1/edits/<edit_id>", f"/v1/edits/{eid}", {}, 404),
+        ("GET", "/v1/edits/<edit_id>/signal", f"/v1/edits/{eid}/signal", {}, 404),
         ("GET", "/metrics", "/metrics", {}, "hidden"),
         ("GET", "/v1/audit", "/v1/audit", {}, "hidden"),
         ("POST", "/v1/assets/<asset>/blocks/<block_id>/void",
@@ -196,6 +204,7 @@ def cases(a: dict) -> list[tuple]:
         ("DELETE", "/v1/histories/<history_id>", f"/v1/histories/{hid}", {}, 404),
         ("DELETE", "/v1/unit-stresses/<set_id>", f"/v1/unit-stresses/{uid}", {}, 404),
         ("DELETE", "/v1/duty-cycles/<duty_id>", f"/v1/duty-cycles/{did}", {}, 404),
+        ("DELETE", "/v1/edits/<edit_id>", f"/v1/edits/{eid}", {}, 404),
     ]
 
 
