@@ -31,6 +31,7 @@ bench-quick: $(BIN)/.installed   ## the benchmarks' short runs
 	$(BIN)/python tests/benchmarks/bench_inputs.py --quick
 	$(BIN)/python tests/benchmarks/bench_reports.py --quick
 	$(BIN)/python tests/benchmarks/bench_strain_life.py --quick
+	$(BIN)/python tests/benchmarks/bench_editing.py --quick
 
 bench: $(BIN)/.installed         ## the benchmarks' full runs (several minutes)
 	$(BIN)/python tests/benchmarks/bench_counting.py
@@ -43,6 +44,7 @@ bench: $(BIN)/.installed         ## the benchmarks' full runs (several minutes)
 	$(BIN)/python tests/benchmarks/bench_inputs.py
 	$(BIN)/python tests/benchmarks/bench_reports.py
 	$(BIN)/python tests/benchmarks/bench_strain_life.py
+	$(BIN)/python tests/benchmarks/bench_editing.py
 
 clean:
 	rm -rf $(VENV) .cache examples/data cycleledger-data cycleledger-demo dist build
