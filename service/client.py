@@ -349,6 +349,33 @@ class Client:
         return self.post_json(f"/v1/duty-cycles/{urllib.parse.quote(duty_id, safe='')}"
                               "/what-if", {"variants": variants})[1]
 
+    def compare_rig_field(self, rig: dict, field: dict, *, settings: dict | None = None,
+                          **fields) -> dict:
+        """A rig run against a field span (each ``{"history_id": ...}``,
+        ``{"assessment_id": ...}`` or ``{"ledger": {...}}``): per point the
+        damage ratio and the acceleration factor. Nothing is stored."""
+        doc = {"rig": rig, "field": field, **fields}
+        if settings is not None:
+            doc["settings"] = settings
+        return self.post_json("/v1/rig-comparisons", doc)[1]
+
+    # ------------------------------------------------------------------ edits
+
+    def edit(self, history_id: str, **fields) -> dict:
+        """Shorten a stored recording keeping its damage (fields as in the
+        API: ``settings``, ``keep`` or ``length``, ``window_s``,
+        ``protect_range``, ``method``, ``channels``, ``gate``)."""
+        return self.post_json("/v1/edits", {"history_id": history_id, **fields})[1]
+
+    def edited_signal(self, edit_id: str):
+        """The edited drive signal as a DataFrame (``source_index``,
+        ``time_s``, ``source_time_s``, one column per channel [MPa])."""
+        import pandas as pd
+
+        path = f"/v1/edits/{urllib.parse.quote(edit_id, safe='')}/signal"
+        _, _, raw = self.request("GET", path, accept=PARQUET)
+        return pd.read_parquet(io.BytesIO(raw))
+
     # ------------------------------------------------------------------ ledger
 
     def create_asset(self, name: str, description: str | None = None) -> dict:

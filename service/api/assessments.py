@@ -11,6 +11,7 @@ import numpy as np
 from flask import Blueprint, Response, current_app, jsonify, request, url_for
 
 from service import runs
+from service.extrapolation import extrapolated
 from service.store import parquet, sqlite
 
 from . import caching, created, data_dir, db, idempotency, json_object, uploads
@@ -335,6 +336,26 @@ def range_mean(assessment_id: str, point: str):
     if fmt == "parquet":
         return _parquet(cols)
     return _csv(tuple(cols), zip(*(c.tolist() for c in cols.values())))
+
+
+@bp.get("/v1/assessments/<assessment_id>/points/<point>/extrapolation")
+@caching.by_content
+def extrapolation(assessment_id: str, point: str):
+    """The point's range-mean matrix extrapolated to ``factor`` times the usage
+    recorded, with the damage it gives and that of plain scaling (JSON)."""
+    try:
+        factor = float(request.args.get("factor", "10"))
+        rb = int(request.args.get("range_bins", 48))
+        mb = int(request.args.get("mean_bins", 48))
+    except ValueError:
+        raise ApiProblem("factor must be a number, range_bins and mean_bins whole numbers",
+                         field="factor") from None
+    if not (1 <= rb <= 500 and 1 <= mb <= 500):
+        raise ApiProblem("range_bins and mean_bins must be 1..500", field="range_bins")
+    row = load(assessment_id)
+    if point not in (row["result"] or {}).get("points", {}):
+        raise NotFound(f"assessment {assessment_id!r} has no point {point!r}", field="point")
+    return jsonify(extrapolated(data_dir(), row, point, factor, rb, mb, db()))
 
 
 def _parquet(cols: dict) -> Response:

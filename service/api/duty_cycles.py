@@ -83,6 +83,13 @@ def what_if(duty_id: str):
     return jsonify(_evaluate(duty_cycles.what_if, row, body["variants"]))
 
 
+@bp.post("/v1/rig-comparisons")
+def rig_comparison():
+    """A rig run against a field span, per point: damage of each and their ratio
+    (per pass and per hour: the test's acceleration factor). Nothing stored."""
+    return jsonify(_evaluate(duty_cycles.compare, json_object()))
+
+
 @bp.delete("/v1/duty-cycles/<duty_id>")
 def delete(duty_id: str):
     con = db()

@@ -77,3 +77,72 @@ def add_parser(sub) -> None:
                    help="the service (default %(default)s)")
     p.add_argument("--json", action="store_true", help="print the stored duty cycle as JSON")
     p.set_defaults(func=_cmd_duty_cycle)
+
+
+def _cmd_edit(args) -> int:
+    from service.client import Client, ServiceError
+
+    request = json.loads(Path(args.settings).read_text()) if args.settings else {}
+    if args.curve:
+        request.setdefault("settings", {})["curve"] = args.curve
+    for key in ("keep", "length", "window_s", "protect_range", "method", "gate"):
+        value = getattr(args, key)
+        if value is not None:
+            request[key] = value
+    client = Client(args.url)
+    try:
+        doc = client.edit(args.history, **request)
+        signal = client.edited_signal(doc["id"])
+    except ServiceError as exc:
+        print(f"error: {exc}", file=sys.stderr)
+        for k in ("field", "valid"):
+            if k in exc.problem:
+                print(f"  {k}: {exc.problem[k]}", file=sys.stderr)
+        return 2 if 400 <= exc.status < 500 else 3
+    out = Path(args.out)
+    if out.suffix == ".parquet":
+        signal.to_parquet(out, index=False)
+    else:
+        signal.to_csv(out, index=False)
+    res = doc["result"]
+    if args.json:
+        json.dump(doc, sys.stdout, indent=2)
+        print()
+        return 0
+    print(f"edit {doc['id']} of {res['history_id']}: {res['method']}, kept "
+          f"{_fmt(res['length_kept'])} of {res['samples_before']} samples in {res['pieces']} "
+          f"pieces; wrote {out}")
+    print(f"{'channel':<14}{'damage before':<16}{'after':<12}{'kept':<10}largest ranges kept")
+    for name, ch in res["channels"].items():
+        ranges = ", ".join(_fmt(r) for r in ch["largest_ranges_after"][:3])
+        print(f"{name:<14}{_fmt(ch['damage_before']):<16}{_fmt(ch['damage_after']):<12}"
+              f"{_fmt(ch['damage_kept']):<10}{ranges}")
+    print("\nCautions:")
+    for c in res["cautions"]:
+        print(f"  - [{c['code']}] {c['text']}")
+    return 0
+
+
+def add_edit_parser(sub) -> None:
+    p = sub.add_parser("edit", help="shorten a stored recording for a rig, keeping its damage",
+                       description="Edit a stored history on a running service and write "
+                       "the edited drive signal (CSV, or Parquet by the file's suffix).")
+    p.add_argument("history", help="history id (h_...)")
+    p.add_argument("--out", required=True, help="file for the edited signal (.csv, .parquet)")
+    p.add_argument("--curve", help="catalogue designation for every channel")
+    p.add_argument("--settings", help="JSON file: the edit request's fields (settings, "
+                   "points, channels, ...); the options below override it")
+    how = p.add_mutually_exclusive_group()
+    how.add_argument("--keep", type=float, help="share of each channel's damage to keep "
+                     "(default 0.95)")
+    how.add_argument("--length", type=float, help="share of the recording to keep instead")
+    p.add_argument("--window-s", dest="window_s", type=float, help="window length [s]")
+    p.add_argument("--protect-range", dest="protect_range", type=float,
+                   help="cycles at or above this range are kept whole [MPa]")
+    p.add_argument("--method", choices=("damage_windows", "peak_valley"),
+                   help="default damage_windows")
+    p.add_argument("--gate", type=float, help="hysteresis gate [MPa]")
+    p.add_argument("--url", default="http://127.0.0.1:8350",
+                   help="the service (default %(default)s)")
+    p.add_argument("--json", action="store_true", help="print the edit as JSON")
+    p.set_defaults(func=_cmd_edit)

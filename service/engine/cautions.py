@@ -139,6 +139,16 @@ CAUTION_TEXTS = {
     "duty_cycle_short_event": "The event {event!r} is {repeats:.3g} repeats of its recording: "
                               "fewer than one pass scales its cycles, which holds only if "
                               "the part of the recording used is like the whole.",
+    "rig_field_same_curve": "The rig-field ratio holds for the curve and settings given: "
+                            "damage ratios change with the S-N slope, and a rig that loads "
+                            "in another way (frequency, mean, direction) tests something "
+                            "else.",
+    "extrapolation_extremes": "The extrapolation expects {above:.3g} cycles above the largest "
+                              "recorded range ({top:.4g} MPa) over {factor:g} times the usage, "
+                              "from the way the recorded cycles fall off; real extremes come "
+                              "from events a recording may not hold (misuse, faults, rare "
+                              "manoeuvres): check the largest loads the part must survive "
+                              "apart.",
     # Edited drive signals (engine/editing.py).
     "edit_scope": "The edited signal keeps the damage on the curves and settings given; another "
                   "curve, slope or mean-stress treatment weighs the removed cycles differently, "
@@ -173,6 +183,7 @@ _SEVERITY = {
     "interaction_non_proportional_en": "warning", "strain_life_estimate": "warning",
     "haigh_ratio_mismatch": "warning", "duty_cycle_order": "warning",
     "duty_cycle_governing": "warning", "edit_short": "warning",
+    "extrapolation_extremes": "warning",
     "low_cycle_regime": "warning", "below_fatigue_limit": "warning",
     "yield_not_checked": "warning",
     "estimate_scatter": "general", "method_choice": "general", "engineer_sign_off": "general",

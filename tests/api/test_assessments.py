@@ -291,3 +291,29 @@ def test_a_thickness_correction_is_applied_and_said(client):
 
     ref = assess_history(x, catalogue_curve("IIW:FAT90").scaled((25 / 40) ** 0.3))
     assert p["damage"] == pytest.approx(ref.damage, rel=1e-12)
+
+
+def test_a_points_matrix_extrapolated_to_longer_usage(client):
+    # Kernel-density extrapolation (Dressler et al., SAE 960569): the total
+    # count is the factor times the recorded one; on the same bins the
+    # extrapolated matrix does at least the damage of plain scaling (it adds
+    # cycles beyond the largest recorded) and no more than a tenth more on
+    # a Gaussian process (slope 3, tests/engine/test_extrapolation.py).
+    from scipy.signal import lfilter
+
+    x = lfilter([1.0], [1, -1.2, 0.5], np.random.default_rng(8).normal(size=50_000)) * 20 + 30
+    r = client.post("/v1/assessments", json={
+        "samples": {"g": x.tolist()}, "unit": "MPa",
+        "settings": {"basquin": {"slope": 3.0, "intercept": 1e12}}})
+    aid = r.get_json()["id"]
+    e = client.get(f"/v1/assessments/{aid}/points/g/extrapolation?factor=20")
+    assert e.status_code == 200, e.get_json()
+    doc = e.get_json()
+    counted = r.get_json()["points"]["g"]["cycles_counted"]
+    assert np.sum(doc["cycles"]) == pytest.approx(20 * counted, rel=1e-6)
+    assert np.sum(doc["cycles_scaled"]) == pytest.approx(20 * counted, rel=1e-9)
+    assert 1.0 <= doc["extrapolation_effect"] <= 1.1
+    assert doc["expected_above_observed"] > 0 and "Dressler" in doc["method"]
+    assert "extrapolation_extremes" in {c["code"] for c in doc["cautions"]}
+    assert_problem(client.get(f"/v1/assessments/{aid}/points/g/extrapolation?factor=0.5"),
+                   422, "invalid-parameter", field="factor")

@@ -184,3 +184,28 @@ def test_delete(client):
     assert client.delete(f"/v1/duty-cycles/{doc['id']}").status_code == 204
     assert_problem(client.get(f"/v1/duty-cycles/{doc['id']}"), 404, "not-found")
     assert_problem(client.delete(f"/v1/duty-cycles/{doc['id']}"), 404, "not-found")
+
+
+def test_rig_against_field_is_the_damage_ratio_per_pass_and_per_hour(client):
+    # Closed form on a Basquin curve N = C / S^4 (no limit): a rig run of 500
+    # cycles of 200 MPa against a field span of 2000 cycles of 100 MPa does
+    # (500 * 200^4) / (2000 * 100^4) = 4 times the damage; the rig run lasts
+    # 20 s, the field span 80 s, so a rig hour stands for 16 field hours.
+    rig = _history(client, {"g": np.tile([-100.0, 100.0], 500)})
+    field_x = np.tile([-50.0, 50.0], 2000)
+    field = client.post("/v1/histories?unit=MPa&sample_rate_hz=50",
+                        data=pq_bytes({"g": field_x}), content_type=PARQUET).get_json()["id"]
+    r = client.post("/v1/rig-comparisons", json={
+        "rig": {"history_id": rig}, "field": {"history_id": field},
+        "settings": {"basquin": {"slope": 4.0, "intercept": 1e14}}})
+    assert r.status_code == 200, r.get_json()
+    p = r.get_json()["points"]["g"]
+    assert p["damage_rig"] == pytest.approx(500 * 200.0 ** 4 / 1e14, rel=1e-12)
+    assert p["damage_field"] == pytest.approx(2000 * 100.0 ** 4 / 1e14, rel=1e-12)
+    assert p["field_spans_per_rig_run"] == pytest.approx(4.0, rel=1e-12)
+    assert p["rig_hours"] == pytest.approx(20 / 3600) and p["field_hours"] == pytest.approx(
+        80 / 3600)
+    assert p["acceleration_factor"] == pytest.approx(16.0, rel=1e-12)
+    assert "rig_field_same_curve" in {c["code"] for c in r.get_json()["cautions"]}
+    assert_problem(client.post("/v1/rig-comparisons", json={"rig": {"history_id": rig}}),
+                   422, "invalid-parameter")

@@ -252,3 +252,34 @@ def test_duty_cycle_through_the_client_and_the_command(served, tmp_path, capsys)
     assert main(["report", "--duty-cycle", stored["id"], "--url", served,
                  "--out", str(page)]) == 0
     assert "Duty cycle" in page.read_text()
+
+
+def test_edit_through_the_client_and_the_command(served, tmp_path, capsys):
+    # The edited drive signal written by `cycleledger edit` is the one the
+    # service stored; its damage recounted here (ASTM E1049-85, EN 1993-1-9
+    # curve 71) is the damage the report states.
+    from service.engine.damage import assess_history as ah
+    from tests.api.test_edits import rig_like
+
+    c = Client(served)
+    cols = rig_like(7, n=20_000, channels=2)
+    hid = c.upload_history(cols, unit="MPa", sample_rate_hz=100.0)["id"]
+    out = tmp_path / "drive.csv"
+    code = main(["edit", hid, "--url", served, "--curve", "EN1993-1-9:71", "--keep", "0.9",
+                 "--window-s", "1", "--out", str(out)])
+    printed = capsys.readouterr().out
+    assert code == 0 and "damage before" in printed and "edit_scope" in printed
+    drive = pd.read_csv(out)
+    curve = catalogue_curve("EN1993-1-9:71")
+    eid = printed.split()[1]
+    res = c.get_json(f"/v1/edits/{eid}")["result"]
+    for name in cols:
+        d = ah(drive[name].to_numpy(), curve).damage
+        assert d == pytest.approx(res["channels"][name]["damage_after"], rel=1e-9)
+        assert d >= 0.9 * ah(cols[name], curve).damage
+    back = c.edited_signal(eid)
+    assert len(back) == len(drive) and list(back.columns)[:3] == ["source_index", "time_s",
+                                                                  "source_time_s"]
+    cmp = c.compare_rig_field({"history_id": hid},
+                              {"history_id": hid}, settings={"curve": "EN1993-1-9:71"})
+    assert cmp["points"]["g1"]["field_spans_per_rig_run"] == pytest.approx(1.0)
