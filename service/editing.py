@@ -16,7 +16,7 @@ from dataclasses import replace
 
 import numpy as np
 
-from service.duty_cycles import MissingSource
+from service.events import MissingSource
 from service.engine import cautions
 from service.engine.damage import assess
 from service.engine.editing import edit_recording, peak_valley

@@ -10,7 +10,7 @@ from __future__ import annotations
 
 from flask import Blueprint, jsonify, url_for
 
-from service import duty_cycles, runs
+from service import duty_cycles, events, rig_field, runs
 from service.store import sqlite
 
 from . import created, data_dir, db, json_object
@@ -37,7 +37,7 @@ def _evaluate(call, *args):
     try:
         return call(db(), data_dir(), project(), *args,
                     lookup=runs.store_lookup(db(), project()))
-    except duty_cycles.MissingSource as exc:
+    except events.MissingSource as exc:
         raise NotFound(exc.detail, field=exc.field) from None
 
 
@@ -87,7 +87,7 @@ def what_if(duty_id: str):
 def rig_comparison():
     """A rig run against a field span, per point: damage of each and their ratio
     (per pass and per hour: the test's acceleration factor). Nothing stored."""
-    return jsonify(_evaluate(duty_cycles.compare, json_object()))
+    return jsonify(_evaluate(rig_field.compare, json_object()))
 
 
 @bp.delete("/v1/duty-cycles/<duty_id>")

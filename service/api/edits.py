@@ -13,7 +13,7 @@ import io
 import pyarrow.parquet as pq
 from flask import Blueprint, Response, jsonify, url_for
 
-from service import duty_cycles, editing, runs
+from service import editing, events, runs
 from service.store import parquet, sqlite
 
 from . import created, data_dir, db, json_object
@@ -45,7 +45,7 @@ def create():
     try:
         row = editing.run(db(), data_dir(), project(), body,
                           lookup=runs.store_lookup(db(), project()))
-    except duty_cycles.MissingSource as exc:
+    except events.MissingSource as exc:
         raise NotFound(exc.detail, field=exc.field) from None
     return created(resource(row), 201)
 

@@ -22,7 +22,8 @@ from service.engine.weld_interaction import LOADINGS, NORMAL_COMPONENTS, SHEAR_I
 from service.engine.screening import FINDING_KINDS, SCREENING_POLICIES
 from service.engine.sn_curve import BELOW_LIMIT_TREATMENTS
 from service.engine.sn_estimate import LOAD_TYPE, MATERIAL_CLASSES, SURFACE_FINISH
-from service.duty_cycles import EVENT_SOURCES, EXPOSURES, TARGET_KINDS
+from service.duty_cycles import TARGET_KINDS
+from service.events import EVENT_SOURCES, EXPOSURES
 from service.editing import EDIT_METHODS
 from service.reports.build import ASSESSMENT_PLOTS, DUTY_CYCLE_PLOTS
 
