@@ -359,6 +359,32 @@ class Client:
             doc["settings"] = settings
         return self.post_json("/v1/rig-comparisons", doc)[1]
 
+    # ------------------------------------------------------------------ spectra
+
+    def assess_spectrum(self, load_cases: list[dict], *, settings: dict,
+                        methods: list[str] | None = None, name: str | None = None) -> dict:
+        """Assess a vibration test profile: each load case a ``psd``
+        (``{"frequency_hz": [...], "psd": [...]}`` in MPa^2/Hz), an
+        ``acceleration_psd`` with its ``transfer``, or a ``history_id`` (and
+        ``channel``), with its ``exposure_s``. Returns the stored result."""
+        doc = {"load_cases": load_cases, "settings": settings}
+        if methods is not None:
+            doc["methods"] = methods
+        if name is not None:
+            doc["name"] = name
+        return self.post_json("/v1/spectra", doc)[1]
+
+    def spectrum_summary(self, spectrum_id: str):
+        """Per method: damage, lives, reserve factor and the difference to
+        time-domain counting, as a DataFrame (index: method)."""
+        import pandas as pd
+
+        res = self.get_json(f"/v1/spectra/{urllib.parse.quote(spectrum_id, safe='')}")["result"]
+        cols = ("damage", "life_repeats", "life_hours", "reserve_factor", "equivalent_range",
+                "relative_to_time_domain")
+        return pd.DataFrame([{"method": m, **{k: r.get(k) for k in cols}}
+                             for m, r in res["methods"].items()]).set_index("method")
+
     # ------------------------------------------------------------------ edits
 
     def edit(self, history_id: str, **fields) -> dict:

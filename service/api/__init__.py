@@ -96,14 +96,14 @@ def create_app(test_config: dict | None = None) -> Flask:
 
     problems.register(app)
     from . import (access, assessments, audit, catalogue, duty_cycles, edits, histories,
-                   ledger, library, meta, metrics, reports, superpositions)
+                   ledger, library, meta, metrics, reports, spectra, superpositions)
 
     metrics.install(app)
     access.install(app)
     audit.install(app)
     for bp in (meta.bp, histories.bp, assessments.bp, catalogue.bp, library.bp, ledger.bp,
                metrics.bp, reports.bp, superpositions.bp, audit.bp, duty_cycles.bp,
-               edits.bp):
+               edits.bp, spectra.bp):
         app.register_blueprint(bp)
     return app
 

@@ -51,6 +51,8 @@ ROUTE_SCOPES = {
     "duty_cycles.what_if": "write",
     "duty_cycles.delete": "admin",
     "edits.create": "write",
+    "spectra.create": "write",
+    "spectra.delete": "admin",
     "duty_cycles.rig_comparison": "write",
     "edits.delete": "admin",
     "superpositions.delete_unit_stresses": "admin",

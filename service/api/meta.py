@@ -25,7 +25,9 @@ from service.engine.sn_estimate import LOAD_TYPE, MATERIAL_CLASSES, SURFACE_FINI
 from service.duty_cycles import TARGET_KINDS
 from service.events import EVENT_SOURCES, EXPOSURES
 from service.editing import EDIT_METHODS
-from service.reports.build import ASSESSMENT_PLOTS, DUTY_CYCLE_PLOTS
+from service.engine.spectral import RANGE_DENSITIES
+from service.spectra import CASE_SOURCES
+from service.reports.build import ASSESSMENT_PLOTS, DUTY_CYCLE_PLOTS, SPECTRUM_PLOTS
 
 from . import data_dir, db
 from .problems import NotFound
@@ -108,6 +110,9 @@ def methods():
                    duty_cycle_targets=list(TARGET_KINDS),
                    duty_cycle_plots=list(DUTY_CYCLE_PLOTS),
                    edit_methods=list(EDIT_METHODS),
+                   spectral_methods=list(RANGE_DENSITIES),
+                   spectrum_sources=list(CASE_SOURCES),
+                   spectrum_plots=list(SPECTRUM_PLOTS),
                    flags=list(FLAGS),
                    cautions=sorted(CAUTION_TEXTS),
                    caution_severities=list(SEVERITIES))

@@ -8,13 +8,14 @@ post     upload a recording to a running service, assess it, print the table
 report   write an assessment's or an asset's HTML page (plots, tables, cautions)
 duty-cycle  check a duty cycle (events, target) on a running service
 edit     shorten a stored recording for a rig keeping its damage; write the drive signal
+spectrum assess a vibration test profile of PSDs by spectral methods
 curves   list the published S-N curves the catalogue holds
 serve    run the HTTP service on embedded storage
 keys     make, list and revoke API keys
 backup   copy a data directory, also while the service runs; restore, check
 
 One module a subcommand (``assess``, ``remote`` for post and report, ``demo``,
-``serve``, ``keys``, ``batch`` with curves, ``duty`` for duty-cycle and edit); ``main`` builds the parser.
+``serve``, ``keys``, ``batch`` with curves, ``duty`` for duty-cycle, edit and spectrum); ``main`` builds the parser.
 """
 
 from __future__ import annotations
@@ -27,7 +28,7 @@ from .admin import add_parsers as add_admin_parsers
 from .assess import _cmd_assess
 from .batch import _cmd_batch, _cmd_curves
 from .demo import _cmd_demo
-from .duty import add_edit_parser, add_parser as add_duty_parser
+from .duty import add_edit_parser, add_parser as add_duty_parser, add_spectrum_parser
 from .keys import _keys_parser
 from .remote import _cmd_post, _cmd_report
 from .serve import _cmd_serve, serve_arguments
@@ -76,6 +77,7 @@ def main(argv=None) -> int:
     p.set_defaults(func=_cmd_report)
     add_duty_parser(sub)
     add_edit_parser(sub)
+    add_spectrum_parser(sub)
     p = sub.add_parser("batch", help="assess every point of a Parquet dataset on Dask")
     p.add_argument("dataset", help="a Parquet file or a folder of them (successive stretches)")
     p.add_argument("--out", required=True, help="folder for points.parquet and summary.json")

@@ -146,3 +146,51 @@ def add_edit_parser(sub) -> None:
                    help="the service (default %(default)s)")
     p.add_argument("--json", action="store_true", help="print the edit as JSON")
     p.set_defaults(func=_cmd_edit)
+
+
+def _cmd_spectrum(args) -> int:
+    from service.client import Client, ServiceError
+
+    request = json.loads(Path(args.file).read_text())
+    client = Client(args.url)
+    try:
+        doc = client.post_json("/v1/spectra", request)[1]
+    except ServiceError as exc:
+        print(f"error: {exc}", file=sys.stderr)
+        for k in ("field", "value", "valid"):
+            if k in exc.problem:
+                print(f"  {k}: {exc.problem[k]}", file=sys.stderr)
+        return 2 if 400 <= exc.status < 500 else 3
+    if args.json:
+        json.dump(doc, sys.stdout, indent=2)
+        print()
+        return 0
+    res = doc["result"]
+    print(f"spectral assessment {doc.get('name') or doc['id']}: {len(res['load_cases'])} load "
+          f"cases, {_fmt(res['profile_s'])} s a profile; curve {res['curve'].get('name')}")
+    cols = [("method", 20), ("damage", 12), ("life rep.", 12), ("life h", 12),
+            ("reserve", 10), ("vs counting", 12), ("flags", 20)]
+    print("".join(f"{c:<{w}}" for c, w in cols))
+    for m, r in res["methods"].items():
+        rel = r.get("relative_to_time_domain")
+        row = [m + (" *" if m == res["governing_method"] else ""), _fmt(r["damage"]),
+               _fmt(r["life_repeats"]), _fmt(r["life_hours"]), _fmt(r["reserve_factor"]),
+               "-" if rel is None else f"{rel:+.1%}", ",".join(r["flags"]) or "-"]
+        print("".join(f"{str(v):<{w}}" for v, (_, w) in zip(row, cols)))
+    print("(* governs)\n\nCautions:")
+    for c in res["cautions"]:
+        print(f"  - [{c['code']}] {c['text']}")
+    print(f"\n{args.url.rstrip('/')}{doc['links']['report']}")
+    return 0
+
+
+def add_spectrum_parser(sub) -> None:
+    p = sub.add_parser("spectrum", help="assess a vibration profile of PSDs on a running "
+                       "service", description="Post a profile of PSD load cases (JSON: "
+                       "load_cases, settings, methods?) and print each method's damage, "
+                       "life and reserve factor.")
+    p.add_argument("file", help="JSON file: {load_cases, settings, methods?, name?}")
+    p.add_argument("--url", default="http://127.0.0.1:8350",
+                   help="the service (default %(default)s)")
+    p.add_argument("--json", action="store_true", help="print the stored result as JSON")
+    p.set_defaults(func=_cmd_spectrum)

@@ -149,6 +149,20 @@ CAUTION_TEXTS = {
                               "from events a recording may not hold (misuse, faults, rare "
                               "manoeuvres): check the largest loads the part must survive "
                               "apart.",
+    # Spectral methods (engine/spectral.py).
+    "spectral_gaussian": "Spectral methods assume a stationary Gaussian stress of zero mean (a "
+                         "static mean taken apart): transients, shocks, clipped or peaky "
+                         "signals and tests that change over time need counting of a time "
+                         "history.",
+    "wirsching_light_slope": "Wirsching and Light's factor is for one slope: on this curve "
+                             "with knees it is taken at the first slope (m = {slope:g}).",
+    "zhao_baker_coefficients": "Zhao and Baker's coefficients were entered without the paper "
+                               "at hand (check against the paper); on this project's test "
+                               "spectra they overestimate the counted damage, by up to a "
+                               "factor of 2 on bimodal spectra.",
+    "non_gaussian": "The history of load case {case!r} has skewness {skew:.2g} and kurtosis "
+                    "{kurtosis:.3g} (a Gaussian has 0 and 3): spectral damage may be far off; "
+                    "compare with the time-domain damage given.",
     # Edited drive signals (engine/editing.py).
     "edit_scope": "The edited signal keeps the damage on the curves and settings given; another "
                   "curve, slope or mean-stress treatment weighs the removed cycles differently, "
@@ -183,7 +197,8 @@ _SEVERITY = {
     "interaction_non_proportional_en": "warning", "strain_life_estimate": "warning",
     "haigh_ratio_mismatch": "warning", "duty_cycle_order": "warning",
     "duty_cycle_governing": "warning", "edit_short": "warning",
-    "extrapolation_extremes": "warning",
+    "extrapolation_extremes": "warning", "non_gaussian": "warning",
+    "zhao_baker_coefficients": "warning",
     "low_cycle_regime": "warning", "below_fatigue_limit": "warning",
     "yield_not_checked": "warning",
     "estimate_scatter": "general", "method_choice": "general", "engineer_sign_off": "general",

@@ -133,3 +133,24 @@ def duty_cycle_plots(resource: dict, fmt: str = "svg") -> dict[str, bytes]:
 
 def duty_cycle_page(resource: dict) -> str:
     return pages.duty_cycle_page(resource, duty_cycle_plots(resource))
+
+
+#: Plots of a spectral assessment.
+SPECTRUM_PLOTS = ("psd", "ranges")
+
+
+def spectrum_plot(name: str, dens: dict, case: str | None, fmt: str = "svg") -> bytes:
+    if name == "psd":
+        fig = plots.psd({k: (v["frequency"], v["psd"]) for k, v in dens.items()})
+    else:
+        d = dens[case]
+        fig = plots.range_densities(d["centres"], d["densities"], d["rainflow"],
+                                    title=f"Range densities: {case}")
+    return plots.render(fig, fmt)
+
+
+def spectrum_page(resource: dict, dens: dict) -> str:
+    svgs = {"psd": spectrum_plot("psd", dens, None)}
+    for case in dens:
+        svgs[f"ranges-{case}"] = spectrum_plot("ranges", dens, case)
+    return pages.spectrum_page(resource, svgs)

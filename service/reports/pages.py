@@ -326,3 +326,52 @@ def duty_cycle_page(resource: dict, plots: dict[str, bytes]) -> str:
     return _page(f"Duty cycle {resource.get('name') or resource['id']}",
                  f"{len(res['events'])} events, {len(res['points'])} points", body,
                  res["cautions"])
+
+
+SPECTRUM_COLUMNS = (("damage", "damage [-]"), ("life_repeats", "life [profiles]"),
+                    ("life_hours", "life [h]"), ("reserve_factor", "reserve factor [-]"),
+                    ("equivalent_range", "eq. range [MPa]"),
+                    ("relative_to_time_domain", "vs counting [-]"))
+
+
+def spectrum_page(resource: dict, plots: dict[str, bytes]) -> str:
+    """The page of a spectral assessment: each method's figures, the load
+    cases with their moments, the plots."""
+    res = resource["result"]
+    head = "".join(f"<th>{label}</th>" for _, label in SPECTRUM_COLUMNS)
+    rows = "".join(
+        f"<tr data-method='{html.escape(m)}'><td>{html.escape(m)}"
+        f"{' (governs)' if m == res['governing_method'] else ''}</td>"
+        + "".join(f"<td data-field='{k}'>{fmt(r.get(k))}</td>" for k, _ in SPECTRUM_COLUMNS)
+        + f"{_flags_cell(r['flags'])}</tr>" for m, r in res["methods"].items())
+    cases = "".join(
+        f"<tr data-case='{html.escape(c['name'])}'><td>{html.escape(c['name'])}</td>"
+        f"<td class='text'>{html.escape(c['source'])}</td>"
+        f"<td data-field='exposure_s'>{fmt(c['exposure_s'])}</td>"
+        f"<td data-field='rms'>{fmt(c['moments']['rms'])}</td>"
+        f"<td data-field='nu0'>{fmt(c['moments']['nu0'])}</td>"
+        f"<td data-field='nu_p'>{fmt(c['moments']['nu_p'])}</td>"
+        f"<td data-field='alpha2'>{fmt(c['moments']['alpha2'])}</td>"
+        f"<td data-field='mean_stress_mpa'>{fmt(c['mean_stress_mpa'])}</td></tr>"
+        for c in res["load_cases"])
+    td = res.get("time_domain")
+    counted = ("" if not td else f"<p>Time-domain damage of the histories (rainflow counting, "
+               f"scaled to the exposures): <b data-field='time_domain'>{fmt(td['damage'])}</b>"
+               "</p>")
+    curve = res["curve"]
+    body = [f"<section id='summary'><h2>Damage by method</h2><p>Curve "
+            f"{html.escape(str(curve.get('name')))}: {html.escape(str(curve.get('source')))}. "
+            f"Profile {fmt(res['profile_s'])} s.</p>{counted}<table><thead><tr><th>method</th>"
+            f"{head}<th>flags</th></tr></thead><tbody>{rows}</tbody></table></section>",
+            "<section id='cases'><h2>Load cases</h2><table><thead><tr><th>case</th>"
+            "<th>source</th><th>exposure [s]</th><th>rms [MPa]</th><th>nu0 [1/s]</th>"
+            "<th>nu_p [1/s]</th><th>alpha2 [-]</th><th>mean [MPa]</th></tr></thead>"
+            f"<tbody>{cases}</tbody></table></section>"]
+    figs = _figure("plot-psd", plots["psd"], "Stress PSD of each load case.") + "".join(
+        _figure(f"plot-{k}", v, f"{k[len('ranges-'):]}: predicted range densities by "
+                "method, with the rainflow histogram of its history where there is one.")
+        for k, v in plots.items() if k.startswith("ranges-"))
+    body.append(f"<section id='plots'><h2>Plots</h2><div class='plots'>{figs}</div></section>")
+    return _page(f"Spectral assessment {resource.get('name') or resource['id']}",
+                 f"{len(res['load_cases'])} load cases, governing method "
+                 f"{res['governing_method']}", body, res["cautions"])

@@ -353,6 +353,41 @@ def event_shares(shares: dict[str, dict[str, float]], title: str | None = None):
     return fig
 
 
+def psd(cases: dict[str, tuple[np.ndarray, np.ndarray]], title: str | None = None):
+    """Each load case's stress PSD on log-log axes. ``cases``: {name: (f, G)}."""
+    fig, ax = _figure(6.4, 3.0)
+    for k, (name, (f, g)) in enumerate(cases.items()):
+        keep = (f > 0) & (g > 0)
+        ax.plot(f[keep], g[keep], label=name, linewidth=1.2, **series_style(k))
+    ax.set_xscale("log")
+    ax.set_yscale("log")
+    ax.set_xlabel("frequency [Hz] (log)")
+    ax.set_ylabel("stress PSD [MPa^2/Hz] (log)")
+    ax.legend(frameon=False, fontsize=8)
+    ax.set_title(title or "Load cases", color=INK, loc="left")
+    return fig
+
+
+def range_densities(centres: np.ndarray, densities: dict[str, np.ndarray],
+                    rainflow: np.ndarray | None, title: str | None = None):
+    """Each method's predicted range density (lines) and, where a history
+    exists, its rainflow histogram (dots), as cycles per second per MPa."""
+    fig, ax = _figure(6.4, 3.0)
+    for k, (name, d) in enumerate(densities.items()):
+        keep = d > 0
+        ax.plot(centres[keep], d[keep], label=name, linewidth=1.2, **series_style(k))
+    if rainflow is not None:
+        keep = rainflow > 0
+        ax.plot(centres[keep], rainflow[keep], "o", color=INK, markersize=2.5,
+                label="rainflow of the history")
+    ax.set_yscale("log")
+    ax.set_xlabel("stress range [MPa]")
+    ax.set_ylabel("cycles per second per MPa (log)")
+    ax.legend(frameon=False, fontsize=8)
+    ax.set_title(title or "Range densities", color=INK, loc="left")
+    return fig
+
+
 def ledger_point(history_rows: list[dict], allowable: float, rate_per_hour: float | None,
                  title: str | None = None):
     """Cumulative damage over recorded hours, with the projection to the allowable sum.

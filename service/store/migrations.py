@@ -63,7 +63,8 @@ def _to_10(con) -> None:
 
 
 def _to_11(con) -> None:
-    """Duty cycles and edited drive signals: new tables, made by ``schema.sql`` itself."""
+    """Duty cycles, spectral assessments and edited drive signals: new tables, made by
+    ``schema.sql`` itself."""
 
 
 #: version -> the step from the version before it.

@@ -97,6 +97,17 @@ CREATE TABLE IF NOT EXISTS duty_cycles (
 );
 CREATE INDEX IF NOT EXISTS duty_cycles_project ON duty_cycles(project, created_at);
 
+-- Spectral assessments: PSD load cases of a vibration test profile, with their result.
+CREATE TABLE IF NOT EXISTS spectra (
+    id              TEXT PRIMARY KEY,
+    project         TEXT NOT NULL,
+    name            TEXT,
+    created_at      TEXT NOT NULL,
+    request         TEXT NOT NULL,   -- JSON: load cases (PSD tables or history references)
+    result          TEXT NOT NULL    -- JSON: per method damage, life, reserve factor
+);
+CREATE INDEX IF NOT EXISTS spectra_project ON spectra(project, created_at);
+
 -- Edited drive signals (shorter recordings that keep the damage) and their report.
 CREATE TABLE IF NOT EXISTS edits (
     id              TEXT PRIMARY KEY,

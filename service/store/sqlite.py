@@ -376,17 +376,21 @@ def get_superposition(con, project: str, sup_id: str) -> dict | None:
     return out
 
 
-# ---------------------------------------------------------------- duty cycles
+# ---------------------------------------------------------------- duty cycles, spectra
+# Documents computed once and kept: a request, its result, a name.
+
+_DOCS = ("duty_cycles", "spectra")
 
 
-def insert_duty_cycle(con, row: dict) -> None:
-    con.execute("INSERT INTO duty_cycles (id, project, name, created_at, request, result) "
+def insert_doc(con, table: str, row: dict) -> None:
+    assert table in _DOCS
+    con.execute(f"INSERT INTO {table} (id, project, name, created_at, request, result) "
                 "VALUES (?, ?, ?, ?, ?, ?)",
                 (row["id"], row["project"], row["name"], row["created_at"],
                  json.dumps(row["request"]), json.dumps(row["result"])))
 
 
-def _duty_cycle(r) -> dict | None:
+def _doc(r) -> dict | None:
     if r is None:
         return None
     out = dict(r)
@@ -395,20 +399,43 @@ def _duty_cycle(r) -> dict | None:
     return out
 
 
-def get_duty_cycle(con, project: str, duty_id: str) -> dict | None:
-    return _duty_cycle(con.execute("SELECT * FROM duty_cycles WHERE id = ? AND project = ?",
-                                   (duty_id, project)).fetchone())
+def get_doc(con, table: str, project: str, doc_id: str) -> dict | None:
+    assert table in _DOCS
+    return _doc(con.execute(f"SELECT * FROM {table} WHERE id = ? AND project = ?",
+                            (doc_id, project)).fetchone())
 
 
-def list_duty_cycles(con, project: str, limit: int = 100, offset: int = 0) -> list[dict]:
-    return [_duty_cycle(r) for r in con.execute(
-        "SELECT * FROM duty_cycles WHERE project = ? ORDER BY created_at DESC, id "
+def list_docs(con, table: str, project: str, limit: int = 100, offset: int = 0) -> list[dict]:
+    assert table in _DOCS
+    return [_doc(r) for r in con.execute(
+        f"SELECT * FROM {table} WHERE project = ? ORDER BY created_at DESC, id "
         "LIMIT ? OFFSET ?", (project, limit, offset))]
 
 
+def delete_doc(con, table: str, project: str, doc_id: str) -> bool:
+    assert table in _DOCS
+    return con.execute(f"DELETE FROM {table} WHERE id = ? AND project = ?",
+                       (doc_id, project)).rowcount > 0
+
+
+def insert_duty_cycle(con, row: dict) -> None:
+    insert_doc(con, "duty_cycles", row)
+
+
+def get_duty_cycle(con, project: str, duty_id: str) -> dict | None:
+    return get_doc(con, "duty_cycles", project, duty_id)
+
+
+def list_duty_cycles(con, project: str, limit: int = 100, offset: int = 0) -> list[dict]:
+    return list_docs(con, "duty_cycles", project, limit, offset)
+
+
 def delete_duty_cycle(con, project: str, duty_id: str) -> bool:
-    return con.execute("DELETE FROM duty_cycles WHERE id = ? AND project = ?",
-                       (duty_id, project)).rowcount > 0
+    return delete_doc(con, "duty_cycles", project, duty_id)
+
+
+def insert_spectrum(con, row: dict) -> None:
+    insert_doc(con, "spectra", row)
 
 
 # ---------------------------------------------------------------- edits

@@ -101,12 +101,20 @@ def populate(c, h) -> dict:
         "events": [{"name": "a-event", "history_id": hid, "repeats": 2}]})
     assert r.status_code == 201, r.get_json()
     duty = r.get_json()["id"]
+    r = c.post("/v1/spectra", headers=h, json={
+        "name": "a-spectrum", "settings": {"curve": "EN1993-1-9:71"},
+        "load_cases": [{"name": "a-case", "exposure_s": 60,
+                        "psd": {"frequency_hz": [1, 10, 20], "psd": [5, 5, 5]}}]})
+    assert r.status_code == 201, r.get_json()
+    spectrum = r.get_json()["id"]
     r = c.post("/v1/edits", headers=h, json={"history_id": hid, "length": 0.5,
                                              "settings": {"curve": "EN1993-1-9:71"}})
     assert r.status_code == 201, r.get_json()
     return {"history": hid, "assessment": aid, "job": jid, "block": block_id,
             "unit": uid, "superposition": sup["id"], "duty": duty, "edit": r.get_json()["id"],
-            "names": ["a-hist", "a-curve", "a-steel", "a-asset", "a-point", "a-model"]}
+            "spectrum": spectrum,
+            "names": ["a-hist", "a-curve", "a-steel", "a-asset", "a-point", "a-model",
+                      "a-duty", "a-spectrum"]}
 
 
 def cases(a: dict) -> list[tuple]:
@@ -115,6 +123,7 @@ def cases(a: dict) -> list[tuple]:
     resources by name. Destructive cases last."""
     hid, aid, jid, bid = a["history"], a["assessment"], a["job"], a["block"]
     uid, sid, did, eid = a["unit"], a["superposition"], a["duty"], a["edit"]
+    pid = a["spectrum"]
     block = dict(data=pq_bytes({"a-point": CA}), content_type=PARQUET)
     return [
         ("GET", "/v1/histories", "/v1/histories", {}, "hidden"),
@@ -196,6 +205,14 @@ def cases(a: dict) -> list[tuple]:
         ("POST", "/v1/rig-comparisons", "/v1/rig-comparisons",
          dict(json={"rig": {"history_id": hid}, "field": {"history_id": hid},
                     "settings": {"curve": "EN1993-1-9:71"}}), 404),
+        ("GET", "/v1/spectra", "/v1/spectra", {}, "hidden"),
+        ("POST", "/v1/spectra", "/v1/spectra",
+         dict(json={"settings": {"curve": "EN1993-1-9:71"},
+                    "load_cases": [{"history_id": hid, "exposure_s": 60}]}), 404),
+        ("GET", "/v1/spectra/<spectrum_id>", f"/v1/spectra/{pid}", {}, 404),
+        ("GET", "/v1/spectra/<spectrum_id>/report", f"/v1/spectra/{pid}/report", {}, 404),
+        ("GET", "/v1/spectra/<spectrum_id>/plots/<plot>", f"/v1/spectra/{pid}/plots/psd",
+         {}, 404),
         ("POST", "/v1/edits", "/v1/edits",
          dict(json={"history_id": hid, "settings": {"curve": "EN1993-1-9:71"}}), 404),
         ("GET", "/v1/edits/<edit_id>", f"/v1/edits/{eid}", {}, 404),
@@ -210,6 +227,7 @@ def cases(a: dict) -> list[tuple]:
         ("DELETE", "/v1/unit-stresses/<set_id>", f"/v1/unit-stresses/{uid}", {}, 404),
         ("DELETE", "/v1/duty-cycles/<duty_id>", f"/v1/duty-cycles/{did}", {}, 404),
         ("DELETE", "/v1/edits/<edit_id>", f"/v1/edits/{eid}", {}, 404),
+        ("DELETE", "/v1/spectra/<spectrum_id>", f"/v1/spectra/{pid}", {}, 404),
     ]
 
 

@@ -283,3 +283,25 @@ def test_edit_through_the_client_and_the_command(served, tmp_path, capsys):
     cmp = c.compare_rig_field({"history_id": hid},
                               {"history_id": hid}, settings={"curve": "EN1993-1-9:71"})
     assert cmp["points"]["g1"]["field_spans_per_rig_run"] == pytest.approx(1.0)
+
+
+def test_spectrum_through_the_client_and_the_command(served, tmp_path, capsys):
+    # Bendat's narrow-band closed form (NASA CR-33, 1964) through the client
+    # and the command: N = 1e14 / S^4, a flat 2-40 Hz band at 20 MPa^2/Hz.
+    from service.engine import spectral as sp
+
+    f = np.linspace(0.0, 80.0, 321)
+    g = np.where((f >= 2.0) & (f <= 40.0), 20.0, 0.0)
+    case = {"name": "x", "exposure_s": 3600.0,
+            "psd": {"frequency_hz": f.tolist(), "psd": g.tolist()}}
+    settings = {"basquin": {"slope": 4.0, "intercept": 1e14}}
+    c = Client(served)
+    doc = c.assess_spectrum([case], settings=settings, methods=["narrow_band", "dirlik"])
+    table = c.spectrum_summary(doc["id"])
+    want = sp.narrow_band_damage(sp.moments(f, g), 3600.0, 4.0, 1e14)
+    assert table.loc["narrow_band", "damage"] == pytest.approx(want, rel=1e-5)
+    request = tmp_path / "profile.json"
+    request.write_text(json.dumps({"load_cases": [case], "settings": settings}))
+    assert main(["spectrum", str(request), "--url", served]) == 0
+    out = capsys.readouterr().out
+    assert "dirlik *" in out and "spectral_gaussian" in out
