@@ -32,6 +32,7 @@ bench-quick: $(BIN)/.installed   ## the benchmarks' short runs
 	$(BIN)/python tests/benchmarks/bench_reports.py --quick
 	$(BIN)/python tests/benchmarks/bench_strain_life.py --quick
 	$(BIN)/python tests/benchmarks/bench_editing.py --quick
+	$(BIN)/python tests/benchmarks/bench_spectral.py --quick
 
 bench: $(BIN)/.installed         ## the benchmarks' full runs (several minutes)
 	$(BIN)/python tests/benchmarks/bench_counting.py
@@ -45,6 +46,7 @@ bench: $(BIN)/.installed         ## the benchmarks' full runs (several minutes)
 	$(BIN)/python tests/benchmarks/bench_reports.py
 	$(BIN)/python tests/benchmarks/bench_strain_life.py
 	$(BIN)/python tests/benchmarks/bench_editing.py
+	$(BIN)/python tests/benchmarks/bench_spectral.py
 
 clean:
 	rm -rf $(VENV) .cache examples/data cycleledger-data cycleledger-demo dist build

@@ -44,6 +44,7 @@ References
 
 from __future__ import annotations
 
+import functools
 import math
 from dataclasses import dataclass
 
@@ -52,8 +53,6 @@ from scipy.special import gamma as gamma_fn
 
 from .errors import InvalidParameter, unknown
 from .rainflow import CycleTable
-
-_trapezoid = getattr(np, "trapezoid", None) or np.trapz  # numpy < 2 has only trapz
 
 #: Range bins a density is laid out on (ranges from 0 to ``_TAIL`` standard
 #: deviations of the process times two).
@@ -166,7 +165,17 @@ def moments(frequency, psd) -> SpectralMoments:
     given (the PSD is taken as zero outside them).
     """
     f, g = check_psd(frequency, psd)
-    m = {k: float(_trapezoid(f ** k * g, f)) for k in (0.0, 0.75, 1.0, 1.5, 2.0, 4.0)}
+    # Trapezoid weights once; the powers by products and square roots.
+    w = np.empty_like(f)
+    d = np.diff(f)
+    w[0], w[-1] = 0.5 * d[0], 0.5 * d[-1]
+    w[1:-1] = 0.5 * (d[:-1] + d[1:])
+    gw = g * w
+    root = np.sqrt(f)
+    f2 = f * f
+    powers = np.vstack([np.ones_like(f), np.sqrt(f * root), f, f * root, f2, f2 * f2])
+    vals = powers @ gw
+    m = dict(zip((0.0, 0.75, 1.0, 1.5, 2.0, 4.0), (float(v) for v in vals)))
     if m[2.0] <= 0 or m[4.0] <= 0:
         raise InvalidParameter("the PSD has no power above 0 Hz: no crossings to count",
                                field="psd")
@@ -322,6 +331,33 @@ def expected_cycles(mom: SpectralMoments, method: str, exposure_s: float, edges,
     return centres, rate * exposure_s * p * np.diff(edges)
 
 
+#: Gauss-Legendre nodes per piece of the range axis, and the pieces the
+#: axis from 0 to the tail is cut into before the knees are added.
+GAUSS_NODES = 24
+_PIECES = 8
+
+
+@functools.lru_cache(maxsize=8)
+def _gauss(n: int) -> tuple[np.ndarray, np.ndarray]:
+    return np.polynomial.legendre.leggauss(n)
+
+
+def quadrature(mom: SpectralMoments, knees=(), nodes: int = GAUSS_NODES):
+    """``(ranges, weights)``: Gauss-Legendre nodes and weights over the
+    range axis from 0 to far in the tail, cut at ``knees`` [MPa] (where
+    the integrand changes slope or stops) so that each piece is smooth.
+    [MPa], [MPa]"""
+    top = 2.0 * _TAIL * math.sqrt(mom.m0)
+    cuts = np.linspace(0.0, top, _PIECES + 1)
+    extra = [k for k in knees if 0.0 < k < top]
+    if extra:
+        cuts = np.unique(np.concatenate([cuts, extra]))
+    x, w = _gauss(nodes)
+    half = 0.5 * np.diff(cuts)
+    mid = 0.5 * (cuts[:-1] + cuts[1:])
+    return (mid[:, None] + half[:, None] * x[None, :]).ravel(), (half[:, None] * w).ravel()
+
+
 def cycle_table(centres, counts, mean_stress: float = 0.0) -> CycleTable:
     """Expected cycles as a cycle table (from mean - S/2 to mean + S/2)."""
     keep = counts > 0
@@ -470,7 +506,7 @@ def largest_expected_range(centres, counts) -> float:
 
 
 def assess_spectrum(cases, curve, options=None, methods=DEFAULT_METHODS,
-                    bins: int = RANGE_BINS) -> dict[str, SpectralResult]:
+                    bins: int = GAUSS_NODES) -> dict[str, SpectralResult]:
     r"""
     Damage of a test profile of PSD load cases by each spectral method.
 
@@ -483,7 +519,7 @@ def assess_spectrum(cases, curve, options=None, methods=DEFAULT_METHODS,
     methods : sequence of str
         Keys of :data:`RANGE_DENSITIES`.
     bins : int
-        Range bins per load case.
+        Gauss-Legendre nodes per smooth piece of the range axis.
 
     Returns
     -------
@@ -492,10 +528,10 @@ def assess_spectrum(cases, curve, options=None, methods=DEFAULT_METHODS,
 
     Notes
     -----
-    For each case the expected cycles :math:`\nu T p(S)\,\Delta S` of every
-    range bin (midpoint rule; the curve's knees and cut-off, at the
-    history's scale, are bin edges) become rows of one cycle table at the
-    case's mean; :math:`D = \sum n_i/N_i` on the curve with every option
+    For each case the expected cycles :math:`\nu T p(S)\,w` at the
+    Gauss-Legendre nodes of :func:`quadrature` (the curve's knees and
+    cut-off, at the history's scale, cut the axis into smooth pieces)
+    become rows of one cycle table at the case's mean; :math:`D = \sum n_i/N_i` on the curve with every option
     (factors, mean-stress correction) as for a recording. The reserve
     factor scales the stress, so the PSD by its square.
     """
@@ -518,19 +554,24 @@ def assess_spectrum(cases, curve, options=None, methods=DEFAULT_METHODS,
             raise InvalidParameter(f"load case {c.name!r}: exposure_s must be > 0",
                                    field="exposure_s")
     plain = replace(opts, reserve_factor=False, top_cycles=0)
+    full = replace(opts, top_cycles=0)
+    nodes = [quadrature(mom, knees, bins) for mom in moms]
     out = {}
     for method in methods:
         tables, per_case, centres, density, largest = [], {}, [], [], {}
-        for c, mom in zip(cases, moms):
-            edges = range_edges(mom, knees, bins)
-            s, n = expected_cycles(mom, method, c.exposure_s, edges, slope)
+        for c, mom, (s, w) in zip(cases, moms, nodes):
+            rate, p = range_density(mom, method, s, slope)
+            n = rate * c.exposure_s * p * w
             n = np.where(_tail_counts(n) >= TAIL_CYCLES, n, 0.0)
             t = cycle_table(s, n, c.mean_stress)
             tables.append(t)
-            per_case[c.name] = assess(t, curve, plain).damage if len(t) else 0.0
+            if len(cases) > 1:
+                per_case[c.name] = assess(t, curve, plain).damage if len(t) else 0.0
             centres.append(s)
-            density.append(n / (c.exposure_s * np.diff(edges)))
+            density.append(rate * p)
             largest[c.name] = largest_expected_range(s, n)
-        r = assess(CycleTable.concat(tables), curve, replace(opts, top_cycles=0))
+        r = assess(tables[0] if len(tables) == 1 else CycleTable.concat(tables), curve, full)
+        if len(cases) == 1:
+            per_case[cases[0].name] = r.damage
         out[method] = SpectralResult(method, r, per_case, centres, density, largest)
     return out
