@@ -209,3 +209,40 @@ def test_rig_against_field_is_the_damage_ratio_per_pass_and_per_hour(client):
     assert "rig_field_same_curve" in {c["code"] for c in r.get_json()["cautions"]}
     assert_problem(client.post("/v1/rig-comparisons", json={"rig": {"history_id": rig}}),
                    422, "invalid-parameter")
+
+
+def test_a_distance_target_the_order_caution_and_a_short_event(client):
+    # Two events whose own cycles are small (20 MPa) about different means
+    # (+100 and -60): the 180 MPa cycle between them carries all the damage on
+    # EN 1993-1-9 curve 71, which the order caution says. Distances: 2 km a
+    # pass of "up", 0.5 km of "down"; 3 + 2 passes = 7 km a duty cycle, so
+    # 70 000 km are 10 000 duty cycles, each doing one 180 MPa cycle:
+    # 1e4 / (2e6 (71/180)^3) (eq. (7.1)), but for the first rise and the end.
+    up = _history(client, {"g": np.tile([90.0, 110.0], 50)})
+    down = _history(client, {"g": np.tile([-70.0, -50.0], 50)})
+    r = client.post("/v1/duty-cycles", json={
+        "settings": {"curve": "EN1993-1-9:71"}, "target": {"distance": 70_000,
+                                                            "distance_unit": "km"},
+        "events": [{"name": "up", "history_id": up, "distance": 6.0,
+                    "distance_per_repeat": 2.0},
+                   {"name": "down", "history_id": down, "repeats": 2,
+                    "distance_per_repeat": 0.5}]})
+    assert r.status_code == 201, r.get_json()
+    res = r.get_json()["result"]
+    assert res["duty_cycle_distance"] == pytest.approx(7.0)
+    assert res["duty_cycles"] == pytest.approx(10_000.0)
+    p = res["points"]["g"]
+    one = 1.0 / (2e6 * (71.0 / 180.0) ** 3)
+    assert p["damage_per_duty_cycle"] == pytest.approx(one, rel=1e-12)
+    assert 9_999 * one < p["damage"] < 10_000 * one
+    assert p["life_distance"] == pytest.approx(7.0 / one, rel=1e-12)
+    assert p["between_events_share"] == pytest.approx(1.0)
+    codes = {c["code"] for c in p["cautions"]}
+    assert "duty_cycle_order" in codes
+    # Half a pass of an event: its cycles scaled, and said so.
+    r = client.post("/v1/duty-cycles", json={
+        "settings": {"curve": "EN1993-1-9:71"},
+        "events": [{"name": "up", "history_id": up, "repeats": 0.5},
+                   {"name": "down", "history_id": down, "repeats": 1}]})
+    assert "duty_cycle_short_event" in {c["code"] for c in
+                                        r.get_json()["result"]["points"]["g"]["cautions"]}
