@@ -16,7 +16,7 @@ from service import formatting
 from service.api import create_app
 from service.store import keys, sqlite
 from tests.api.conftest import stop_waitress
-from tests.api.test_ledger import post, setup_asset
+from tests.api.test_ledger import pq_bytes, post, setup_asset
 
 CHROMIUM = shutil.which("chromium") or shutil.which("chromium-browser")
 DRIVER = shutil.which("chromedriver")
@@ -184,3 +184,30 @@ def test_a_key_typed_into_the_page_is_used(browser):
     # The 401s before the key are expected console messages; nothing else.
     other = [e for e in console_errors(driver) if "401" not in e["message"]]
     assert not other, other
+
+
+def test_duty_cycles_and_vibration_profiles_show_the_api_numbers(browser):
+    app, url, driver = browser
+    c = app.test_client()
+    r = c.post("/v1/histories?unit=MPa&sample_rate_hz=50",
+               data=pq_bytes({"g": np.tile([-80.0, 80.0], 200)}),
+               content_type="application/vnd.apache.parquet")
+    hid = r.get_json()["id"]
+    duty = c.post("/v1/duty-cycles", json={
+        "name": "yard shift", "settings": {"curve": "EN1993-1-9:71"}, "target": {"repeats": 1e4},
+        "events": [{"name": "lifts", "history_id": hid, "repeats": 3}]}).get_json()
+    spec = c.post("/v1/spectra", json={
+        "name": "shaker z", "settings": {"curve": "EN1993-1-9:71"},
+        "load_cases": [{"exposure_s": 600, "psd": {"frequency_hz": [2, 40], "psd": [20, 20]}}]
+    }).get_json()
+    driver.get(url + "/")
+    wait_for(driver, f'tr[data-duty-cycle="{duty["id"]}"]')
+    shown = cells(driver, f'tr[data-duty-cycle="{duty["id"]}"]')
+    assert shown["passed"] == ("pass" if duty["passed"] else "fail")
+    assert shown["worst_point"] == duty["worst_point"] == "g"
+    wait_for(driver, f'tr[data-spectrum="{spec["id"]}"]')
+    shown = cells(driver, f'tr[data-spectrum="{spec["id"]}"]')
+    assert shown["damage"] == formatting.number(spec["damage"])
+    assert shown["reserve_factor"] == formatting.number(spec["reserve_factor"])
+    assert shown["governing_method"] == "dirlik"
+    assert not console_errors(driver), console_errors(driver)
