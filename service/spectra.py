@@ -185,10 +185,15 @@ def evaluate(con, data_dir, project: str, request: dict, lookup=None) -> dict:
                                  "scaled to each exposure"}
     out_methods = {}
     for m, r in results.items():
+        if r.not_applicable is not None:
+            out_methods[m] = {"applicable": False, "not_applicable": r.not_applicable,
+                              "damage": None, "life_repeats": None, "life_hours": None,
+                              "reserve_factor": None, "flags": [], "cautions": []}
+            continue
         a = r.assessment
         life = math.inf if a.damage == 0 else opts.allowable_damage / a.damage
         out_methods[m] = {
-            "damage": a.damage, "life_repeats": life, "life_hours": life * profile_s / 3600.0,
+            "applicable": True, "damage": a.damage, "life_repeats": life, "life_hours": life * profile_s / 3600.0,
             "reserve_factor": a.reserve_factor, "reserve_limited_by": a.reserve_limited_by,
             "equivalent_range": a.equivalent_range, "equivalent_cycles": a.equivalent_cycles,
             "cycles_counted": a.cycles_counted, "below_limit": a.below_limit,
@@ -197,8 +202,17 @@ def evaluate(con, data_dir, project: str, request: dict, lookup=None) -> dict:
             "relative_to_time_domain": (a.damage / time_domain["damage"] - 1.0
                                         if time_domain and time_domain["damage"] > 0 else None),
             "cautions": [c for c in a.caution_dicts() if c["code"] != "residue_share"]}
-    governing = methods[0]
+    usable = [m for m in methods if out_methods[m]["applicable"]]
+    if not usable:
+        raise InvalidParameter("none of the methods asked applies to these spectra: "
+                               + "; ".join(out_methods[m]["not_applicable"] for m in methods),
+                               field="methods")
+    governing = usable[0]
     notes = [cautions.caution("spectral_gaussian")]
+    for m in methods:
+        if not out_methods[m]["applicable"]:
+            notes.append(cautions.caution("spectral_not_applicable", method=m,
+                                          why=out_methods[m]["not_applicable"]))
     if "wirsching_light" in methods and len(curve.slopes) > 1:
         notes.append(cautions.caution("wirsching_light_slope", slope=curve.slopes[0]))
     if "zhao_baker" in methods:
@@ -235,7 +249,9 @@ def densities(request: dict, result: dict, con, data_dir, project: str) -> dict:
         mom = spectral.moments(case.frequency, case.psd)
         edges = spectral.range_edges(mom, bins=_PLOT_BINS)
         dens = {}
-        for m in result["methods"]:
+        for m, r in result["methods"].items():
+            if not r.get("applicable", True):
+                continue
             centres, counts = spectral.expected_cycles(mom, m, 1.0, edges)
             dens[m] = counts / np.diff(edges)
         hist = None

@@ -4,10 +4,49 @@ from __future__ import annotations
 
 from pathlib import Path
 
+from service import formatting
+
 from ._shared import print_report
+from .duty import print_duty_cycle
 from .assess import assess_file
 from .remote import post_file
 from .serve import stop_waitress, waitress_options
+
+
+def _design_life(client, report: dict) -> tuple[dict, dict]:
+    """The demo's design life and vibration profile: the rig recording as a
+    duty cycle with a target of ``demo.DESIGN_HOURS`` (with a heavier
+    payload as a what-if), and the
+    upper weld toe's signal as a PSD load case (spectral methods against
+    its own rainflow count). Printed and returned."""
+    from service import demo
+
+    duty = client.create_duty_cycle(
+        [{"name": "dig and dump", "assessment_id": report["assessment_id"], "hours": 1.0}],
+        target={"hours": demo.DESIGN_HOURS},
+        name=f"loader arm rig test, {demo.DESIGN_HOURS} h",
+        variants=[{"name": "payload +10 %", "load_scale": 1.1}])
+    print()
+    print_duty_cycle(duty)
+    upper = demo.points()["points"]["weld_toe_upper"]
+    spectrum = client.assess_spectrum(
+        [{"name": "upper weld toe", "history_id": report["history_id"],
+          "channel": "weld_toe_upper", "exposure_s": 3600.0}],
+        settings=upper, name="loader arm, one hour of the rig signal as a PSD")
+    res = spectrum["result"]
+    td = res["time_domain"]["damage"]
+    print(f"\nOne hour of the upper weld toe's signal as a PSD (Welch), damage by method "
+          f"(time-domain counting: {formatting.number(td)}):")
+    for m, r in res["methods"].items():
+        if not r["applicable"]:
+            print(f"  {m:<18} not applicable: {r['not_applicable']}")
+            continue
+        print(f"  {m:<18} {formatting.number(r['damage']):>10}  "
+              f"({r['relative_to_time_domain']:+.0%} of counting)")
+    for c in res["cautions"]:
+        if c["code"] in ("non_gaussian", "spectral_gaussian"):
+            print(f"  - [{c['code']}] {c['text']}")
+    return duty, spectrum
 
 
 def _cmd_demo(args) -> int:
@@ -36,6 +75,7 @@ def _cmd_demo(args) -> int:
         report = post_file(client, csv, config)
         print_report(report)
         a = report["assessment_id"]
+        duty, spectrum = _design_life(client, report)
         from service.store import keys, sqlite
 
         con = sqlite.connect(app.config["DATA_DIR"])
@@ -49,7 +89,9 @@ def _cmd_demo(args) -> int:
                      f"/v1/assessments/{a}/report", "/v1/assessments/" + a,
                      f"/v1/assessments/{a}/summary?format=csv",
                      f"/v1/assessments/{a}/points/pin_lug/cycles?format=csv",
-                     f"/v1/assessments/{a}/points/pin_lug/range-mean", "/v1/curves",
+                     f"/v1/assessments/{a}/points/pin_lug/range-mean",
+                     f"/v1/duty-cycles/{duty['id']}/report",
+                     f"/v1/spectra/{spectrum['id']}/report", "/v1/curves",
                      "/openapi.yaml"):
             print(f"  {url}{path}")
         if args.no_wait:

@@ -17,7 +17,8 @@ def print_duty_cycle(doc: dict, out=None) -> None:
     print(f"duty cycle {doc.get('name') or doc['id']}  (target {target}; "
           f"{_fmt(res['duty_cycles'])} duty cycles of {_fmt(res['duty_cycle_hours'])} h; "
           f"stresses in MPa)", file=out)
-    cols = [("point", 14), ("verdict", 9), ("damage", 10), ("allowable", 10),
+    width = max([16] + [len(p) + 2 for p in res["points"]])
+    cols = [("point", width), ("verdict", 9), ("damage", 10), ("allowable", 10),
             ("reserve", 9), ("life dc", 10), ("life h", 10), ("dominant event", 18),
             ("flags", 20)]
     print("".join(f"{c:<{w}}" for c, w in cols), file=out)
@@ -172,6 +173,9 @@ def _cmd_spectrum(args) -> int:
             ("reserve", 10), ("vs counting", 12), ("flags", 20)]
     print("".join(f"{c:<{w}}" for c, w in cols))
     for m, r in res["methods"].items():
+        if not r["applicable"]:
+            print(f"{m:<20}not applicable (see the cautions)")
+            continue
         rel = r.get("relative_to_time_domain")
         row = [m + (" *" if m == res["governing_method"] else ""), _fmt(r["damage"]),
                _fmt(r["life_repeats"]), _fmt(r["life_hours"]), _fmt(r["reserve_factor"]),

@@ -28,6 +28,8 @@ RATE_HZ = 500.0
 DURATION_S = 120.0
 SEED = 20261202
 YOUNGS_MODULUS_MPA = 206_000.0
+#: The demo's rig-test target: hours of the dig-and-dump cycle.
+DESIGN_HOURS = 100
 
 #: Where the demo recording goes when no path is given: under the working
 #: folder (an installed package's own folder may not be writable).

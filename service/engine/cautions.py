@@ -160,6 +160,7 @@ CAUTION_TEXTS = {
                                "at hand (check against the paper); on this project's test "
                                "spectra they overestimate the counted damage, by up to a "
                                "factor of 2 on bimodal spectra.",
+    "spectral_not_applicable": "{method} is not applied: {why}.",
     "non_gaussian": "The history of load case {case!r} has skewness {skew:.2g} and kurtosis "
                     "{kurtosis:.3g} (a Gaussian has 0 and 3): spectral damage may be far off; "
                     "compare with the time-domain damage given.",
@@ -198,7 +199,7 @@ _SEVERITY = {
     "haigh_ratio_mismatch": "warning", "duty_cycle_order": "warning",
     "duty_cycle_governing": "warning", "edit_short": "warning",
     "extrapolation_extremes": "warning", "non_gaussian": "warning",
-    "zhao_baker_coefficients": "warning",
+    "zhao_baker_coefficients": "warning", "spectral_not_applicable": "warning",
     "low_cycle_regime": "warning", "below_fatigue_limit": "warning",
     "yield_not_checked": "warning",
     "estimate_scatter": "general", "method_choice": "general", "engineer_sign_off": "general",

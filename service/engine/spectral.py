@@ -470,6 +470,10 @@ class SpectralResult:
         per second per MPa, :math:`\\nu p(S)` [1/(s MPa)] (for plots).
     largest_range : dict
         Per load case the range expected once over its exposure. [MPa]
+    not_applicable : str or None
+        Why the method does not apply to one of the spectra (its density
+        would have negative weights); then ``assessment`` is None and
+        nothing else is filled.
     """
 
     method: str
@@ -478,7 +482,24 @@ class SpectralResult:
     centres: list
     density: list
     largest_range: dict
+    not_applicable: str | None = None
 
+
+def outside_range(mom: SpectralMoments, method: str) -> str | None:
+    """Why ``method``'s density is not a density for this spectrum (a
+    weight outside [0, 1], a scale not positive), or None. Using it anyway
+    would give negative or lost damage."""
+    if method == "dirlik":
+        c = dirlik_coefficients(mom)
+        if min(c["D1"], c["D2"], c["D3"]) < 0 or c["Q"] <= 0 or not 0 < c["R"] < 1:
+            return (f"Dirlik's weights D1 {c['D1']:.3g}, D2 {c['D2']:.3g}, D3 {c['D3']:.3g} "
+                    f"(Q {c['Q']:.3g}, R {c['R']:.3g}) are not a mixture for this spectrum")
+    elif method == "zhao_baker":
+        w = zhao_baker_coefficients(mom)["w"]
+        if not 0.0 <= w <= 1.0:
+            return (f"Zhao and Baker's weight w = {w:.3g} is outside [0, 1] for "
+                    f"alpha2 = {mom.alpha2:.3g}: the method does not cover so wide a band")
+    return None
 
 def _knees(curve, opts) -> list[float]:
     """Ranges of the history at which the curve changes slope or stops
@@ -558,6 +579,10 @@ def assess_spectrum(cases, curve, options=None, methods=DEFAULT_METHODS,
     nodes = [quadrature(mom, knees, bins) for mom in moms]
     out = {}
     for method in methods:
+        why = next((w for w in (outside_range(mom, method) for mom in moms) if w), None)
+        if why is not None:
+            out[method] = SpectralResult(method, None, {}, [], [], {}, why)
+            continue
         tables, per_case, centres, density, largest = [], {}, [], [], {}
         for c, mom, (s, w) in zip(cases, moms, nodes):
             rate, p = range_density(mom, method, s, slope)

@@ -340,6 +340,9 @@ def spectrum_page(resource: dict, plots: dict[str, bytes]) -> str:
     res = resource["result"]
     head = "".join(f"<th>{label}</th>" for _, label in SPECTRUM_COLUMNS)
     rows = "".join(
+        f"<tr data-method='{html.escape(m)}'><td>{html.escape(m)}</td>"
+        "<td class='text' colspan='7'>not applicable (see the cautions)</td></tr>"
+        if not r.get("applicable", True) else
         f"<tr data-method='{html.escape(m)}'><td>{html.escape(m)}"
         f"{' (governs)' if m == res['governing_method'] else ''}</td>"
         + "".join(f"<td data-field='{k}'>{fmt(r.get(k))}</td>" for k, _ in SPECTRUM_COLUMNS)

@@ -161,6 +161,9 @@ def test_demo_command_starts_posts_and_stops(tmp_path, capsys):
     for gauge in ("weld_toe_upper", "weld_toe_lower", "pin_lug", "cylinder_mount"):
         assert gauge in out
     assert "Service on http://127.0.0.1:" in out and "/summary?format=csv" in out
+    # The design life and the vibration profile made from the same recording.
+    assert "duty cycle loader arm rig test, 100 h" in out and "payload +10 %" in out
+    assert "dirlik" in out and "/v1/duty-cycles/d_" in out and "/v1/spectra/s_" in out
 
 
 def _demo_csv(tmp_path):

@@ -106,3 +106,22 @@ def test_errors(client):
                    "not-found", field="history_id")
     assert_problem(post(load_cases=[{"acceleration_psd": ok, "exposure_s": 1}]), 422,
                    "invalid-parameter", field="transfer")
+
+
+def test_a_method_that_does_not_apply_is_said_so(client):
+    f = np.linspace(0.0, 250.0, 2001)
+    g = np.exp(-0.5 * ((f - 2.0) / 0.3) ** 2) * 100.0 + 0.002
+    case = {"exposure_s": 600.0, "psd": {"frequency_hz": f.tolist(), "psd": g.tolist()}}
+    r = client.post("/v1/spectra", json={"settings": BASQUIN4, "load_cases": [case],
+                                         "methods": ["zhao_baker", "dirlik"]})
+    assert r.status_code == 201, r.get_json()
+    res = r.get_json()["result"]
+    zb = res["methods"]["zhao_baker"]
+    assert zb["applicable"] is False and zb["damage"] is None
+    assert res["governing_method"] == "dirlik"  # the first that applies
+    assert "spectral_not_applicable" in {c["code"] for c in res["cautions"]}
+    page = client.get(r.get_json()["links"]["report"]).get_data(as_text=True)
+    assert "not applicable" in page
+    only = client.post("/v1/spectra", json={"settings": BASQUIN4, "load_cases": [case],
+                                            "methods": ["zhao_baker"]})
+    assert_problem(only, 422, "invalid-parameter", field="methods")

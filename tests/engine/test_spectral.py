@@ -187,3 +187,18 @@ def test_bad_tables_name_the_line():
     with pytest.raises(Exception):
         sp.assess_spectrum([sp.LoadCase("a", F, SPECTRA["wide"], 1.0)],
                            basquin_range(3.0, 1e12), methods=["nope"])
+
+
+def test_a_method_outside_its_range_is_not_applied_rather_than_zero():
+    # A slow peak under a faint flat floor to 250 Hz: alpha2 = 0.06, where
+    # Zhao and Baker's weight w exceeds 1 (its Rayleigh part would carry a
+    # negative weight): the method is marked not applicable, never given a
+    # damage; Dirlik's weights stay a mixture and it is applied.
+    f = np.linspace(0.0, 250.0, 2001)
+    g = np.exp(-0.5 * ((f - 2.0) / 0.3) ** 2) * 100.0 + 0.002
+    mom = sp.moments(f, g)
+    assert mom.alpha2 < 0.1 and sp.zhao_baker_coefficients(mom)["w"] > 1.0
+    assert sp.outside_range(mom, "zhao_baker") and sp.outside_range(mom, "dirlik") is None
+    r = sp.assess_spectrum([sp.LoadCase("slow", f, g, 3600.0)], basquin_range(3.0, 1e12))
+    assert r["zhao_baker"].assessment is None and "w = " in r["zhao_baker"].not_applicable
+    assert r["dirlik"].assessment.damage > 0
