@@ -133,7 +133,7 @@ def strain_life_from_dict(settings: dict):
     ``brinell_hardness``, ``material_class``, ``youngs_modulus``}),
     ``input`` (nominal, local_elastic, local_strain), ``kt``,
     ``notch_rule`` (neuber, glinka) and ``mean_stress_method`` (morrow,
-    smith_watson_topper, none)."""
+    smith_watson_topper, walker with the material's walker_exponent, none)."""
     from . import strain_life as sl
 
     extra = set(settings) - {"method", "strain_life"} - _STRAIN_LIFE_OPTIONS
@@ -172,6 +172,10 @@ def strain_life_from_dict(settings: dict):
     if params["mean_stress_method"] not in sl.STRAIN_MEAN_STRESS:
         raise unknown("mean_stress_method", params["mean_stress_method"],
                       sl.STRAIN_MEAN_STRESS)
+    if params["mean_stress_method"] == "walker" and material.walker_exponent is None:
+        raise InvalidParameter("strain_life mean_stress_method walker needs walker_exponent "
+                               "in the material (gamma, from tests at several R ratios)",
+                               field="walker_exponent")
     kt = params["kt"]
     if isinstance(kt, bool) or not isinstance(kt, (int, float)) or not 1.0 <= kt <= 20.0:
         raise InvalidParameter(f"kt {kt!r} must be in [1, 20]", field="kt", value=kt)

@@ -66,7 +66,7 @@ INPUTS = ("nominal", "local_elastic", "local_strain")
 #: Elastic-to-local rules (for the stress inputs).
 NOTCH_RULES = ("neuber", "glinka")
 #: Mean-stress forms of the strain-life curve.
-STRAIN_MEAN_STRESS = ("none", "morrow", "smith_watson_topper")
+STRAIN_MEAN_STRESS = ("none", "morrow", "smith_watson_topper", "walker")
 #: Codes inside the kernels.
 _RULE_CODES = {"neuber": 0, "glinka": 1, "strain": 2}
 
@@ -79,8 +79,10 @@ class StrainLifeMaterial:
     ``cyclic_hardening_exponent`` n' [-] of the Ramberg-Osgood cyclic curve;
     ``fatigue_strength_coefficient`` sigma_f' [MPa], ``fatigue_strength_exponent``
     b [-], ``fatigue_ductility_coefficient`` eps_f' [-] and
-    ``fatigue_ductility_exponent`` c [-] of Coffin-Manson-Basquin. ``source``
-    says where they come from (test data, or an estimate by name).
+    ``fatigue_ductility_exponent`` c [-] of Coffin-Manson-Basquin;
+    ``walker_exponent`` gamma [-] of Walker's mean-stress form, when known
+    (from tests at several R ratios). ``source`` says where they come from
+    (test data, or an estimate by name).
     """
 
     youngs_modulus: float
@@ -91,6 +93,7 @@ class StrainLifeMaterial:
     fatigue_ductility_coefficient: float
     fatigue_ductility_exponent: float
     source: str = "user data"
+    walker_exponent: float | None = None
 
     def __post_init__(self):
         for name in ("youngs_modulus", "cyclic_strength_coefficient",
@@ -106,6 +109,11 @@ class StrainLifeMaterial:
             if isinstance(v, bool) or not isinstance(v, (int, float)) or not (-1.5 < v < 0):
                 raise InvalidParameter(f"{name} {v!r} must be negative (typically -0.05 to "
                                        f"-0.15 for b, -0.4 to -0.8 for c)", field=name, value=v)
+        g = self.walker_exponent
+        if g is not None and (isinstance(g, bool) or not isinstance(g, (int, float))
+                              or not 0.0 < g <= 1.0):
+            raise InvalidParameter(f"walker_exponent {g!r} must be in (0, 1] (1: no mean-"
+                                   "stress effect)", field="walker_exponent", value=g)
         if not self.cyclic_hardening_exponent < 1:
             raise InvalidParameter("cyclic_hardening_exponent must be below 1",
                                    field="cyclic_hardening_exponent")
@@ -364,7 +372,16 @@ def reversals_to_failure(strain_amplitude, material: StrainLifeMaterial, *,
     \varepsilon_f'(2N)^c` (0 where :math:`\sigma_m \ge \sigma_f'`);
     ``smith_watson_topper``: :math:`\sigma_{max}\varepsilon_a =
     \sigma_f'^2/E\,(2N)^{2b} + \sigma_f'\varepsilon_f'(2N)^{b+c}` (inf, no
-    damage, where :math:`\sigma_{max} \le 0`); ``none``: no mean term.
+    damage, where :math:`\sigma_{max} \le 0`); ``walker``: the fully reversed
+    curve at a shifted life, :math:`\varepsilon_a = \sigma_f'/E\,(2N)^b
+    \left(\frac{1-R}{2}\right)^{1-\gamma} + \varepsilon_f'(2N)^c
+    \left(\frac{1-R}{2}\right)^{(1-\gamma)c/b}` with
+    :math:`(1-R)/2 = \sigma_a/\sigma_{max}` and :math:`\gamma` the
+    material's ``walker_exponent`` (Walker's :math:`\sigma_{ar} =
+    \sigma_{max}^{1-\gamma}\sigma_a^\gamma` carried into both terms, as in
+    N. E. Dowling, "Mean stress effects in strain-life fatigue," *Fatigue
+    Fract. Eng. Mater. Struct.*, vol. 32, pp. 1004-1019, 2009; inf where
+    :math:`\sigma_{max} \le 0`); ``none``: no mean term.
     Solved for :math:`\log 2N` by Newton's method (the right side falls
     monotonically with life).
     """
@@ -375,6 +392,21 @@ def reversals_to_failure(strain_amplitude, material: StrainLifeMaterial, *,
                        m.fatigue_ductility_exponent)
     if mean_stress_method not in STRAIN_MEAN_STRESS:
         raise unknown("mean_stress_method", mean_stress_method, STRAIN_MEAN_STRESS)
+    if mean_stress_method == "walker":
+        gamma = m.walker_exponent
+        if gamma is None:
+            raise InvalidParameter("the walker form needs the material's walker_exponent "
+                                   "(gamma, from tests at several R ratios)",
+                                   field="walker_exponent")
+        smax = np.asarray(max_stress, dtype=np.float64)
+        sa = smax - np.asarray(mean_stress, dtype=np.float64)
+        base = reversals_to_failure(ea, m, mean_stress_method="none")
+        out = np.full(ea.shape, np.inf)
+        live = (smax > 0.0) & (sa > 0.0)
+        # The fully reversed life shifted: 2N = 2N_0 / ((1 - R)/2)^((1 - gamma)/b).
+        shift = np.power(sa[live] / smax[live], (1.0 - gamma) / b)
+        out[live] = base[live] / shift
+        return out
     if mean_stress_method == "smith_watson_topper":
         smax = np.asarray(max_stress, dtype=np.float64)
         target = np.where(smax > 0.0, smax * ea, 0.0)

@@ -119,3 +119,25 @@ def test_a_ledger_strain_life_point_equals_the_whole_history(client):
     kept = sl.assess_strain_life(np.concatenate([x[:1702], x[3900:]]), mat, kt=2.6,
                                  mean_stress_method="morrow", gate=2.0, reserve_factor=False)
     assert point["damage_if_ended"] == pytest.approx(kept.damage, rel=1e-12)
+
+
+def test_walker_needs_the_materials_exponent(client):
+    # Walker's form with gamma from the material: the result equals the
+    # engine's (tested by hand in tests/engine/test_strain_life.py); without
+    # walker_exponent the point is refused before anything is counted.
+    x = nominal()
+    settings = {"method": "strain_life", "strain_life": {
+        "material": {**MATERIAL, "walker_exponent": 0.55}, "kt": 2.5,
+        "mean_stress_method": "walker"}}
+    r = client.post("/v1/assessments", json={
+        "samples": {"fillet": x.tolist()}, "unit": "MPa", "sample_rate_hz": 100,
+        "points": {"fillet": settings}})
+    assert r.status_code == 201, r.get_json()
+    ref = sl.assess_strain_life(x, sl.StrainLifeMaterial(**MATERIAL, walker_exponent=0.55),
+                                kt=2.5, mean_stress_method="walker", duration_s=30.0)
+    assert r.get_json()["points"]["fillet"]["damage"] == pytest.approx(ref.damage, rel=1e-12)
+    bare = {"method": "strain_life", "strain_life": {
+        "material": MATERIAL, "kt": 2.5, "mean_stress_method": "walker"}}
+    r = client.post("/v1/assessments", json={
+        "samples": {"fillet": x.tolist()}, "unit": "MPa", "points": {"fillet": bare}})
+    assert_problem(r, 422, "invalid-parameter", field="walker_exponent")

@@ -20,6 +20,7 @@ from service.engine import strain_life as sl
 from service.engine.assessment import AssessmentOptions
 from service.engine.damage import assess_history
 from service.engine.sn_curve import basquin_amplitude
+from service.engine.errors import InvalidParameter
 
 # A steel of the kind the uniform material law describes (invented values).
 STEEL = sl.StrainLifeMaterial(206_000.0, 1150.0, 0.16, 1050.0, -0.085, 0.45, -0.6)
@@ -94,6 +95,35 @@ def test_coffin_manson_basquin_morrow_and_swt_by_hand():
     assert sl.reversals_to_failure([0.002], m, mean_stress=[1100.0])[0] == 0.0
 
 
+def test_walker_by_hand():
+    # Walker's sigma_ar = sigma_max^(1 - g) sigma_a^g carried into both terms
+    # (N. E. Dowling, FFEMS 32, 2009, from memory): eps_a = sf/E (2N)^b
+    # ((1-R)/2)^(1-g) + ef (2N)^c ((1-R)/2)^((1-g) c/b), (1-R)/2 = sa/smax.
+    E, sf, b, ef, c, g = 206_000.0, 1050.0, -0.085, 0.45, -0.6, 0.6
+    m = sl.StrainLifeMaterial(E, 1150.0, 0.16, sf, b, ef, c, walker_exponent=g)
+    for two_n in (1e3, 1e5, 1e7):
+        for sa, smax in ((200.0, 300.0), (150.0, 150.0), (250.0, 500.0)):
+            r = sa / smax
+            ea = sf / E * two_n ** b * r ** (1 - g) + ef * two_n ** c * r ** ((1 - g) * c / b)
+            got = sl.reversals_to_failure([ea], m, mean_stress=[smax - sa], max_stress=[smax],
+                                          mean_stress_method="walker")[0]
+            assert got == pytest.approx(two_n, rel=1e-9)
+    # Fully reversed (R = -1): no shift; gamma = 1: no mean effect at all.
+    none = sl.reversals_to_failure([0.003], m, mean_stress_method="none")[0]
+    assert sl.reversals_to_failure([0.003], m, mean_stress=[0.0], max_stress=[400.0],
+                                   mean_stress_method="walker")[0] == pytest.approx(none)
+    one = sl.StrainLifeMaterial(E, 1150.0, 0.16, sf, b, ef, c, walker_exponent=1.0)
+    assert sl.reversals_to_failure([0.003], one, mean_stress=[200.0], max_stress=[600.0],
+                                   mean_stress_method="walker")[0] == pytest.approx(none)
+    # No tensile peak: no damage (as SWT); no exponent: refused.
+    assert math.isinf(sl.reversals_to_failure([0.002], m, mean_stress=[-300.0],
+                                              max_stress=[-100.0],
+                                              mean_stress_method="walker")[0])
+    with pytest.raises(InvalidParameter):
+        sl.reversals_to_failure([0.002], STEEL, mean_stress=[0.0], max_stress=[100.0],
+                                mean_stress_method="walker")
+
+
 def test_the_transition_life():
     # At 2N_t the elastic and plastic amplitudes are equal.
     m = STEEL
@@ -108,6 +138,7 @@ def test_the_transition_life():
 
 @pytest.mark.parametrize("ms_strain, ms_stress", [("morrow", "morrow"),
                                                   ("smith_watson_topper", "smith_watson_topper"),
+                                                  ("walker", "walker"),
                                                   ("none", "none")])
 def test_without_plasticity_strain_life_is_stress_life_on_the_basquin_curve(ms_strain,
                                                                            ms_stress):
@@ -115,7 +146,8 @@ def test_without_plasticity_strain_life_is_stress_life_on_the_basquin_curve(ms_s
     # ductility term leave sigma = e and eps_a = sigma_a / E; strain-life
     # then equals stress-life on sigma_a = sf (2N)^b with the matching
     # mean-stress form (Morrow's elastic term is stress-life Morrow with sf).
-    elastic = sl.StrainLifeMaterial(206_000.0, 1e12, 0.15, 1050.0, -0.085, 1e-15, -0.6)
+    elastic = sl.StrainLifeMaterial(206_000.0, 1e12, 0.15, 1050.0, -0.085, 1e-15, -0.6,
+                                    walker_exponent=0.65)
     rng = np.random.default_rng(5)
     x = 60.0 + np.cumsum(rng.normal(0, 25.0, 5000))
     x = 40.0 + 300.0 * (x - x.mean()) / np.abs(x - x.mean()).max()
@@ -124,6 +156,7 @@ def test_without_plasticity_strain_life_is_stress_life_on_the_basquin_curve(ms_s
     curve = basquin_amplitude(1050.0, -0.085)
     ref = assess_history(x, curve, AssessmentOptions(
         mean_stress_method=ms_stress, fatigue_strength_coefficient=1050.0,
+        walker_exponent=0.65 if ms_stress == "walker" else None,
         compressive_mean="formula", reserve_factor=False))
     assert got.damage == pytest.approx(ref.damage, rel=1e-9)
     assert got.cycles_counted == ref.cycles_counted
