@@ -93,8 +93,14 @@ def check(request: dict, history: dict, lookup=None) -> dict:
         if keep is not None and length is not None:
             raise InvalidParameter("give keep (share of damage) or length (share of the "
                                    "recording), not both", field="keep")
-        keep = _positive(keep, "keep", 1.0) if keep is not None else (
-            None if length is not None else 0.95)
+        if isinstance(keep, dict):
+            for k in keep:
+                if k not in names:
+                    raise unknown("keep", k, names)
+            keep = [_positive(keep.get(n, 0.95), "keep", 1.0) for n in names]
+        else:
+            keep = _positive(keep, "keep", 1.0) if keep is not None else (
+                None if length is not None else 0.95)
         length = _positive(length, "length", 1.0) if length is not None else None
     elif keep is not None or length is not None:
         raise InvalidParameter("keep and length are for damage_windows; peak_valley keeps "
@@ -174,15 +180,22 @@ def run(con, data_dir, project: str, request: dict, lookup=None) -> dict:
     notes = [cautions.caution("edit_scope")]
     if c["method"] == "peak_valley":
         notes.append(cautions.caution("edit_peak_valley"))
-    if c["keep"] is not None and kept_shares and min(kept_shares) < c["keep"]:
-        notes.append(cautions.caution("edit_short", keep=c["keep"], kept=min(kept_shares)))
+    asked = (dict(zip(c["names"], c["keep"])) if isinstance(c["keep"], list)
+             else {n: c["keep"] for n in c["names"]}) if c["keep"] is not None else {}
+    for name, ch in channels.items():
+        ch["keep"] = asked.get(name)
+        if ch["keep"] is not None and ch["damage_kept"] is not None and \
+                ch["damage_kept"] < ch["keep"]:
+            notes.append(cautions.caution("edit_short", keep=ch["keep"], kept=ch["damage_kept"]))
     rate = c["rate"]
     result = {
         "method": c["method"], "history_id": history["id"], "samples_before": n,
         "samples_after": int(index.shape[0]), "length_kept": index.shape[0] / n,
         "duration_before_s": n / rate if rate else None,
         "duration_after_s": index.shape[0] / rate if rate else None,
-        "window_samples": window, "pieces": pieces, "keep": c["keep"], "length": c["length"],
+        "window_samples": window, "pieces": pieces,
+        "keep": (dict(zip(c["names"], c["keep"])) if isinstance(c["keep"], list)
+                 else c["keep"]), "length": c["length"],
         "gate_mpa": c["gate"], "damage_kept_min": min(kept_shares) if kept_shares else None,
         "channels": channels,
         "cautions": [{k: v for k, v in g.items() if k != "points"} for g in cautions.general()]

@@ -79,7 +79,7 @@ def ranked_windows(window_damage: np.ndarray, protected: np.ndarray) -> np.ndarr
 
 
 def damage_windows(window_damage: np.ndarray, protected: np.ndarray, *,
-                   keep: float | None = 0.95, length: float | None = None,
+                   keep=0.95, length: float | None = None,
                    extra: int = 0) -> np.ndarray:
     """Which windows to keep (a boolean mask over the windows).
 
@@ -89,8 +89,9 @@ def damage_windows(window_damage: np.ndarray, protected: np.ndarray, *,
         Damage done in each window on each channel. [-]
     protected : ndarray of bool (windows,)
         Windows that must stay.
-    keep : float, optional
-        Share of each channel's damage the windows kept must hold. [-]
+    keep : float or sequence of float, optional
+        Share of each channel's damage the windows kept must hold (one
+        for all, or one per channel). [-]
     length : float, optional
         Share of the windows to keep instead (the most damaging first). [-]
     extra : int
@@ -115,19 +116,28 @@ def damage_windows(window_damage: np.ndarray, protected: np.ndarray, *,
                                    value=length)
         k = max(int(np.ceil(length * n_win)), int(protected.sum()))
     else:
-        if not 0.0 < keep <= 1.0:
-            raise InvalidParameter(f"keep {keep} must be in (0, 1]", field="keep", value=keep)
+        shares_asked = _keep_per_channel(keep, n_ch)
         totals = window_damage.sum(axis=1, keepdims=True)
         shares = np.divide(window_damage[:, order], totals,
                            out=np.zeros((n_ch, n_win)), where=totals > 0)
         cum = np.cumsum(shares, axis=1)
-        need = [int(np.searchsorted(c, keep * (1 - 1e-12))) + 1 if t > 0 else 0
-                for c, t in zip(cum, totals[:, 0])]
+        need = [int(np.searchsorted(c, k * (1 - 1e-12))) + 1 if t > 0 else 0
+                for c, t, k in zip(cum, totals[:, 0], shares_asked)]
         k = max(need + [int(protected.sum()), 1])
     k = min(n_win, k + int(extra))
     kept = np.zeros(n_win, bool)
     kept[order[:k]] = True
     return kept
+
+
+def _keep_per_channel(keep, channels: int) -> np.ndarray:
+    """``keep`` as one share per channel, each in (0, 1]."""
+    k = np.broadcast_to(np.asarray(keep, dtype=np.float64), (channels,)) \
+        if np.ndim(keep) == 0 else np.asarray(keep, dtype=np.float64)
+    if k.shape != (channels,) or not np.all((k > 0.0) & (k <= 1.0)):
+        raise InvalidParameter(f"keep {keep!r} must be a share in (0, 1], one or one per "
+                               "channel", field="keep")
+    return k
 
 
 def joins(x: np.ndarray, kept: np.ndarray, window: int,
@@ -245,7 +255,7 @@ def _largest(table, top: int) -> np.ndarray:
     return np.sort(rng)[::-1][:top].copy()
 
 
-def edit_recording(x: np.ndarray, models, *, keep: float | None = 0.95,
+def edit_recording(x: np.ndarray, models, *, keep=0.95,
                    length: float | None = None, window: int | None = None,
                    protect_range=None, gates=None, top: int = 5,
                    retries: int = 30) -> Edited:
@@ -259,8 +269,9 @@ def edit_recording(x: np.ndarray, models, *, keep: float | None = 0.95,
         Each channel's curve and options (damage of one pass, residue as
         half cycles).
     keep, length : float
-        Share of each channel's damage to keep, or share of the windows to
-        keep (one of them). [-]
+        Share of each channel's damage to keep (one for all, or a sequence
+        with one per channel), or share of the windows to keep (one of
+        them). [-]
     window : int, optional
         Window length; default ``max(16, samples // 2000)``. [samples]
     protect_range : sequence of float, optional
@@ -317,7 +328,7 @@ def edit_recording(x: np.ndarray, models, *, keep: float | None = 0.95,
             after_tables.append(t)
         before_a, after_a = np.array(before), np.array(after)
         short = keep is not None and np.any(
-            (before_a > 0) & (after_a < keep * before_a * (1 - 1e-12)))
+            (before_a > 0) & (after_a < _keep_per_channel(keep, n_ch) * before_a * (1 - 1e-12)))
         if not short or kept.all():
             break
         extra += step

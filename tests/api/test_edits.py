@@ -154,3 +154,23 @@ def test_edit_errors(client):
     doc = client.post("/v1/edits", json=base).get_json()
     assert client.delete(f"/v1/edits/{doc['id']}").status_code == 204
     assert_problem(client.get(f"/v1/edits/{doc['id']}/signal"), 404, "not-found")
+
+
+def test_a_share_to_keep_per_channel(client):
+    # One channel asked for 99 %, the other for 50 %: each gets at least its
+    # share (recounted here by the rainflow package), and the report says
+    # what each asked.
+    cols = rig_like(5, n=30_000, channels=2)
+    hid = _history(client, cols)
+    r = client.post("/v1/edits", json={"history_id": hid, "keep": {"g1": 0.99, "g2": 0.5},
+                                       "window_s": 1.0,
+                                       "settings": {"curve": "EN1993-1-9:71"}})
+    assert r.status_code == 201, r.get_json()
+    res = r.get_json()["result"]
+    sig = _signal(client, r.get_json())
+    assert res["channels"]["g1"]["keep"] == 0.99 and res["channels"]["g2"]["keep"] == 0.5
+    assert en71_damage(sig["g1"].to_numpy()) >= 0.99 * en71_damage(cols["g1"])
+    assert en71_damage(sig["g2"].to_numpy()) >= 0.5 * en71_damage(cols["g2"])
+    assert_problem(client.post("/v1/edits", json={
+        "history_id": hid, "keep": {"g9": 0.9}, "settings": {"curve": "EN1993-1-9:71"}}),
+        422, "unknown-name")
