@@ -24,13 +24,16 @@ import numpy as np
 from service.engine import cautions, duty_cycle
 from service.engine.damage import assess
 from service.engine.errors import InvalidParameter
+from service.engine.extrapolation import extrapolate_matrix
 from service.engine.settings import point_from_dict, resolve, thickness_note
 from service.events import (Event, load_events, number, overlay, point_settings,
                             points_of)
+from service.extrapolation import METHOD as EXTRAPOLATION_METHOD
 from service.runs import json_safe
 from service.store import sqlite
 
-REQUEST_KEYS = {"name", "events", "target", "settings", "points", "gate", "variants"}
+REQUEST_KEYS = {"name", "events", "target", "settings", "points", "gate", "variants",
+                "extrapolate"}
 #: What a design target is counted in.
 TARGET_KINDS = ("repeats", "hours", "distance")
 VARIANT_KEYS = {"name", "settings", "load_scale"}
@@ -233,6 +236,34 @@ def _variant(data, settings, v, expo, has_target) -> dict:
             "load_scale": v["load_scale"], "cautions": notes}
 
 
+def _extrapolated(out: dict, data: _PointData, settings: dict, expo: dict) -> None:
+    """The design life's spectrum extrapolated from one duty cycle (kernel
+    density, ``engine.extrapolation``) beside the repeated one: repeating
+    the recordings never makes a cycle larger than recorded; a design life
+    of many duty cycles will. Adds ``extrapolated`` to ``out`` and a
+    caution; the verdict stays the repeated one's."""
+    c = data.combined.per_duty_cycle
+    n = max(1.0, float(expo["duty_cycles"]))
+    if len(c) == 0:
+        out["extrapolated"] = None
+        return
+    curve, opts, _ = point_from_dict(settings)
+    plain = replace(opts, reserve_factor=False, top_cycles=0)
+    e = extrapolate_matrix(c, n)
+    d_ex = assess(e.table(), curve, plain).damage
+    d_sc = assess(e.table("scaled"), curve, plain).damage
+    effect = d_ex / d_sc if d_sc > 0 and math.isfinite(d_sc) else None
+    out["extrapolated"] = json_safe({
+        "method": EXTRAPOLATION_METHOD, "factor": n, "damage": d_ex,
+        "damage_scaled": d_sc, "extrapolation_effect": effect,
+        "passed": d_ex <= opts.allowable_damage if out["passed"] is not None else None,
+        "expected_above_observed": e.expected_above_observed,
+        "observed_max_range": e.observed_max_range})
+    out["cautions"].append(cautions.caution(
+        "extrapolation_extremes", above=e.expected_above_observed, top=e.observed_max_range,
+        factor=n).as_dict())
+
+
 def evaluate(con, data_dir, project: str, request: dict, lookup=None) -> dict:
     """The result of a duty-cycle request (not stored). See the module notes."""
     if not isinstance(request, dict):
@@ -260,11 +291,16 @@ def evaluate(con, data_dir, project: str, request: dict, lookup=None) -> dict:
     for v in variants:
         for p, s in settings.items():
             point_from_dict(overlay(s, v["settings"]))  # every error before any counting
+    extrapolate = request.get("extrapolate", False)
+    if not isinstance(extrapolate, bool):
+        raise InvalidParameter("extrapolate must be true or false", field="extrapolate")
     has_target = expo["target"] is not None
     results = {}
     for p in points:
         data = _combine(p, events, expo["repeats"], expo["duty_cycles"], gate)
         results[p] = _assess_point(p, data, settings[p], events, expo, has_target, variants)
+        if extrapolate:
+            _extrapolated(results[p], data, settings[p], expo)
     verdicts = [r["passed"] for r in results.values()]
     worst = min(results, key=lambda p: (results[p]["reserve_factor"]
                                         if results[p]["reserve_factor"] is not None
