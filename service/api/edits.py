@@ -14,6 +14,7 @@ import pyarrow.parquet as pq
 from flask import Blueprint, Response, jsonify, url_for
 
 from service import editing, events, runs
+from service.reports import build
 from service.store import parquet, sqlite
 
 from . import created, data_dir, db, json_object
@@ -28,7 +29,8 @@ def resource(row: dict) -> dict:
     return {"id": row["id"], "history_id": row["history_id"], "created_at": row["created_at"],
             "request": row["request"], "result": row["result"],
             "links": {"self": url_for("edits.get", edit_id=row["id"]),
-                      "signal": url_for("edits.signal", edit_id=row["id"])}}
+                      "signal": url_for("edits.signal", edit_id=row["id"]),
+                      "report": url_for("edits.report", edit_id=row["id"])}}
 
 
 def load(edit_id: str) -> dict:
@@ -71,6 +73,24 @@ def signal(edit_id: str):
         resp = _csv(tuple(table.column_names), zip(*cols))
     resp.headers["Content-Disposition"] = f'attachment; filename="{name}"'
     return resp
+
+
+@bp.get("/v1/edits/<edit_id>/report")
+def report(edit_id: str):
+    """A self-contained HTML page: each channel's damage and ranges kept, and
+    where the kept stretches lie in the recording."""
+    row = load(edit_id)
+    res = row["result"]
+    hist = sqlite.get_history(db(), project(), row["history_id"]) if row["history_id"] else None
+    original = None
+    if hist is not None:
+        original = parquet.read_channels(data_dir(), hist["file"], list(res["channels"]))
+    table = pq.read_table(io.BytesIO(parquet.read_bytes(data_dir(), row["file"])),
+                          columns=["source_index"])
+    kept = table.column(0).to_numpy()
+    return Response(build.edit_page(resource(row), original, kept,
+                                    hist.get("sample_rate_hz") if hist else None),
+                    mimetype="text/html")
 
 
 @bp.delete("/v1/edits/<edit_id>")

@@ -154,3 +154,12 @@ def spectrum_page(resource: dict, dens: dict) -> str:
     for case in dens:
         svgs[f"ranges-{case}"] = spectrum_plot("ranges", dens, case)
     return pages.spectrum_page(resource, svgs)
+
+
+def edit_page(resource: dict, original: dict | None, kept_index, rate) -> str:
+    """The page of an edit; the kept stretches drawn over the original when
+    the history it was made from is still stored."""
+    svg = None
+    if original is not None:
+        svg = plots.render(plots.kept_stretches(original, kept_index, rate))
+    return pages.edit_page(resource, svg)

@@ -378,3 +378,35 @@ def spectrum_page(resource: dict, plots: dict[str, bytes]) -> str:
     return _page(f"Spectral assessment {resource.get('name') or resource['id']}",
                  f"{len(res['load_cases'])} load cases, governing method "
                  f"{res['governing_method']}", body, res["cautions"])
+
+
+def edit_page(resource: dict, svg: bytes | None) -> str:
+    """The page of an edited drive signal: what each channel kept, and where."""
+    res = resource["result"]
+    cols = (("keep", "asked [-]"), ("damage_before", "damage before [-]"),
+            ("damage_after", "after [-]"), ("damage_kept", "kept [-]"))
+    head = "".join(f"<th>{label}</th>" for _, label in cols)
+    rows = "".join(
+        f"<tr data-channel='{html.escape(name)}'><td>{html.escape(name)}</td>"
+        + "".join(f"<td data-field='{k}'>{fmt(ch.get(k))}</td>" for k, _ in cols)
+        + f"<td class='text' data-field='largest_ranges_before'>"
+        f"{', '.join(fmt(v) for v in ch['largest_ranges_before'][:3])}</td>"
+        f"<td class='text' data-field='largest_ranges_after'>"
+        f"{', '.join(fmt(v) for v in ch['largest_ranges_after'][:3])}</td></tr>"
+        for name, ch in res["channels"].items())
+    facts = (f"<dl><dt>method</dt><dd>{html.escape(res['method'])}</dd>"
+             f"<dt>samples kept</dt><dd data-field='samples_after'>{res['samples_after']} of "
+             f"{res['samples_before']} ({fmt(res['length_kept'])})</dd>"
+             f"<dt>pieces joined</dt><dd>{res['pieces']}</dd>"
+             f"<dt>duration after</dt><dd>{fmt(res.get('duration_after_s'))} s</dd></dl>")
+    body = [f"<section id='summary'><h2>What each channel keeps</h2>{facts}<table><thead><tr>"
+            f"<th>channel</th>{head}<th>largest ranges before [MPa]</th>"
+            f"<th>largest ranges after [MPa]</th></tr></thead><tbody>{rows}</tbody></table>"
+            f"<p><a href='{html.escape(resource['links']['signal'])}?format=csv'>The edited "
+            "signal (CSV)</a></p></section>"]
+    if svg is not None:
+        body.append("<section id='plots'><h2>Where</h2>" + _figure(
+            "plot-kept", svg, "The recording's envelope per channel and the stretches kept.")
+            + "</section>")
+    return _page(f"Edited drive signal {resource['id']}", f"from history {res['history_id']}",
+                 body, res["cautions"])

@@ -127,6 +127,33 @@ def history(samples: dict[str, np.ndarray], sample_rate_hz: float | None,
     return fig
 
 
+def kept_stretches(samples: dict[str, np.ndarray], kept_index: np.ndarray,
+                   sample_rate_hz: float | None, columns: int = 800,
+                   title: str | None = None):
+    """Each channel of the original recording as an envelope (grey) with the
+    stretches an edit kept drawn over it (teal): which parts the rig will
+    run. [MPa]"""
+    names = list(samples)
+    n = next(iter(samples.values())).shape[0]
+    kept = np.zeros(n, bool)
+    kept[kept_index] = True
+    starts = np.flatnonzero(np.diff(np.concatenate([[0], kept.astype(np.int8)])) == 1)
+    stops = np.flatnonzero(np.diff(np.concatenate([kept.astype(np.int8), [0]])) == -1) + 1
+    fig = Figure(figsize=(7.0, 1.3 + 1.1 * len(names)))
+    axes = fig.subplots(len(names), 1, sharex=True, squeeze=False)
+    scale = 1.0 / sample_rate_hz if sample_rate_hz else 1.0
+    for ax, name in zip(axes[:, 0], names):
+        idx, lo, hi = envelope(samples[name], columns)
+        ax.fill_between(idx * scale, lo, hi, color="#b8c4c8", linewidth=0.4, step="post")
+        for a, b in zip(starts, stops):
+            ax.axvspan(a * scale, b * scale, color=TEAL, alpha=0.25, linewidth=0)
+        ax.set_ylabel(f"{name}\n[MPa]", rotation=0, ha="right", va="center")
+    axes[-1, 0].set_xlabel("time in the recording [s]" if sample_rate_hz else "sample")
+    fig.suptitle(title or "Recording (grey envelope) and the stretches kept (teal)", color=INK,
+                 fontsize=10, x=0.02, ha="left")
+    return fig
+
+
 def range_mean(table, range_bins: int = 24, mean_bins: int = 24, title: str | None = None):
     """The range-mean rainflow matrix as a heat map (cycles per bin)."""
     fig, ax = _figure(5.4, 4.0)

@@ -217,6 +217,7 @@ def cases(a: dict) -> list[tuple]:
          dict(json={"history_id": hid, "settings": {"curve": "EN1993-1-9:71"}}), 404),
         ("GET", "/v1/edits/<edit_id>", f"/v1/edits/{eid}", {}, 404),
         ("GET", "/v1/edits/<edit_id>/signal", f"/v1/edits/{eid}/signal", {}, 404),
+        ("GET", "/v1/edits/<edit_id>/report", f"/v1/edits/{eid}/report", {}, 404),
         ("GET", "/metrics", "/metrics", {}, "hidden"),
         ("GET", "/v1/audit", "/v1/audit", {}, "hidden"),
         ("POST", "/v1/assets/<asset>/blocks/<block_id>/void",

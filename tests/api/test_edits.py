@@ -92,6 +92,12 @@ def test_the_edited_signal_recounted_independently_does_the_stated_damage(client
     assert pd.read_csv(io.StringIO(csv.get_data(as_text=True)))["g2"].to_numpy() \
         == pytest.approx(sig["g2"].to_numpy())
     assert client.get(doc["links"]["self"]).get_json()["result"] == res
+    page = client.get(doc["links"]["report"])
+    assert page.status_code == 200 and page.mimetype == "text/html"
+    text = page.get_data(as_text=True)
+    for name, ch in res["channels"].items():
+        assert f"data-channel='{name}'" in text
+    assert "id='plot-kept'" in text and "edit_scope" in text
 
 
 @pytest.mark.parametrize("seed", range(6))
