@@ -187,6 +187,26 @@ def test_pipeline_example_posts_waits_and_fetches(served, tmp_path):
     assert len(written) == 4 and pd.read_parquet(csv.parent / written[0]).shape[0] > 0
 
 
+def test_rig_test_example_edits_uploads_and_compares(served, tmp_path):
+    # The example's figures are the service's: the drive signal it wrote is
+    # the stored edit's, and each gauge keeps at least the share asked.
+    import subprocess
+    import sys
+    from pathlib import Path
+
+    csv = _demo_csv(tmp_path)
+    script = Path(__file__).resolve().parents[2] / "examples" / "rig_test.py"
+    out = subprocess.run([sys.executable, str(script), str(csv), "--url", served,
+                          "--keep", "0.9"], capture_output=True, text=True, timeout=300)
+    assert out.returncode == 0, out.stderr
+    rows = {line.split()[0]: line.split()[1:] for line in out.stdout.splitlines()[2:]}
+    assert set(rows) == {"weld_toe_upper", "weld_toe_lower", "pin_lug", "cylinder_mount"}
+    for kept, ratio, per_hour in rows.values():
+        assert float(kept) >= 0.9 and float(ratio) > 0.5 and float(per_hour) > 1.0
+    drive = pd.read_csv(csv.with_name("loader_arm_rig-drive.csv"))
+    assert {"source_index", "time_s", "weld_toe_upper"} <= set(drive.columns)
+
+
 def test_curl_examples_run(served, tmp_path):
     import shutil
     import subprocess
