@@ -47,3 +47,27 @@ curl -sf "$B/v1/assessments/$AID/points/weld_toe_upper/range-mean?range_bins=8&m
 curl -sf "$B/v1/curves/DNV-RP-C203:D"; echo
 curl -s -X POST "$B/v1/assessments" -H 'Content-Type: application/json' \
      -d '{"history_id": "'"$HID"'", "settings": {"curve": "EN1993-1-9:72"}}' | head -c 300; echo
+
+echo "== a duty cycle: the rig run as 1 h of a 200 h target, with a what-if"
+D=$(curl -sf -X POST "$B/v1/duty-cycles" -H 'Content-Type: application/json' -d '{
+      "name": "rig run, 200 h", "target": {"hours": 200},
+      "events": [{"name": "dig and dump", "assessment_id": "'"$AID"'", "hours": 1}],
+      "variants": [{"name": "FAT 90", "settings": {"curve": "EN1993-1-9:90"}}]}')
+printf '%s' "$D" | field '["passed"]'
+DID=$(printf '%s' "$D" | field '["id"]')
+curl -sf -X POST "$B/v1/duty-cycles/$DID/what-if" -H 'Content-Type: application/json' \
+     -d '{"variants": [{"name": "10 % more load", "load_scale": 1.1}]}' | head -c 300; echo
+echo "== the matrix extrapolated to ten times the usage"
+curl -sf "$B/v1/assessments/$AID/points/weld_toe_upper/extrapolation?factor=10" \
+    | field '["extrapolation_effect"]'
+echo "== a shorter drive signal keeping 95 % of each gauge's damage"
+E=$(curl -sf -X POST "$B/v1/edits" -H 'Content-Type: application/json' -d '{
+      "history_id": "'"$HID"'", "channels": ["weld_toe_upper", "cylinder_mount"],
+      "settings": {"curve": "EN1993-1-9:71"}, "keep": 0.95, "window_s": 0.5}')
+printf '%s' "$E" | field '["result"]["length_kept"]'
+curl -sf "$B$(printf '%s' "$E" | field '["links"]["signal"]')?format=csv" | head -3
+echo "== one gauge as a PSD (Welch), assessed by the spectral methods"
+curl -sf -X POST "$B/v1/spectra" -H 'Content-Type: application/json' -d '{
+      "settings": {"curve": "EN1993-1-9:71"}, "methods": ["dirlik", "narrow_band"],
+      "load_cases": [{"history_id": "'"$HID"'", "channel": "weld_toe_upper",
+                      "exposure_s": 3600}]}' | field '["result"]["methods"]["dirlik"]["damage"]'

@@ -224,6 +224,9 @@ def test_curl_examples_run(served, tmp_path):
                          text=True, timeout=300, env={**os.environ, "PYTHON": sys.executable})
     assert out.returncode == 0, out.stderr
     assert "point,damage" in out.stdout and "unknown-name" in out.stdout
+    for heading in ("a duty cycle", "extrapolated", "a shorter drive signal", "as a PSD"):
+        assert heading in out.stdout
+    assert "source_index,time_s,source_time_s,weld_toe_upper" in out.stdout
 
 
 def test_report_command_writes_the_page(served, tmp_path, capsys):
