@@ -52,7 +52,7 @@ echo "== a duty cycle: the rig run as 1 h of a 200 h target, with a what-if"
 D=$(curl -sf -X POST "$B/v1/duty-cycles" -H 'Content-Type: application/json' -d '{
       "name": "rig run, 200 h", "target": {"hours": 200},
       "events": [{"name": "dig and dump", "assessment_id": "'"$AID"'", "hours": 1}],
-      "variants": [{"name": "FAT 90", "settings": {"curve": "EN1993-1-9:90"}}]}')
+      "variants": [{"name": "category 90", "settings": {"curve": "EN1993-1-9:90"}}]}')
 printf '%s' "$D" | field '["passed"]'
 DID=$(printf '%s' "$D" | field '["id"]')
 curl -sf -X POST "$B/v1/duty-cycles/$DID/what-if" -H 'Content-Type: application/json' \
