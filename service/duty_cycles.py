@@ -26,8 +26,8 @@ from service.engine.damage import assess
 from service.engine.errors import InvalidParameter
 from service.engine.extrapolation import extrapolate_matrix
 from service.engine.settings import point_from_dict, resolve, thickness_note
-from service.events import (Event, load_events, number, overlay, point_settings,
-                            points_of)
+from service.events import (Event, defaults_and_gate, fields, load_events, number, overlay,
+                            point_settings, points_of)
 from service.extrapolation import METHOD as EXTRAPOLATION_METHOD
 from service.runs import json_safe
 from service.store import sqlite
@@ -156,9 +156,9 @@ def _figures(data: _PointData, settings: dict, load_scale: float, expo: dict,
     curve, opts, estimate = point_from_dict(settings)
     opts = replace(opts, load_factor=opts.load_factor * load_scale, top_cycles=0)
     c = data.combined
-    r = assess(c.design, curve, opts)
+    r = assess(c.design, curve, opts, weighted=True)
     per_cycle = np.array(r.damage_per_cycle, copy=True)
-    one = assess(c.per_duty_cycle, curve, replace(opts, reserve_factor=False))
+    one = assess(c.per_duty_cycle, curve, replace(opts, reserve_factor=False), weighted=True)
     d1 = one.damage
     life = math.inf if d1 == 0 else opts.allowable_damage / d1
     hours, distance = expo["duty_cycle_hours"], expo["duty_cycle_distance"]
@@ -177,7 +177,7 @@ def _figures(data: _PointData, settings: dict, load_scale: float, expo: dict,
         "estimate": estimate.as_dict() if estimate is not None else None,
         "gate_mpa": data.gate,
     }
-    notes = [x for x in r.caution_dicts() if x["code"] != "residue_share"]
+    notes = r.caution_dicts()
     note = thickness_note(settings, curve)
     if note is not None:
         notes.append(note.as_dict())
@@ -250,8 +250,8 @@ def _extrapolated(out: dict, data: _PointData, settings: dict, expo: dict) -> No
     curve, opts, _ = point_from_dict(settings)
     plain = replace(opts, reserve_factor=False, top_cycles=0)
     e = extrapolate_matrix(c, n)
-    d_ex = assess(e.table(), curve, plain).damage
-    d_sc = assess(e.table("scaled"), curve, plain).damage
+    d_ex = assess(e.table(), curve, plain, weighted=True).damage
+    d_sc = assess(e.table("scaled"), curve, plain, weighted=True).damage
     effect = d_ex / d_sc if d_sc > 0 and math.isfinite(d_sc) else None
     out["extrapolated"] = json_safe({
         "method": EXTRAPOLATION_METHOD, "factor": n, "damage": d_ex,
@@ -266,23 +266,11 @@ def _extrapolated(out: dict, data: _PointData, settings: dict, expo: dict) -> No
 
 def evaluate(con, data_dir, project: str, request: dict, lookup=None) -> dict:
     """The result of a duty-cycle request (not stored). See the module notes."""
-    if not isinstance(request, dict):
-        raise InvalidParameter("the request must be an object", field="body")
-    extra = set(request) - REQUEST_KEYS
-    if extra:
-        raise InvalidParameter(f"unknown field(s): {', '.join(sorted(extra))}",
-                               field=sorted(extra)[0])
+    fields(request, REQUEST_KEYS, "the request", "body")
     events = load_events(con, data_dir, project, request.get("events"))
     expo = exposure(events, request.get("target"))
     points = points_of(request, events)
-    defaults = request.get("settings") or {}
-    if not isinstance(defaults, dict):
-        raise InvalidParameter("settings must be an object", field="settings")
-    gate = request.get("gate")
-    if gate is not None:
-        gate = number(gate, "gate", positive=False)
-        if gate < 0:
-            raise InvalidParameter("gate must be >= 0", field="gate", value=gate)
+    defaults, gate = defaults_and_gate(request)
     variants = _variants(request.get("variants"))
     if lookup is not None:
         variants = [{**v, "settings": resolve(v["settings"], lookup)} for v in variants]
@@ -325,11 +313,8 @@ def evaluate(con, data_dir, project: str, request: dict, lookup=None) -> dict:
 def run(con, data_dir, project: str, request: dict, lookup=None) -> dict:
     """Evaluate and store a duty cycle; the stored row."""
     result = evaluate(con, data_dir, project, request, lookup)
-    row = {"id": sqlite.new_id("d"), "project": project, "name": request.get("name"),
-           "created_at": sqlite.now(), "request": json_safe(request), "result": result}
-    with sqlite.write(con):
-        sqlite.insert_duty_cycle(con, row)
-    return row
+    return sqlite.store_doc(con, "duty_cycles", "d", project, request.get("name"),
+                            json_safe(request), result)
 
 
 def what_if(con, data_dir, project: str, row: dict, variants, lookup=None) -> dict:

@@ -12,17 +12,13 @@ length kept.
 from __future__ import annotations
 
 import math
-from dataclasses import replace
 
 import numpy as np
 
-from service.events import MissingSource
+from service.events import MissingSource, fields, stress_life
 from service.engine import cautions
-from service.engine.damage import assess
-from service.engine.editing import edit_recording, peak_valley
+from service.engine.editing import edit_recording, reduce_recording
 from service.engine.errors import InvalidParameter, unknown
-from service.engine.rainflow import astm_e1049
-from service.engine.settings import is_strain_life, point_from_dict, resolve
 from service.runs import json_safe
 from service.store import parquet, sqlite
 
@@ -56,10 +52,7 @@ def _per_channel(value, names, what: str) -> list[float | None]:
 
 def check(request: dict, history: dict, lookup=None) -> dict:
     """Everything an edit needs, checked before any work."""
-    extra = set(request) - REQUEST_KEYS
-    if extra:
-        raise InvalidParameter(f"unknown field(s): {', '.join(sorted(extra))}",
-                               field=sorted(extra)[0])
+    fields(request, REQUEST_KEYS, "the request", "body")
     names_all = [c["name"] for c in history["channels"]]
     names = request.get("channels") or names_all
     if not isinstance(names, list) or not all(isinstance(n, str) for n in names):
@@ -79,13 +72,9 @@ def check(request: dict, history: dict, lookup=None) -> dict:
             raise unknown("points", n, names)
     models, used = [], {}
     for n in names:
-        merged = {**defaults, **(own.get(n) or {})}
-        if lookup is not None:
-            merged = resolve(merged, lookup)
-        if is_strain_life(merged):
-            raise InvalidParameter("editing weighs cycles on S-N curves: strain-life settings "
-                                   "are not taken here", field="method")
-        curve, opts, _ = point_from_dict(merged)
+        merged, curve, opts, _ = stress_life(
+            {**defaults, **(own.get(n) or {})}, lookup,
+            "editing weighs cycles on S-N curves: strain-life settings are not taken here")
         models.append((curve, opts))
         used[n] = merged
     keep, length = request.get("keep"), request.get("length")
@@ -129,16 +118,6 @@ def check(request: dict, history: dict, lookup=None) -> dict:
             "gate": float(gate), "rate": rate}
 
 
-def _largest(x: np.ndarray, gate: float) -> np.ndarray:
-    return np.sort(astm_e1049(x, gate=gate).stress_range)[::-1][:_TOP]
-
-
-def _damage(x, gate, model) -> float:
-    curve, opts = model
-    return assess(astm_e1049(x, gate=gate), curve,
-                  replace(opts, reserve_factor=False, top_cycles=0)).damage
-
-
 def run(con, data_dir, project: str, request: dict, lookup=None) -> dict:
     """Edit a stored history and store the edited signal; the stored row."""
     hid = request.get("history_id")
@@ -152,18 +131,12 @@ def run(con, data_dir, project: str, request: dict, lookup=None) -> dict:
     if c["method"] == "damage_windows":
         e = edit_recording(x, c["models"], keep=c["keep"], length=c["length"],
                            window=c["window"], protect_range=c["protect"], gates=gates, top=_TOP)
-        edited, index = e.samples, e.kept_index
-        before, after = e.damage_before, e.damage_after
-        big_before, big_after = e.largest_ranges_before, e.largest_ranges_after
-        pieces, window = e.pieces, e.window
     else:
-        index = peak_valley(x, gates)
-        edited = x[:, index]
-        before = np.array([_damage(r, g, m) for r, g, m in zip(x, gates, c["models"])])
-        after = np.array([_damage(r, g, m) for r, g, m in zip(edited, gates, c["models"])])
-        big_before = [_largest(r, g) for r, g in zip(x, gates)]
-        big_after = [_largest(r, g) for r, g in zip(edited, gates)]
-        pieces, window = 1, None
+        e = reduce_recording(x, c["models"], gates=gates, top=_TOP)
+    edited, index = e.samples, e.kept_index
+    before, after = e.damage_before, e.damage_after
+    big_before, big_after = e.largest_ranges_before, e.largest_ranges_after
+    pieces, window = e.pieces, (e.window or None)
     n = x.shape[1]
     channels = {}
     for k, name in enumerate(c["names"]):

@@ -57,6 +57,42 @@ class Event:
     governing: dict = field(default_factory=dict)  # point -> governing reduction text
 
 
+def fields(value, allowed, where: str, field: str | None = None) -> dict:
+    """``value`` as an object holding only ``allowed`` keys, or a problem
+    naming ``where`` (and the first unknown key)."""
+    if not isinstance(value, dict):
+        raise InvalidParameter(f"{where} must be an object", field=field or where)
+    extra = set(value) - set(allowed)
+    if extra:
+        raise InvalidParameter(f"{where}: unknown field(s) {', '.join(sorted(extra))}",
+                               field=sorted(extra)[0])
+    return value
+
+
+def defaults_and_gate(request: dict) -> tuple[dict, float | None]:
+    """A request's ``settings`` (for every point) and ``gate`` [MPa] (None:
+    the events' own), checked."""
+    defaults = request.get("settings") or {}
+    if not isinstance(defaults, dict):
+        raise InvalidParameter("settings must be an object", field="settings")
+    gate = request.get("gate")
+    if gate is not None:
+        gate = number(gate, "gate", positive=False)
+        if gate < 0:
+            raise InvalidParameter("gate must be >= 0", field="gate", value=gate)
+    return defaults, gate
+
+
+def stress_life(settings: dict, lookup, why: str):
+    """``(settings, curve, options, estimate)`` of stress-life settings,
+    stored references resolved; strain-life settings refused with ``why``."""
+    if lookup is not None:
+        settings = resolve(settings, lookup)
+    if is_strain_life(settings):
+        raise InvalidParameter(why, field="method")
+    return (settings, *point_from_dict(settings))
+
+
 def number(value, where: str, positive: bool = True) -> float:
     if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(
             value) or (positive and value <= 0):
@@ -154,12 +190,7 @@ def load_events(con, data_dir, project: str, specs) -> list[Event]:
     out, names = [], set()
     for i, spec in enumerate(specs):
         where = f"events[{i}]"
-        if not isinstance(spec, dict):
-            raise InvalidParameter(f"{where} must be an object", field="events")
-        extra = set(spec) - EVENT_KEYS
-        if extra:
-            raise InvalidParameter(f"{where}: unknown field(s) {', '.join(sorted(extra))}",
-                                   field=sorted(extra)[0])
+        fields(spec, EVENT_KEYS, where, "events")
         name = spec.get("name", f"event-{i + 1}")
         if not isinstance(name, str) or not name or name in names:
             raise InvalidParameter(f"{where}: name must be a text unique among the events",
@@ -220,13 +251,8 @@ def point_settings(point, events, defaults, own, lookup) -> dict:
     base = next((e.settings[point] for e in events if point in e.settings), {})
     merged = overlay(overlay(base, defaults), own)
     merged.pop("method", None) if merged.get("method") == "stress_life" else None
-    if lookup is not None:
-        merged = resolve(merged, lookup)
-    if is_strain_life(merged):
-        raise InvalidParameter(f"point {point!r} is a strain-life point: duty cycles combine "
-                               f"stress-life points", field="method")
-    point_from_dict(merged)
-    return merged
+    return stress_life(merged, lookup, f"point {point!r} is a strain-life point: events are "
+                                       f"combined on S-N curves")[0]
 
 
 def points_of(request: dict, events: list[Event]) -> dict:

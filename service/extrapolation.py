@@ -38,8 +38,8 @@ def extrapolated(data_dir, assessment: dict, point: str, factor: float, range_bi
     e = extrapolate_matrix(table, factor, range_bins=range_bins, mean_bins=mean_bins)
     curve, opts, _ = point_from_dict(res["settings_used"])
     opts = replace(opts, reserve_factor=False, top_cycles=0)
-    d_ex = assess(e.table(), curve, opts).damage
-    d_sc = assess(e.table("scaled"), curve, opts).damage
+    d_ex = assess(e.table(), curve, opts, weighted=True).damage
+    d_sc = assess(e.table("scaled"), curve, opts, weighted=True).damage
     return json_safe({
         "point": point, "factor": factor, "method": METHOD,
         "range_edges_mpa": e.range_edges.tolist(), "mean_edges_mpa": e.mean_edges.tolist(),

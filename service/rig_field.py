@@ -12,9 +12,8 @@ from dataclasses import replace
 
 from service.engine import cautions, duty_cycle
 from service.engine.damage import assess
-from service.engine.errors import InvalidParameter
 from service.engine.settings import point_from_dict
-from service.events import number, point_settings, points_of, source
+from service.events import defaults_and_gate, fields, point_settings, points_of, source
 from service.runs import json_safe
 
 COMPARE_KEYS = {"rig", "field", "settings", "points", "gate"}
@@ -25,16 +24,11 @@ def compare(con, data_dir, project: str, request: dict, lookup=None) -> dict:
     (each as a repeating block, the damage a repeat does in service or on
     the rig) and their ratio, per pass and per hour (the test's acceleration
     factor: field hours one rig hour stands for)."""
-    if not isinstance(request, dict) or set(request) - COMPARE_KEYS:
-        raise InvalidParameter("send {rig, field, settings?, points?, gate?}", field="body")
+    fields(request, COMPARE_KEYS, "the request {rig, field, settings?, points?, gate?}",
+           "body")
     events = [source(con, data_dir, project, request.get(k), k) for k in ("rig", "field")]
     points = points_of(request, events)
-    defaults = request.get("settings") or {}
-    if not isinstance(defaults, dict):
-        raise InvalidParameter("settings must be an object", field="settings")
-    gate = request.get("gate")
-    if gate is not None:
-        gate = number(gate, "gate", positive=False)
+    defaults, gate = defaults_and_gate(request)
     out = {}
     for p, own in points.items():
         settings = point_settings(p, events, defaults, own, lookup)
@@ -44,7 +38,7 @@ def compare(con, data_dir, project: str, request: dict, lookup=None) -> dict:
         d, eq = [], []
         for e in events:
             c = duty_cycle.combine([(e.signal(p), 1.0)], 1.0, gate=g)
-            r = assess(c.per_duty_cycle, curve, opts)
+            r = assess(c.per_duty_cycle, curve, opts, weighted=True)
             d.append(r.damage)
             eq.append(r.equivalent_range)
         h = [e.hours_per_pass for e in events]

@@ -22,8 +22,7 @@ from service.engine import cautions, spectral
 from service.engine.damage import assess
 from service.engine.errors import InvalidParameter, unknown
 from service.engine.rainflow import astm_e1049
-from service.engine.settings import is_strain_life, point_from_dict, resolve
-from service.events import MissingSource
+from service.events import MissingSource, fields, stress_life
 from service.runs import json_safe
 from service.store import parquet, sqlite
 
@@ -67,12 +66,7 @@ def _welch(x: np.ndarray, rate: float, segment_s) -> tuple[np.ndarray, np.ndarra
 def _case(con, data_dir, project, spec, i) -> tuple[spectral.LoadCase, dict, object]:
     """``(load case, its echo, samples or None)``."""
     where = f"load_cases[{i}]"
-    if not isinstance(spec, dict):
-        raise InvalidParameter(f"{where} must be an object", field="load_cases")
-    extra = set(spec) - CASE_KEYS
-    if extra:
-        raise InvalidParameter(f"{where}: unknown field(s) {', '.join(sorted(extra))}",
-                               field=sorted(extra)[0])
+    fields(spec, CASE_KEYS, where, "load_cases")
     name = spec.get("name", f"case-{i + 1}")
     if not isinstance(name, str) or not name:
         raise InvalidParameter(f"{where}: name must be a text", field="name")
@@ -138,12 +132,7 @@ def _case(con, data_dir, project, spec, i) -> tuple[spectral.LoadCase, dict, obj
 
 def evaluate(con, data_dir, project: str, request: dict, lookup=None) -> dict:
     """The result of a spectral assessment request (not stored)."""
-    if not isinstance(request, dict):
-        raise InvalidParameter("the request must be an object", field="body")
-    extra = set(request) - REQUEST_KEYS
-    if extra:
-        raise InvalidParameter(f"unknown field(s): {', '.join(sorted(extra))}",
-                               field=sorted(extra)[0])
+    fields(request, REQUEST_KEYS, "the request", "body")
     specs = request.get("load_cases")
     if not isinstance(specs, list) or not specs:
         raise InvalidParameter("load_cases must be a non-empty list", field="load_cases")
@@ -156,12 +145,9 @@ def evaluate(con, data_dir, project: str, request: dict, lookup=None) -> dict:
     settings = request.get("settings") or {}
     if not isinstance(settings, dict):
         raise InvalidParameter("settings must be an object", field="settings")
-    if lookup is not None:
-        settings = resolve(settings, lookup)
-    if is_strain_life(settings):
-        raise InvalidParameter("spectral methods weigh ranges on an S-N curve: strain-life "
-                               "settings are not taken here", field="method")
-    curve, opts, estimate = point_from_dict(settings)
+    settings, curve, opts, estimate = stress_life(
+        settings, lookup, "spectral methods weigh ranges on an S-N curve: strain-life "
+        "settings are not taken here")
     built = [_case(con, data_dir, project, s, i) for i, s in enumerate(specs)]
     names = [c.name for c, _, _ in built]
     if len(set(names)) != len(names):
@@ -191,9 +177,9 @@ def evaluate(con, data_dir, project: str, request: dict, lookup=None) -> dict:
                               "reserve_factor": None, "flags": [], "cautions": []}
             continue
         a = r.assessment
-        life = math.inf if a.damage == 0 else opts.allowable_damage / a.damage
         out_methods[m] = {
-            "applicable": True, "damage": a.damage, "life_repeats": life, "life_hours": life * profile_s / 3600.0,
+            "applicable": True, "damage": a.damage, "life_repeats": a.life_repeats,
+            "life_hours": a.life_hours,
             "reserve_factor": a.reserve_factor, "reserve_limited_by": a.reserve_limited_by,
             "equivalent_range": a.equivalent_range, "equivalent_cycles": a.equivalent_cycles,
             "cycles_counted": a.cycles_counted, "below_limit": a.below_limit,
@@ -201,7 +187,7 @@ def evaluate(con, data_dir, project: str, request: dict, lookup=None) -> dict:
             "largest_range": r.largest_range,
             "relative_to_time_domain": (a.damage / time_domain["damage"] - 1.0
                                         if time_domain and time_domain["damage"] > 0 else None),
-            "cautions": [c for c in a.caution_dicts() if c["code"] != "residue_share"]}
+            "cautions": a.caution_dicts()}
     usable = [m for m in methods if out_methods[m]["applicable"]]
     if not usable:
         raise InvalidParameter("none of the methods asked applies to these spectra: "
@@ -268,8 +254,5 @@ def densities(request: dict, result: dict, con, data_dir, project: str) -> dict:
 def run(con, data_dir, project: str, request: dict, lookup=None) -> dict:
     """Evaluate and store; the stored row."""
     result = evaluate(con, data_dir, project, request, lookup)
-    row = {"id": sqlite.new_id("s"), "project": project, "name": request.get("name"),
-           "created_at": sqlite.now(), "request": json_safe(request), "result": result}
-    with sqlite.write(con):
-        sqlite.insert_spectrum(con, row)
-    return row
+    return sqlite.store_doc(con, "spectra", "s", project, request.get("name"),
+                            json_safe(request), result)

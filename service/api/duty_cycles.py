@@ -42,7 +42,7 @@ def _evaluate(call, *args):
 
 
 def load(duty_id: str) -> dict:
-    row = sqlite.get_duty_cycle(db(), project(), duty_id)
+    row = sqlite.get_doc(db(), "duty_cycles", project(), duty_id)
     if row is None:
         raise NotFound(f"no duty cycle {duty_id!r}", field="duty_cycle_id")
     return row
@@ -61,7 +61,7 @@ def create():
 @bp.get("/v1/duty-cycles")
 def list_all():
     limit, offset = page_args()
-    rows = sqlite.list_duty_cycles(db(), project(), limit, offset)
+    rows = sqlite.list_docs(db(), "duty_cycles", project(), limit, offset)
     return jsonify({"duty_cycles": [resource(r, full=False) for r in rows],
                     "limit": limit, "offset": offset})
 
@@ -94,7 +94,7 @@ def rig_comparison():
 def delete(duty_id: str):
     con = db()
     with sqlite.write(con):
-        gone = sqlite.delete_duty_cycle(con, project(), duty_id)
+        gone = sqlite.delete_doc(con, "duty_cycles", project(), duty_id)
     if not gone:
         raise NotFound(f"no duty cycle {duty_id!r}", field="duty_cycle_id")
     return "", 204

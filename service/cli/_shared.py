@@ -90,6 +90,20 @@ def _recording_config(args) -> dict:
     return config
 
 
+#: Members of a problem the commands print under its message.
+PROBLEM_MEMBERS = ("field", "value", "channel", "sample_index", "valid")
+
+
+def service_error(exc) -> int:
+    """Print a refused request (a ``ServiceError``) for people; the exit code:
+    2 for the request's fault (4xx), 3 for the service's or the network's."""
+    print(f"error: {exc}", file=sys.stderr)
+    for k in PROBLEM_MEMBERS:
+        if k in exc.problem:
+            print(f"  {k}: {exc.problem[k]}", file=sys.stderr)
+    return 2 if 400 <= exc.status < 500 else 3
+
+
 def print_report(report: dict, out=None) -> None:
     """The per-point table and the cautions, for people."""
     out = out or sys.stdout

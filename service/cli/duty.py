@@ -6,7 +6,7 @@ import json
 import sys
 from pathlib import Path
 
-from ._shared import _fmt
+from ._shared import _fmt, service_error
 
 
 def print_duty_cycle(doc: dict, out=None) -> None:
@@ -54,11 +54,7 @@ def _cmd_duty_cycle(args) -> int:
     try:
         doc = client.post_json("/v1/duty-cycles", request)[1]
     except ServiceError as exc:
-        print(f"error: {exc}", file=sys.stderr)
-        for k in ("field", "valid"):
-            if k in exc.problem:
-                print(f"  {k}: {exc.problem[k]}", file=sys.stderr)
-        return 2 if 400 <= exc.status < 500 else 3
+        return service_error(exc)
     if args.json:
         json.dump(doc, sys.stdout, indent=2)
         print()
@@ -95,11 +91,7 @@ def _cmd_edit(args) -> int:
         doc = client.edit(args.history, **request)
         signal = client.edited_signal(doc["id"])
     except ServiceError as exc:
-        print(f"error: {exc}", file=sys.stderr)
-        for k in ("field", "valid"):
-            if k in exc.problem:
-                print(f"  {k}: {exc.problem[k]}", file=sys.stderr)
-        return 2 if 400 <= exc.status < 500 else 3
+        return service_error(exc)
     out = Path(args.out)
     if out.suffix == ".parquet":
         signal.to_parquet(out, index=False)
@@ -157,11 +149,7 @@ def _cmd_spectrum(args) -> int:
     try:
         doc = client.post_json("/v1/spectra", request)[1]
     except ServiceError as exc:
-        print(f"error: {exc}", file=sys.stderr)
-        for k in ("field", "value", "valid"):
-            if k in exc.problem:
-                print(f"  {k}: {exc.problem[k]}", file=sys.stderr)
-        return 2 if 400 <= exc.status < 500 else 3
+        return service_error(exc)
     if args.json:
         json.dump(doc, sys.stdout, indent=2)
         print()

@@ -6,7 +6,8 @@ import json
 import sys
 from pathlib import Path
 
-from ._shared import READER_KEYS, _json_default, _recording_config, from_json, print_report
+from ._shared import (READER_KEYS, _json_default, _recording_config, from_json, print_report,
+                      service_error)
 
 
 def post_file(client, path: Path, config: dict, progress=None) -> dict:
@@ -52,11 +53,7 @@ def _cmd_post(args) -> int:
         report = post_file(client, Path(args.file), config,
                            progress=None if args.json else _progress_bar)
     except ServiceError as exc:
-        print(f"error: {exc}", file=sys.stderr)
-        for k in ("field", "channel", "sample_index", "valid"):
-            if k in exc.problem:
-                print(f"  {k}: {exc.problem[k]}", file=sys.stderr)
-        return 2 if 400 <= exc.status < 500 else 3
+        return service_error(exc)
     if args.json:
         json.dump(report, sys.stdout, indent=2, default=_json_default)
         print()
@@ -78,8 +75,7 @@ def _cmd_report(args) -> int:
     try:
         _, _, body = client.request("GET", path, accept="text/html")
     except ServiceError as exc:
-        print(f"error: {exc}", file=sys.stderr)
-        return 2 if 400 <= exc.status < 500 else 3
+        return service_error(exc)
     out = Path(args.out or (f"{args.asset or args.duty_cycle or args.assessment}.html"))
     out.write_bytes(body)
     print(f"wrote {out} ({len(body) / 1024:.0f} kB; open it in a browser, it needs no network)")

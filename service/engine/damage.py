@@ -65,7 +65,7 @@ _EN_RANGE_LIMIT = 1.5
 
 
 def assess(table: CycleTable, curve: SNCurve, options: AssessmentOptions | None = None,
-           *, duration_s: float | None = None) -> PointAssessment:
+           *, duration_s: float | None = None, weighted: bool = False) -> PointAssessment:
     """
     Assess one point's counted cycles against an S-N curve by Miner's rule.
 
@@ -79,6 +79,10 @@ def assess(table: CycleTable, curve: SNCurve, options: AssessmentOptions | None 
         Mean-stress method, strengths, factors, allowable damage.
     duration_s : float, optional
         Duration of the history, for the life in hours. [s]
+    weighted : bool
+        The counts are how often each row occurs (a design life's expected
+        or combined cycles), not one pass of a history: no row is a half
+        cycle of an open residue, so one repeat is the table as it stands.
 
     Returns
     -------
@@ -107,7 +111,7 @@ def assess(table: CycleTable, curve: SNCurve, options: AssessmentOptions | None 
     # Kept memory when it fits (see _buffers): 1e6 fresh cycles cost ~2 ms in page faults.
     per_cycle = POOL.columns(n, FLOATS)[0][:n]
     first = evaluate(1.0, per_cycle, extras=True)
-    return _complete(table, evaluate, per_cycle, first, curve, opts, duration_s)
+    return _complete(table, evaluate, per_cycle, first, curve, opts, duration_s, weighted)
 
 
 def _check_duration(duration_s):
@@ -116,7 +120,8 @@ def _check_duration(duration_s):
                                value=duration_s, limit=0.0)
 
 
-def _complete(table, evaluate, per_cycle, first, curve, opts, duration_s) -> PointAssessment:
+def _complete(table, evaluate, per_cycle, first, curve, opts, duration_s,
+              weighted: bool = False) -> PointAssessment:
     """Reserve factor, top cycles and the result, after the first pass."""
     n = len(table)
     damage, overloads, _, max_inv_life, eq_sum, max_range, total_count = first
@@ -131,7 +136,7 @@ def _complete(table, evaluate, per_cycle, first, curve, opts, duration_s) -> Poi
     below = take_back(pending, _below_limit, *below_args) if pending is not None else None
     return _assemble(table, per_cycle, top_rows, damage, overloads, max_inv_life, max_range,
                      total_count, reserve, curve, opts, duration_s, evaluate.args,
-                     onset=evaluate.overload_scale, below=below)
+                     onset=evaluate.overload_scale, below=below, weighted=weighted)
 
 
 def _damage_only(table: CycleTable, args, scale: float) -> float:
@@ -276,7 +281,7 @@ def _method_checks(table, per_cycle, damage, curve, opts):
 
 def _assemble(table, per_cycle, top_rows, damage, overloads, max_inv_life, max_range,
               total_count, reserve, curve, opts, duration_s, args, echo=None,
-              description=None, onset=None, below=None):
+              description=None, onset=None, below=None, weighted=False):
     """The :class:`PointAssessment` from the computed figures (shared by the
     one-point and the batch path). ``table`` gives the rows of ``top_rows``;
     ``args`` are the kernel's ``(model, segments)`` for the checks' passes;
@@ -295,8 +300,11 @@ def _assemble(table, per_cycle, top_rows, damage, overloads, max_inv_life, max_r
         flags.append("low_cycle_regime")
     if math.isfinite(damage) and damage >= opts.allowable_damage:
         flags.append("allowable_reached")  # as the ledger says of its running sum
-    per_repeat, cycles_per_repeat, residue_share = _per_repeat(
-        table, per_cycle, damage, total_count, args, opts.load_factor)
+    if weighted:
+        per_repeat, cycles_per_repeat, residue_share = damage, total_count, None
+    else:
+        per_repeat, cycles_per_repeat, residue_share = _per_repeat(
+            table, per_cycle, damage, total_count, args, opts.load_factor)
     life = math.inf if per_repeat == 0 else opts.allowable_damage / per_repeat
     top = []
     rows = np.asarray(top_rows, np.int64)

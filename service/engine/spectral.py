@@ -1,15 +1,15 @@
 """Fatigue from power spectral densities (stationary Gaussian loads).
 
 A vibration test is specified by a one-sided stress PSD G(f) [MPa^2/Hz]
-rather than a recording. The spectral moments give the rates of zero
-up-crossings and of peaks and the bandwidth; each method here turns them
-into a probability density of rainflow ranges p(S), and the damage over an
-exposure T is the expected count nu T p(S) dS weighed by the S-N curve:
+rather than a recording. The spectral moments (``psd.py``) give the rates
+of zero up-crossings and of peaks and the bandwidth; each method here turns
+them into a probability density of rainflow ranges p(S), and the damage over
+an exposure T is the expected count nu T p(S) dS weighed by the S-N curve:
 :math:`D = \\nu T \\int p(S)/N(S)\\,dS`. The density is laid out as a cycle
-table (one row per range bin, the expected count as its count) so that the
-same ``damage.assess`` as every recording gives damage, reserve factor,
-flags and cautions, on any curve (knees, cut-offs, factors, a static mean
-with its mean-stress correction).
+table (one row per Gauss-Legendre node of the range axis, the expected count
+as its count) so that the same ``damage.assess`` as every recording gives
+damage, reserve factor, flags and cautions, on any curve (knees, cut-offs,
+factors, a static mean with its mean-stress correction).
 
 Methods (``RANGE_DENSITIES``):
 
@@ -52,7 +52,16 @@ import numpy as np
 from scipy.special import gamma as gamma_fn
 
 from .errors import InvalidParameter, unknown
+from .psd import SpectralMoments, check_psd, moments, synthesize
 from .rainflow import CycleTable
+
+# The PSD's own functions are here too: one import path for the spectral work.
+__all__ = ["SpectralMoments", "check_psd", "moments", "synthesize", "RANGE_DENSITIES",
+           "DEFAULT_METHODS", "LoadCase", "SpectralResult", "assess_spectrum",
+           "range_density", "quadrature", "expected_cycles", "range_edges", "cycle_table",
+           "narrow_band_damage", "dirlik_damage", "dirlik_coefficients",
+           "tovo_benasciutti_weight", "zhao_baker_coefficients", "wirsching_light_factor",
+           "outside_range", "largest_expected_range"]
 
 #: Range bins a density is laid out on (ranges from 0 to ``_TAIL`` standard
 #: deviations of the process times two).
@@ -63,123 +72,6 @@ _TAIL = 9.0
 #: (1e-3 expected cycles) would raise static and low-cycle flags for loads
 #: that never happen. The damage they carry is nil for any S-N slope in use.
 TAIL_CYCLES = 1e-3
-
-
-@dataclass(frozen=True)
-class SpectralMoments:
-    """Moments and bandwidth figures of a one-sided PSD.
-
-    Attributes
-    ----------
-    m0, m1, m2, m4 : float
-        :math:`m_k = \\int_0^\\infty f^k G(f)\\,df`; m0 is the variance.
-        [MPa^2 Hz^k]
-    nu0 : float
-        Rate of zero (mean) up-crossings, :math:`\\sqrt{m_2/m_0}`. [1/s]
-    nu_p : float
-        Rate of peaks, :math:`\\sqrt{m_4/m_2}`. [1/s]
-    alpha1, alpha2 : float
-        Bandwidth parameters :math:`\\alpha_i = m_i/\\sqrt{m_0 m_{2i}}`;
-        alpha2 (Rice's irregularity factor nu0/nu_p) is 1 for a narrow band.
-        [-]
-    alpha075 : float
-        :math:`m_{0.75}/\\sqrt{m_0 m_{1.5}}` (Tovo-Benasciutti). [-]
-    """
-
-    m0: float
-    m1: float
-    m2: float
-    m4: float
-    m075: float
-    m15: float
-
-    @property
-    def nu0(self) -> float:
-        return math.sqrt(self.m2 / self.m0)
-
-    @property
-    def nu_p(self) -> float:
-        return math.sqrt(self.m4 / self.m2)
-
-    @property
-    def alpha1(self) -> float:
-        return self.m1 / math.sqrt(self.m0 * self.m2)
-
-    @property
-    def alpha2(self) -> float:
-        return self.m2 / math.sqrt(self.m0 * self.m4)
-
-    @property
-    def alpha075(self) -> float:
-        return self.m075 / math.sqrt(self.m0 * self.m15)
-
-    @property
-    def rms(self) -> float:
-        """Standard deviation of the stress, :math:`\\sqrt{m_0}`. [MPa]"""
-        return math.sqrt(self.m0)
-
-    def as_dict(self) -> dict:
-        return {"m0": self.m0, "m1": self.m1, "m2": self.m2, "m4": self.m4,
-                "rms": self.rms, "nu0": self.nu0, "nu_p": self.nu_p,
-                "alpha1": self.alpha1, "alpha2": self.alpha2, "alpha075": self.alpha075}
-
-
-def check_psd(frequency, psd) -> tuple[np.ndarray, np.ndarray]:
-    """The table as float arrays, or an error naming the first bad line."""
-    f = np.asarray(frequency, dtype=np.float64)
-    g = np.asarray(psd, dtype=np.float64)
-    if f.ndim != 1 or f.shape != g.shape or f.shape[0] < 2:
-        raise InvalidParameter("a PSD needs two or more lines: frequency_hz and psd of the "
-                               "same length", field="psd")
-    bad = np.flatnonzero(~np.isfinite(f) | ~np.isfinite(g) | (g < 0) | (f < 0))
-    if bad.size:
-        raise InvalidParameter(f"PSD line {int(bad[0])} ({f[bad[0]]!r} Hz, {g[bad[0]]!r}) "
-                               f"must be finite and >= 0", field="psd", value=int(bad[0]))
-    if np.any(np.diff(f) <= 0):
-        i = int(np.flatnonzero(np.diff(f) <= 0)[0]) + 1
-        raise InvalidParameter(f"frequencies must rise: line {i} ({f[i]} Hz) does not",
-                               field="psd", value=i)
-    if not np.any(g > 0):
-        raise InvalidParameter("the PSD is zero everywhere", field="psd")
-    return f, g
-
-
-def moments(frequency, psd) -> SpectralMoments:
-    r"""
-    Spectral moments of a one-sided PSD given at lines (trapezoidal rule).
-
-    Parameters
-    ----------
-    frequency : array-like
-        Rising frequencies. [Hz]
-    psd : array-like
-        One-sided PSD at each frequency, :math:`G(f)`. [MPa^2/Hz]
-
-    Returns
-    -------
-    SpectralMoments
-
-    Notes
-    -----
-    :math:`m_k = \int f^k G(f)\,df` by the trapezoidal rule over the lines
-    given (the PSD is taken as zero outside them).
-    """
-    f, g = check_psd(frequency, psd)
-    # Trapezoid weights once; the powers by products and square roots.
-    w = np.empty_like(f)
-    d = np.diff(f)
-    w[0], w[-1] = 0.5 * d[0], 0.5 * d[-1]
-    w[1:-1] = 0.5 * (d[:-1] + d[1:])
-    gw = g * w
-    root = np.sqrt(f)
-    f2 = f * f
-    powers = np.vstack([np.ones_like(f), np.sqrt(f * root), f, f * root, f2, f2 * f2])
-    vals = powers @ gw
-    m = dict(zip((0.0, 0.75, 1.0, 1.5, 2.0, 4.0), (float(v) for v in vals)))
-    if m[2.0] <= 0 or m[4.0] <= 0:
-        raise InvalidParameter("the PSD has no power above 0 Hz: no crossings to count",
-                               field="psd")
-    return SpectralMoments(m[0.0], m[1.0], m[2.0], m[4.0], m[0.75], m[1.5])
 
 
 # ----------------------------------------------------------------- densities
@@ -388,42 +280,6 @@ def dirlik_damage(mom: SpectralMoments, exposure_s: float, slope: float,
                * (c["D2"] * abs(c["R"]) ** m + c["D3"])))
 
 
-def synthesize(frequency, psd, duration_s: float, sample_rate_hz: float,
-               seed: int | None = None) -> np.ndarray:
-    r"""
-    A stationary Gaussian history with the given one-sided PSD.
-
-    Random phases on a fine frequency grid (the PSD interpolated linearly,
-    zero outside its lines); the amplitude of each line is
-    :math:`\sqrt{2\,G(f)\,\Delta f}`, so the variance is :math:`m_0`.
-    [MPa]
-
-    References
-    ----------
-    .. [1] M. Shinozuka and C.-M. Jan, "Digital simulation of random
-       processes and its applications," *J. Sound Vib.*, vol. 25, no. 1,
-       pp. 111-128, 1972.
-    """
-    f, g = check_psd(frequency, psd)
-    n = int(round(duration_s * sample_rate_hz))
-    if n < 4:
-        raise InvalidParameter("the duration holds fewer than 4 samples", field="duration_s")
-    if f[-1] > sample_rate_hz / 2:
-        raise InvalidParameter(f"the PSD reaches {f[-1]} Hz, above the Nyquist frequency "
-                               f"{sample_rate_hz / 2} Hz of the synthesis", field="psd")
-    grid = np.fft.rfftfreq(n, 1.0 / sample_rate_hz)
-    df = grid[1] - grid[0]
-    gi = np.interp(grid, f, g, left=0.0, right=0.0)
-    rng = np.random.default_rng(seed)
-    phase = rng.uniform(0.0, 2 * np.pi, grid.shape[0])
-    amp = np.sqrt(2.0 * gi * df)
-    amp[0] = 0.0  # a zero-mean process
-    if n % 2 == 0:
-        amp[-1] = 0.0  # the Nyquist line has no phase to draw
-    spectrum = amp * np.exp(1j * phase) * (n / 2.0)
-    return np.fft.irfft(spectrum, n)
-
-
 #: Methods assessed when a request names none; the first governs.
 DEFAULT_METHODS = ("dirlik", "tovo_benasciutti", "narrow_band", "wirsching_light",
                    "zhao_baker")
@@ -462,7 +318,8 @@ class SpectralResult:
     method : str
     assessment : PointAssessment
         From ``damage.assess`` of the expected cycles of every load case
-        (damage of one repeat of the profile, reserve factor, flags).
+        (damage of one repeat of the profile, lives in repeats and hours,
+        reserve factor, flags).
     damage_per_case : dict
         Damage of each load case over its exposure. [-]
     centres, density : list of ndarray
@@ -576,6 +433,7 @@ def assess_spectrum(cases, curve, options=None, methods=DEFAULT_METHODS,
                                    field="exposure_s")
     plain = replace(opts, reserve_factor=False, top_cycles=0)
     full = replace(opts, top_cycles=0)
+    profile_s = float(sum(c.exposure_s for c in cases))
     nodes = [quadrature(mom, knees, bins) for mom in moms]
     out = {}
     for method in methods:
@@ -591,11 +449,12 @@ def assess_spectrum(cases, curve, options=None, methods=DEFAULT_METHODS,
             t = cycle_table(s, n, c.mean_stress)
             tables.append(t)
             if len(cases) > 1:
-                per_case[c.name] = assess(t, curve, plain).damage if len(t) else 0.0
+                per_case[c.name] = assess(t, curve, plain, weighted=True).damage if len(t) else 0.0
             centres.append(s)
             density.append(rate * p)
             largest[c.name] = largest_expected_range(s, n)
-        r = assess(tables[0] if len(tables) == 1 else CycleTable.concat(tables), curve, full)
+        r = assess(tables[0] if len(tables) == 1 else CycleTable.concat(tables), curve, full,
+                   duration_s=profile_s, weighted=True)
         if len(cases) == 1:
             per_case[cases[0].name] = r.damage
         out[method] = SpectralResult(method, r, per_case, centres, density, largest)

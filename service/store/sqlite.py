@@ -366,14 +366,8 @@ def insert_superposition(con, row: dict) -> None:
 
 
 def get_superposition(con, project: str, sup_id: str) -> dict | None:
-    r = con.execute("SELECT * FROM superpositions WHERE id = ? AND project = ?",
-                    (sup_id, project)).fetchone()
-    if r is None:
-        return None
-    out = dict(r)
-    out["request"] = json.loads(out["request"])
-    out["result"] = json.loads(out["result"])
-    return out
+    return _doc(con.execute("SELECT * FROM superpositions WHERE id = ? AND project = ?",
+                            (sup_id, project)).fetchone())
 
 
 # ---------------------------------------------------------------- duty cycles, spectra
@@ -382,15 +376,21 @@ def get_superposition(con, project: str, sup_id: str) -> dict | None:
 _DOCS = ("duty_cycles", "spectra")
 
 
-def insert_doc(con, table: str, row: dict) -> None:
-    assert table in _DOCS
-    con.execute(f"INSERT INTO {table} (id, project, name, created_at, request, result) "
+def _docs(table: str) -> str:
+    if table not in _DOCS:
+        raise ValueError(f"{table!r} is not a table of documents")
+    return table
+
+
+def _insert_doc(con, table: str, row: dict) -> None:
+    con.execute(f"INSERT INTO {_docs(table)} (id, project, name, created_at, request, result) "
                 "VALUES (?, ?, ?, ?, ?, ?)",
                 (row["id"], row["project"], row["name"], row["created_at"],
                  json.dumps(row["request"]), json.dumps(row["result"])))
 
 
 def _doc(r) -> dict | None:
+    """A row with its JSON ``request`` and ``result`` read."""
     if r is None:
         return None
     out = dict(r)
@@ -400,42 +400,30 @@ def _doc(r) -> dict | None:
 
 
 def get_doc(con, table: str, project: str, doc_id: str) -> dict | None:
-    assert table in _DOCS
-    return _doc(con.execute(f"SELECT * FROM {table} WHERE id = ? AND project = ?",
+    return _doc(con.execute(f"SELECT * FROM {_docs(table)} WHERE id = ? AND project = ?",
                             (doc_id, project)).fetchone())
 
 
 def list_docs(con, table: str, project: str, limit: int = 100, offset: int = 0) -> list[dict]:
-    assert table in _DOCS
     return [_doc(r) for r in con.execute(
-        f"SELECT * FROM {table} WHERE project = ? ORDER BY created_at DESC, id "
+        f"SELECT * FROM {_docs(table)} WHERE project = ? ORDER BY created_at DESC, id "
         "LIMIT ? OFFSET ?", (project, limit, offset))]
 
 
 def delete_doc(con, table: str, project: str, doc_id: str) -> bool:
-    assert table in _DOCS
-    return con.execute(f"DELETE FROM {table} WHERE id = ? AND project = ?",
+    return con.execute(f"DELETE FROM {_docs(table)} WHERE id = ? AND project = ?",
                        (doc_id, project)).rowcount > 0
 
 
-def insert_duty_cycle(con, row: dict) -> None:
-    insert_doc(con, "duty_cycles", row)
-
-
-def get_duty_cycle(con, project: str, duty_id: str) -> dict | None:
-    return get_doc(con, "duty_cycles", project, duty_id)
-
-
-def list_duty_cycles(con, project: str, limit: int = 100, offset: int = 0) -> list[dict]:
-    return list_docs(con, "duty_cycles", project, limit, offset)
-
-
-def delete_duty_cycle(con, project: str, duty_id: str) -> bool:
-    return delete_doc(con, "duty_cycles", project, duty_id)
-
-
-def insert_spectrum(con, row: dict) -> None:
-    insert_doc(con, "spectra", row)
+def store_doc(con, table: str, prefix: str, project: str, name, request: dict,
+              result: dict) -> dict:
+    """Store a new document (a fresh id with ``prefix``) in one write
+    transaction; the row stored."""
+    row = {"id": new_id(prefix), "project": project, "name": name, "created_at": now(),
+           "request": request, "result": result}
+    with write(con):
+        _insert_doc(con, table, row)
+    return row
 
 
 # ---------------------------------------------------------------- edits
@@ -449,14 +437,8 @@ def insert_edit(con, row: dict) -> None:
 
 
 def get_edit(con, project: str, edit_id: str) -> dict | None:
-    r = con.execute("SELECT * FROM edits WHERE id = ? AND project = ?",
-                    (edit_id, project)).fetchone()
-    if r is None:
-        return None
-    out = dict(r)
-    out["request"] = json.loads(out["request"])
-    out["result"] = json.loads(out["result"])
-    return out
+    return _doc(con.execute("SELECT * FROM edits WHERE id = ? AND project = ?",
+                            (edit_id, project)).fetchone())
 
 
 def delete_edit(con, project: str, edit_id: str) -> str | None:

@@ -266,7 +266,18 @@ def test_the_design_life_extrapolated_beside_the_repeated_one(client):
     p = r.get_json()["result"]["points"]["g"]
     ex = p["extrapolated"]
     assert ex["factor"] == 1000 and ex["expected_above_observed"] > 1
-    assert 1.0 <= ex["extrapolation_effect"] <= 1.15
+    # The engine's extrapolation of the settled duty cycle (one pass of the
+    # event as a repeating block) to 1000 of them, on the same curve.
+    from service.engine.extrapolation import extrapolate_matrix
+    from service.engine.sn_curve import basquin_range
+
+    one = astm_e1049(x + 50.0, residue="repeating_block")
+    e = extrapolate_matrix(one, 1000.0)
+    assert ex["damage"] == pytest.approx(assess(e.table(), basquin_range(3.0, 1e12),
+                                                AssessmentOptions(reserve_factor=False,
+                                                                  top_cycles=0)).damage,
+                                         rel=1e-9)
+    assert 1.0 < ex["extrapolation_effect"] < 1.15
     assert ex["damage_scaled"] == pytest.approx(p["damage"], rel=0.05)  # binning only
     assert "extrapolation_extremes" in {c["code"] for c in p["cautions"]}
     plain = client.post("/v1/duty-cycles", json={

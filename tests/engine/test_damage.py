@@ -533,3 +533,24 @@ def test_a_haigh_diagram_through_the_whole_assessment():
     other = assess_history(x, curve, AssessmentOptions(
         mean_stress_method="haigh", haigh_diagram=HAIGH, haigh_stress_ratio=0.0))
     assert "haigh_ratio_mismatch" in {c.code for c in other.cautions}
+
+
+def test_weighted_counts_are_not_read_as_an_open_residue():
+    # A table of how often each row occurs (a design life, a spectrum's
+    # expected cycles): a count of exactly 0.5 is half an occurrence, not a
+    # half cycle of an open residue, so the life is the allowable sum over
+    # the damage (Miner) and no residue caution is raised.
+    from service.engine.rainflow import CycleTable
+
+    t = CycleTable(np.array([-100.0, -50.0]), np.array([100.0, 50.0]), np.array([0.5, 3.0]),
+                   np.zeros(2, np.int64), np.zeros(2, np.int64))
+    curve = basquin_range(3.0, 1e12)
+    r = assess(t, curve, AssessmentOptions(reserve_factor=False), weighted=True,
+               duration_s=3600.0)
+    d = (0.5 * 200.0 ** 3 + 3.0 * 100.0 ** 3) / 1e12
+    assert r.damage == pytest.approx(d, rel=1e-12)
+    assert r.damage_per_repeat == r.damage and r.life_repeats == pytest.approx(1.0 / d)
+    assert r.life_hours == pytest.approx(1.0 / d) and r.residue_damage_share is None
+    assert "residue_share" not in {c.code for c in r.cautions}
+    plain = assess(t, curve, AssessmentOptions(reserve_factor=False))
+    assert plain.damage_per_repeat != pytest.approx(plain.damage)  # read as a residue

@@ -1,0 +1,242 @@
+r"""Strain-life materials: the cyclic and strain-life constants, their
+estimates from tensile data or hardness, and the strain-life curve.
+
+``StrainLifeMaterial`` holds the Ramberg-Osgood constants (K', n') and the
+Coffin-Manson-Basquin constants (sigma_f', b, eps_f', c), with Walker's
+gamma when known; ``estimate`` gives them from tensile data or hardness by
+published methods, each labelled; ``reversals_to_failure`` solves the curve
+with its mean-stress forms for the life of each loop. The local analysis
+that finds the loops is in ``strain_life.py``.
+
+References
+----------
+.. [1] S. S. Manson, NACA TN 2933, 1953; L. F. Coffin, *Trans. ASME*,
+   vol. 76, pp. 931-950, 1954 (the strain-life curve).
+.. [2] J. Morrow, in *Fatigue Design Handbook*, AE-4, SAE, 1968, sec. 3.2.
+.. [3] K. N. Smith, P. Watson and T. H. Topper, *J. Mater.*, vol. 5, no. 4,
+   pp. 767-778, 1970.
+.. [4] N. E. Dowling, "Mean stress effects in strain-life fatigue,"
+   *Fatigue Fract. Eng. Mater. Struct.*, vol. 32, pp. 1004-1019, 2009.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import asdict, dataclass
+
+import numpy as np
+
+from .errors import InvalidParameter, unknown
+
+#: Mean-stress forms of the strain-life curve.
+STRAIN_MEAN_STRESS = ("none", "morrow", "smith_watson_topper", "walker")
+
+
+@dataclass(frozen=True)
+class StrainLifeMaterial:
+    """Cyclic and strain-life constants of a material.
+
+    ``youngs_modulus`` E [MPa]; ``cyclic_strength_coefficient`` K' [MPa] and
+    ``cyclic_hardening_exponent`` n' [-] of the Ramberg-Osgood cyclic curve;
+    ``fatigue_strength_coefficient`` sigma_f' [MPa], ``fatigue_strength_exponent``
+    b [-], ``fatigue_ductility_coefficient`` eps_f' [-] and
+    ``fatigue_ductility_exponent`` c [-] of Coffin-Manson-Basquin;
+    ``walker_exponent`` gamma [-] of Walker's mean-stress form, when known
+    (from tests at several R ratios). ``source`` says where they come from
+    (test data, or an estimate by name).
+    """
+
+    youngs_modulus: float
+    cyclic_strength_coefficient: float
+    cyclic_hardening_exponent: float
+    fatigue_strength_coefficient: float
+    fatigue_strength_exponent: float
+    fatigue_ductility_coefficient: float
+    fatigue_ductility_exponent: float
+    source: str = "user data"
+    walker_exponent: float | None = None
+
+    def __post_init__(self):
+        for name in ("youngs_modulus", "cyclic_strength_coefficient",
+                     "cyclic_hardening_exponent", "fatigue_strength_coefficient",
+                     "fatigue_ductility_coefficient"):
+            v = getattr(self, name)
+            if isinstance(v, bool) or not isinstance(v, (int, float)) or not (
+                    math.isfinite(v) and v > 0):
+                raise InvalidParameter(f"{name} {v!r} must be a positive number", field=name,
+                                       value=v)
+        for name in ("fatigue_strength_exponent", "fatigue_ductility_exponent"):
+            v = getattr(self, name)
+            if isinstance(v, bool) or not isinstance(v, (int, float)) or not (-1.5 < v < 0):
+                raise InvalidParameter(f"{name} {v!r} must be negative (typically -0.05 to "
+                                       f"-0.15 for b, -0.4 to -0.8 for c)", field=name, value=v)
+        g = self.walker_exponent
+        if g is not None and (isinstance(g, bool) or not isinstance(g, (int, float))
+                              or not 0.0 < g <= 1.0):
+            raise InvalidParameter(f"walker_exponent {g!r} must be in (0, 1] (1: no mean-"
+                                   "stress effect)", field="walker_exponent", value=g)
+        if not self.cyclic_hardening_exponent < 1:
+            raise InvalidParameter("cyclic_hardening_exponent must be below 1",
+                                   field="cyclic_hardening_exponent")
+
+    def as_dict(self) -> dict:
+        return asdict(self)
+
+    def transition_reversals(self) -> float:
+        r""":math:`2N_t`, where the elastic and plastic strain amplitudes are
+        equal: :math:`2N_t = (\varepsilon_f' E/\sigma_f')^{1/(b-c)}`. [reversals]"""
+        return (self.fatigue_ductility_coefficient * self.youngs_modulus
+                / self.fatigue_strength_coefficient) ** (
+            1.0 / (self.fatigue_strength_exponent - self.fatigue_ductility_exponent))
+
+
+# ---------------------------------------------------------------------------- estimates
+
+#: Estimates from tensile data, each named after its paper.
+ESTIMATES = ("uniform_material_law", "medians", "hardness")
+
+
+def estimate(method: str, *, ultimate_strength: float | None = None,
+             youngs_modulus: float = 206_000.0, material_class: str = "steel",
+             brinell_hardness: float | None = None) -> StrainLifeMaterial:
+    r"""
+    Strain-life constants estimated from tensile data or hardness.
+
+    ``uniform_material_law`` (Bäumel and Seeger [1]_): steels
+    :math:`\sigma_f' = 1.5S_u`, :math:`b = -0.087`, :math:`\varepsilon_f' =
+    0.59\psi` (:math:`\psi = 1` for :math:`S_u/E \le 0.003`, else
+    :math:`1.375 - 125 S_u/E`), :math:`c = -0.58`, :math:`K' = 1.65S_u`,
+    :math:`n' = 0.15`; aluminium and titanium alloys :math:`1.67S_u`,
+    :math:`-0.095`, 0.35, :math:`-0.69`, :math:`1.61S_u`, 0.11.
+    ``medians`` (Meggiolaro and Castro [2]_, steels): :math:`1.5S_u`,
+    :math:`-0.09`, 0.45, :math:`-0.59`, with the cyclic curve from
+    compatibility (:math:`n' = b/c`, :math:`K' = \sigma_f'/\varepsilon_f'^{n'}`).
+    ``hardness`` (Roessle and Fatemi [3]_, steels): :math:`\sigma_f' =
+    4.25HB + 225`, :math:`\varepsilon_f' = (0.32HB^2 - 487HB + 191000)/E`,
+    :math:`b = -0.09`, :math:`c = -0.56`, the cyclic curve from
+    compatibility. Every estimate scatters by a factor of several in life
+    (the papers' own comparisons); the result says it is one.
+
+    References
+    ----------
+    .. [1] A. Bäumel and T. Seeger, *Materials Data for Cyclic Loading*,
+       Supplement 1. Amsterdam: Elsevier, 1990.
+    .. [2] M. A. Meggiolaro and J. T. P. Castro, "Statistical evaluation of
+       strain-life fatigue crack initiation predictions," *Int. J. Fatigue*,
+       vol. 26, pp. 463-476, 2004.
+    .. [3] M. L. Roessle and A. Fatemi, "Strain-controlled fatigue
+       properties of steels and some simple approximations," *Int. J.
+       Fatigue*, vol. 22, pp. 495-511, 2000.
+
+    (Constants recalled without the papers at hand; check against them.)
+    """
+    if method not in ESTIMATES:
+        raise unknown("strain_life estimate", method, ESTIMATES)
+    e = float(youngs_modulus)
+    if method == "hardness":
+        if brinell_hardness is None or not 80 <= brinell_hardness <= 700:
+            raise InvalidParameter("the hardness estimate needs brinell_hardness (80-700 HB)",
+                                   field="brinell_hardness", value=brinell_hardness)
+        hb = float(brinell_hardness)
+        sf, b = 4.25 * hb + 225.0, -0.09
+        ef, c = (0.32 * hb * hb - 487.0 * hb + 191_000.0) / e, -0.56
+        n = b / c
+        return StrainLifeMaterial(e, sf / ef ** n, n, sf, b, ef, c,
+                                  "estimate: hardness method (Roessle and Fatemi 2000)")
+    if ultimate_strength is None or not 100 <= ultimate_strength <= 3000:
+        raise InvalidParameter(f"the {method} estimate needs ultimate_strength (100-3000 MPa)",
+                               field="ultimate_strength", value=ultimate_strength)
+    su = float(ultimate_strength)
+    if method == "uniform_material_law":
+        if material_class == "steel":
+            psi = 1.0 if su / e <= 0.003 else 1.375 - 125.0 * su / e
+            return StrainLifeMaterial(e, 1.65 * su, 0.15, 1.5 * su, -0.087, 0.59 * psi, -0.58,
+                                      "estimate: uniform material law, steels (Bäumel and "
+                                      "Seeger 1990)")
+        if material_class == "aluminium":
+            return StrainLifeMaterial(e, 1.61 * su, 0.11, 1.67 * su, -0.095, 0.35, -0.69,
+                                      "estimate: uniform material law, aluminium and titanium "
+                                      "(Bäumel and Seeger 1990)")
+        raise unknown("material_class", material_class, ("steel", "aluminium"))
+    if material_class != "steel":
+        raise InvalidParameter("the medians estimate is for steels", field="material_class")
+    sf, b, ef, c = 1.5 * su, -0.09, 0.45, -0.59
+    n = b / c
+    return StrainLifeMaterial(e, sf / ef ** n, n, sf, b, ef, c,
+                              "estimate: medians method, steels (Meggiolaro and Castro 2004)")
+
+
+def reversals_to_failure(strain_amplitude, material: StrainLifeMaterial, *,
+                         mean_stress=None, max_stress=None,
+                         mean_stress_method: str = "morrow") -> np.ndarray:
+    r"""
+    :math:`2N_f` of each loop from Coffin-Manson-Basquin. [reversals]
+
+    ``morrow``: :math:`\varepsilon_a = (\sigma_f' - \sigma_m)/E\,(2N)^b +
+    \varepsilon_f'(2N)^c` (0 where :math:`\sigma_m \ge \sigma_f'`);
+    ``smith_watson_topper``: :math:`\sigma_{max}\varepsilon_a =
+    \sigma_f'^2/E\,(2N)^{2b} + \sigma_f'\varepsilon_f'(2N)^{b+c}` (inf, no
+    damage, where :math:`\sigma_{max} \le 0`); ``walker``: the fully reversed
+    curve at a shifted life, :math:`\varepsilon_a = \sigma_f'/E\,(2N)^b
+    \left(\frac{1-R}{2}\right)^{1-\gamma} + \varepsilon_f'(2N)^c
+    \left(\frac{1-R}{2}\right)^{(1-\gamma)c/b}` with
+    :math:`(1-R)/2 = \sigma_a/\sigma_{max}` and :math:`\gamma` the
+    material's ``walker_exponent`` (Walker's :math:`\sigma_{ar} =
+    \sigma_{max}^{1-\gamma}\sigma_a^\gamma` carried into both terms, as in
+    N. E. Dowling, "Mean stress effects in strain-life fatigue," *Fatigue
+    Fract. Eng. Mater. Struct.*, vol. 32, pp. 1004-1019, 2009; inf where
+    :math:`\sigma_{max} \le 0`); ``none``: no mean term.
+    Solved for :math:`\log 2N` by Newton's method (the right side falls
+    monotonically with life).
+    """
+    m = material
+    ea = np.asarray(strain_amplitude, dtype=np.float64)
+    E, sf, b, ef, c = (m.youngs_modulus, m.fatigue_strength_coefficient,
+                       m.fatigue_strength_exponent, m.fatigue_ductility_coefficient,
+                       m.fatigue_ductility_exponent)
+    if mean_stress_method not in STRAIN_MEAN_STRESS:
+        raise unknown("mean_stress_method", mean_stress_method, STRAIN_MEAN_STRESS)
+    if mean_stress_method == "walker":
+        gamma = m.walker_exponent
+        if gamma is None:
+            raise InvalidParameter("the walker form needs the material's walker_exponent "
+                                   "(gamma, from tests at several R ratios)",
+                                   field="walker_exponent")
+        smax = np.asarray(max_stress, dtype=np.float64)
+        sa = smax - np.asarray(mean_stress, dtype=np.float64)
+        base = reversals_to_failure(ea, m, mean_stress_method="none")
+        out = np.full(ea.shape, np.inf)
+        live = (smax > 0.0) & (sa > 0.0)
+        # The fully reversed life shifted: 2N = 2N_0 / ((1 - R)/2)^((1 - gamma)/b).
+        shift = np.power(sa[live] / smax[live], (1.0 - gamma) / b)
+        out[live] = base[live] / shift
+        return out
+    if mean_stress_method == "smith_watson_topper":
+        smax = np.asarray(max_stress, dtype=np.float64)
+        target = np.where(smax > 0.0, smax * ea, 0.0)
+        a1, e1, a2, e2 = sf * sf / E, 2 * b, sf * ef, b + c
+        a1 = np.full_like(ea, a1)
+    else:
+        sm = (np.zeros_like(ea) if mean_stress_method == "none"
+              else np.asarray(mean_stress, dtype=np.float64))
+        a1 = (sf - sm) / E
+        target, e1, a2, e2 = ea, b, ef, c
+    out = np.full(ea.shape, np.inf)
+    live = (target > 0.0) & (a1 > 0.0)
+    dead = (a1 <= 0.0) & (target > 0.0)
+    out[dead] = 0.0  # the mean (or peak) reaches sigma_f': no fatigue life left
+    if not live.any():
+        return out
+    t, a = target[live], a1[live]
+    # Start from the larger of the two terms' own solutions, then Newton in
+    # y = ln 2N; f(y) = a e^{e1 y} + a2 e^{e2 y} - t is convex and falling.
+    y = np.minimum(np.log(t / a) / e1, np.log(t / a2) / e2)
+    for _ in range(100):
+        p1, p2 = a * np.exp(e1 * y), a2 * np.exp(e2 * y)
+        f = p1 + p2 - t
+        step = f / (e1 * p1 + e2 * p2)
+        y = y - step
+        if np.all(np.abs(step) < 1e-13 * np.maximum(1.0, np.abs(y))):
+            break
+    out[live] = np.exp(y)
+    return out
