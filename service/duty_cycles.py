@@ -58,7 +58,7 @@ def exposure(events: list[Event], target) -> dict:
     if len(kinds) > 1:
         raise InvalidParameter("give one target: repeats, hours or distance", field="target")
     kind = kinds[0] if kinds else None
-    amount = number(target[kind], f"target {kind}") if kind else None
+    amount = number(target[kind], "target", what=f"target {kind}") if kind else None
     shares = [e for e in events if e.exposure[0] == "share"]
     if shares and len(shares) != len(events):
         raise InvalidParameter("give every event a share, or none", field="share")
@@ -132,7 +132,8 @@ def _variants(specs) -> list[dict]:
         if not isinstance(settings, dict):
             raise InvalidParameter(f"variant {name!r}: settings must be an object",
                                    field="settings")
-        scale = number(v.get("load_scale", 1.0), f"load_scale of variant {name!r}")
+        scale = number(v.get("load_scale", 1.0), "load_scale",
+                       what=f"load_scale of variant {name!r}")
         out.append({"name": name, "settings": settings, "load_scale": scale})
     return out
 

@@ -15,7 +15,7 @@ import math
 
 import numpy as np
 
-from service.events import MissingSource, fields, stress_life
+from service.events import MissingSource, fields, number, stress_life
 from service.engine import cautions
 from service.engine.editing import edit_recording, reduce_recording
 from service.engine.errors import InvalidParameter, unknown
@@ -29,15 +29,6 @@ EDIT_METHODS = ("damage_windows", "peak_valley")
 _TOP = 5
 
 
-def _positive(value, name: str, upper: float | None = None) -> float:
-    if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(
-            value) or value <= 0 or (upper is not None and value > upper):
-        raise InvalidParameter(f"{name} {value!r} must be a number > 0"
-                               + (f" and <= {upper:g}" if upper is not None else ""),
-                               field=name)
-    return float(value)
-
-
 def _per_channel(value, names, what: str) -> list[float | None]:
     if value is None:
         return [None] * len(names)
@@ -45,8 +36,8 @@ def _per_channel(value, names, what: str) -> list[float | None]:
         for k in value:
             if k not in names:
                 raise unknown(what, k, names)
-        return [None if value.get(n) is None else _positive(value[n], what) for n in names]
-    v = _positive(value, what)
+        return [None if value.get(n) is None else number(value[n], what) for n in names]
+    v = number(value, what)
     return [v] * len(names)
 
 
@@ -86,11 +77,11 @@ def check(request: dict, history: dict, lookup=None) -> dict:
             for k in keep:
                 if k not in names:
                     raise unknown("keep", k, names)
-            keep = [_positive(keep.get(n, 0.95), "keep", 1.0) for n in names]
+            keep = [number(keep.get(n, 0.95), "keep", upper=1.0) for n in names]
         else:
-            keep = _positive(keep, "keep", 1.0) if keep is not None else (
+            keep = number(keep, "keep", upper=1.0) if keep is not None else (
                 None if length is not None else 0.95)
-        length = _positive(length, "length", 1.0) if length is not None else None
+        length = number(length, "length", upper=1.0) if length is not None else None
     elif keep is not None or length is not None:
         raise InvalidParameter("keep and length are for damage_windows; peak_valley keeps "
                                "every turning point beyond the gate", field="method")
@@ -108,7 +99,7 @@ def check(request: dict, history: dict, lookup=None) -> dict:
         if not rate:
             raise InvalidParameter("window_s needs the recording's sample rate; give "
                                    "window_samples", field="window_s")
-        window = max(2, int(round(_positive(request["window_s"], "window_s") * rate)))
+        window = max(2, int(round(number(request["window_s"], "window_s") * rate)))
     gate = request.get("gate", 0.0)
     if isinstance(gate, bool) or not isinstance(gate, (int, float)) or not gate >= 0:
         raise InvalidParameter("gate must be a number >= 0", field="gate")

@@ -93,10 +93,17 @@ def stress_life(settings: dict, lookup, why: str):
     return (settings, *point_from_dict(settings))
 
 
-def number(value, where: str, positive: bool = True) -> float:
+def number(value, field: str, *, what: str | None = None, positive: bool = True,
+           upper: float | None = None) -> float:
+    """``value`` as a finite float (> 0 unless ``positive`` is false, <=
+    ``upper`` when given), or a problem naming ``field`` (``what`` says
+    where in the request, for the message)."""
     if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(
-            value) or (positive and value <= 0):
-        raise InvalidParameter(f"{where} {value!r} must be a positive number", field=where,
+            value) or (positive and value <= 0) or (upper is not None and value > upper):
+        limits = (" > 0" if positive else "") + (f" and <= {upper:g}" if upper is not None
+                                                 else "")
+        raise InvalidParameter(f"{what or field} {value!r} must be a number{limits}",
+                               field=field,
                                value=value if isinstance(value, (int, float)) else None)
     return float(value)
 
@@ -206,10 +213,11 @@ def load_events(con, data_dir, project: str, specs) -> list[Event]:
                                    field="events")
         event = _LOADERS[sources[0]](con, data_dir, project, name, spec[sources[0]])
         kind = exposures[0]
-        event.exposure = (kind, number(spec[kind], f"{kind} of event {name!r}"))
+        event.exposure = (kind, number(spec[kind], kind, what=f"{kind} of event {name!r}"))
         if "distance_per_repeat" in spec:
-            event.distance_per_pass = number(spec["distance_per_repeat"],
-                                              f"distance_per_repeat of event {name!r}")
+            event.distance_per_pass = number(
+                spec["distance_per_repeat"], "distance_per_repeat",
+                what=f"distance_per_repeat of event {name!r}")
         out.append(event)
     return out
 

@@ -22,7 +22,7 @@ from service.engine import cautions, spectral
 from service.engine.damage import assess
 from service.engine.errors import InvalidParameter, unknown
 from service.engine.rainflow import astm_e1049
-from service.events import MissingSource, fields, stress_life
+from service.events import MissingSource, fields, number, stress_life
 from service.runs import json_safe
 from service.store import parquet, sqlite
 
@@ -74,11 +74,8 @@ def _case(con, data_dir, project, spec, i) -> tuple[spectral.LoadCase, dict, obj
     if len(sources) != 1:
         raise InvalidParameter(f"load case {name!r}: give one of {', '.join(CASE_SOURCES)}",
                                field="load_cases")
-    exposure = spec.get("exposure_s")
-    if isinstance(exposure, bool) or not isinstance(exposure, (int, float)) or not (
-            math.isfinite(exposure) and exposure > 0):
-        raise InvalidParameter(f"load case {name!r}: exposure_s must be a number > 0",
-                               field="exposure_s")
+    exposure = number(spec.get("exposure_s"), "exposure_s",
+                      what=f"exposure_s of load case {name!r}")
     mean = spec.get("mean_stress_mpa")
     echo = {"name": name, "source": sources[0], "exposure_s": float(exposure)}
     samples = None
@@ -120,10 +117,9 @@ def _case(con, data_dir, project, spec, i) -> tuple[spectral.LoadCase, dict, obj
                     history_duration_s=samples.shape[0] / rate,
                     skewness=float(stats.skew(samples)),
                     excess_kurtosis=float(stats.kurtosis(samples)))
-    if mean is not None and (isinstance(mean, bool) or not isinstance(mean, (int, float))
-                             or not math.isfinite(mean)):
-        raise InvalidParameter(f"load case {name!r}: mean_stress_mpa must be a number",
-                               field="mean_stress_mpa")
+    if mean is not None:
+        mean = number(mean, "mean_stress_mpa", positive=False,
+                      what=f"mean_stress_mpa of load case {name!r}")
     echo["mean_stress_mpa"] = float(mean or 0.0)
     echo["moments"] = spectral.moments(f, g).as_dict()
     case = spectral.LoadCase(name, f, g, float(exposure), float(mean or 0.0))
