@@ -46,19 +46,28 @@ def print_duty_cycle(doc: dict, out=None) -> None:
         print(f"  - [{c['code']}] {c['text']}{where}", file=out)
 
 
-def _cmd_duty_cycle(args) -> int:
+def _post_file(args, route: str):
+    """Post the JSON request in ``args.file`` to ``route``: ``(doc, None)``,
+    or ``(None, exit code)`` when the service refuses it; with ``--json``
+    the answer is printed here."""
     from service.client import Client, ServiceError
 
     request = json.loads(Path(args.file).read_text())
-    client = Client(args.url)
     try:
-        doc = client.post_json("/v1/duty-cycles", request)[1]
+        doc = Client(args.url).post_json(route, request)[1]
     except ServiceError as exc:
-        return service_error(exc)
+        return None, service_error(exc)
     if args.json:
         json.dump(doc, sys.stdout, indent=2)
         print()
-    else:
+    return doc, None
+
+
+def _cmd_duty_cycle(args) -> int:
+    doc, code = _post_file(args, "/v1/duty-cycles")
+    if doc is None:
+        return code
+    if not args.json:
         print_duty_cycle(doc)
         print(f"\n{args.url.rstrip('/')}{doc['links']['report']}")
     return 1 if doc["passed"] is False else 0
@@ -142,17 +151,10 @@ def add_edit_parser(sub) -> None:
 
 
 def _cmd_spectrum(args) -> int:
-    from service.client import Client, ServiceError
-
-    request = json.loads(Path(args.file).read_text())
-    client = Client(args.url)
-    try:
-        doc = client.post_json("/v1/spectra", request)[1]
-    except ServiceError as exc:
-        return service_error(exc)
+    doc, code = _post_file(args, "/v1/spectra")
+    if doc is None:
+        return code
     if args.json:
-        json.dump(doc, sys.stdout, indent=2)
-        print()
         return 0
     res = doc["result"]
     print(f"spectral assessment {doc.get('name') or doc['id']}: {len(res['load_cases'])} load "
