@@ -47,9 +47,12 @@ def main() -> int:
     data = Path(tempfile.mkdtemp(prefix="cycleledger-wheel-data-"))
     env = {**os.environ, "NUMBA_CACHE_DIR": str(here / "numba-cache"),
            "MPLCONFIGDIR": str(here / "mpl")}
-    proc = subprocess.Popen([str(bin_dir / "cycleledger"), "serve", "--host", "127.0.0.1",
-                             "--port", str(port), "--data-dir", str(data)], env=env,
-                            stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+    # The log goes to a file: a pipe nobody reads fills and stalls the service.
+    log_path = data.parent / f"{data.name}.log"
+    with open(log_path, "wb") as log:
+        proc = subprocess.Popen([str(bin_dir / "cycleledger"), "serve", "--host", "127.0.0.1",
+                                 "--port", str(port), "--data-dir", str(data)], env=env,
+                                stdout=subprocess.DEVNULL, stderr=log)
     try:
         deadline = time.monotonic() + 180
         while True:
@@ -59,7 +62,7 @@ def main() -> int:
             except OSError:
                 pass
             if proc.poll() is not None or time.monotonic() > deadline:
-                print(proc.stderr.read().decode()[-3000:], file=sys.stderr)
+                print(log_path.read_text(errors="replace")[-3000:], file=sys.stderr)
                 raise SystemExit("the service did not become ready")
             time.sleep(0.5)
         print("ready")

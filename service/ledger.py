@@ -287,13 +287,15 @@ def sequence_check(con, asset_id: str, seq: int, row: dict, content_hash: str,
                          point=point, seq=seq, expected=last + 1)
 
 
-def post_block(con, data_dir, asset_id: str, seq: int, up, spooled, *, recorded_at=None,
+def post_block(con, data_dir, asset_id: str, seq: int, up, body, *, recorded_at=None,
                idempotency_key=None, content_hash: str, allow_gap=False,
                allow_late=False, respond) -> tuple[dict, bool]:
     """Count a block for its points and store it with the new totals.
 
-    ``respond(block_row, statuses)`` builds the answer, which is stored so a
-    retry gets it again. Returns ``(answer, replayed)``.
+    ``body`` is the request's bytes or the file they were spooled to (kept
+    as the block's file when ``up.stored_as_sent``). ``respond(block_row,
+    statuses)`` builds the answer, which is stored so a retry gets it
+    again. Returns ``(answer, replayed)``.
     """
     if idempotency_key is not None:
         held = sql.block_by_key(con, asset_id, idempotency_key)
@@ -320,7 +322,7 @@ def post_block(con, data_dir, asset_id: str, seq: int, up, spooled, *, recorded_
             counted[n], findings[n] = point_signal(n, up.channels, up.sample_rate_hz, models[n],
                                                    rows[n])
         block_id = sqlite.new_id("b")
-        rel = (parquet.adopt(data_dir, BLOCKS, block_id, spooled) if up.stored_as_sent
+        rel = (parquet.adopt(data_dir, BLOCKS, block_id, body) if up.stored_as_sent
                else parquet.write_columns(data_dir, BLOCKS, block_id, up.channels))
         block = {"id": block_id, "asset_id": asset_id, "seq": seq, "created_at": sqlite.now(),
                  "recorded_at": recorded_at, "idempotency_key": idempotency_key,

@@ -27,6 +27,8 @@ def create_app(test_config: dict | None = None) -> Flask:
 
     ``DATA_DIR``: data directory (env ``CYCLELEDGER_DATA_DIR``);
     ``MAX_UPLOAD_MB``: largest request body before 413 (default 512);
+    ``MEMORY_BODY_MB``: an upload (or its unpacked gzip) up to this size is
+    read from memory, a larger one through a temporary file (default 256);
     ``ASYNC_SAMPLES``: samples x points above which an assessment runs as a
     job (202) instead of at once (201) (default 2e6);
     ``JOB_WORKERS``: threads running jobs (default 1);
@@ -44,6 +46,7 @@ def create_app(test_config: dict | None = None) -> Flask:
     app.config.update(
         DATA_DIR=os.environ.get(DATA_DIR_ENV, DEFAULT_DATA_DIR),
         MAX_UPLOAD_MB=512,
+        MEMORY_BODY_MB=256,
         ASYNC_SAMPLES=2_000_000,
         JOB_WORKERS=1,
         MAX_CHANNELS=256,

@@ -11,6 +11,8 @@ factor when asked, and converted to MPa before anything is stored.
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import numpy as np
 
 from service.engine import units
@@ -41,29 +43,28 @@ def check_media_type(content_type: str | None) -> str:
     return mime
 
 
-def parse(path, content_type: str, params: dict, registered: dict | None = None) -> Upload:
-    """Parse and validate an upload spooled to ``path``; ``params`` are the
-    query parameters. The format comes from the file's first bytes (a gzip
-    file is unpacked beside it first); Parquet and Arrow are memory-mapped."""
-    import os
-
+def parse(body, content_type: str, params: dict, registered: dict | None = None) -> Upload:
+    """Parse and validate an upload: ``body`` is its bytes (held in memory)
+    or the file it was spooled to; ``params`` are the query parameters. The
+    format comes from the first bytes (a gzip body is unpacked first, into
+    memory while it stays within the memory limit); Parquet and Arrow files
+    are memory-mapped."""
     from service import recordings
 
     mime = check_media_type(content_type)
-    if os.path.getsize(path) == 0:
+    if _size(body) == 0:
         raise InvalidUpload("the upload is empty", field="body")
     params = dict(params)
-    with open(path, "rb") as f:
-        head = f.read(16)
-    fmt = recordings.detect(head, mime)
-    source, unpacked = path, None
+    fmt = recordings.detect(recordings.head(body), mime)
+    source, unpacked = body, None
     try:
         if fmt == "gzip":
-            source = unpacked = recordings.unpacked(path)
-            with open(source, "rb") as f:
-                fmt = recordings.detect(f.read(16), mime)
+            source = unpacked = recordings.unpacked(
+                body, folder=None if recordings.in_memory(body) else Path(body).parent,
+                memory_limit=memory_body_limit())
+            fmt = recordings.detect(recordings.head(source), mime)
         if fmt == "json":
-            with open(source, "rb") as f:
+            with recordings.binary(source) as f:
                 columns, params = _json(f.read(), params)
             up = validated(columns, params, registered)
         else:
@@ -75,13 +76,30 @@ def parse(path, content_type: str, params: dict, registered: dict | None = None)
             up.format = rec.format
             up.read_details = rec.details
     finally:
-        if unpacked is not None:
+        if isinstance(unpacked, Path):
             unpacked.unlink(missing_ok=True)
     # Already float64 MPa with nothing to convert: keep the file as sent
     # (no second write, no re-encoding); readers select the channel columns.
     up.stored_as_sent = (fmt == "parquet" and unpacked is None
                          and _stored_as_sent(up, columns))
     return up
+
+
+def _size(body) -> int:
+    import os
+
+    from service import recordings
+
+    return len(body) if recordings.in_memory(body) else os.path.getsize(body)
+
+
+def memory_body_limit() -> int:
+    """Bytes of a request body (or its unpacked gzip) kept in memory rather
+    than written to a temporary file (``MEMORY_BODY_MB``)."""
+    from flask import current_app, has_app_context
+
+    mb = current_app.config.get("MEMORY_BODY_MB", 256) if has_app_context() else 256
+    return int(float(mb) * 2**20)
 
 
 def _stored_as_sent(up: "Upload", columns: dict) -> bool:

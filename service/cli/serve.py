@@ -65,6 +65,8 @@ SERVE_OPTIONS = {
     "threads": (int, 8, "request threads"),
     "job_workers": (int, 1, "threads running large assessments"),
     "max_upload_mb": (float, 512.0, "largest request body; larger ones get 413"),
+    "memory_body_mb": (float, 256.0, "uploads up to this size are read in memory, larger "
+                                     "ones through a temporary file"),
     "async_samples": (int, 2_000_000, "samples x points above which an assessment becomes "
                                       "a job"),
     "scheduler": (str, None, "Dask scheduler address: jobs' points run on that cluster "
@@ -162,6 +164,7 @@ def _cmd_serve(args) -> int:
     handler.setFormatter(JsonFormatter())
     logging.basicConfig(level=logging.INFO, handlers=[handler])
     config = {"DATA_DIR": args.data_dir, "MAX_UPLOAD_MB": args.max_upload_mb,
+              "MEMORY_BODY_MB": args.memory_body_mb,
               "JOB_WORKERS": args.job_workers, "ASYNC_SAMPLES": args.async_samples,
               "MAX_CHANNELS": args.max_channels,
               "MAX_SAMPLES_PER_CHANNEL": args.max_samples_per_channel,

@@ -8,6 +8,12 @@ of acquisition systems (``csv_dialect.py``), Parquet and Arrow IPC (pyarrow),
 ASAM MDF 4 (``mdf.py``, asammdf) and HDF5 (``hdf5.py``, h5py); a gzip file
 is unpacked (streamed, to a temporary file beside it) and recognised again.
 
+A recording is read from a file on disk (a :class:`~pathlib.Path`) or from
+bytes held in memory (a request body small enough to keep there: the
+service keeps bodies up to a limit in memory because writing them to disk
+and reading them back costs more than parsing them, see
+``tests/benchmarks/bench_inputs.py``).
+
 A :class:`Recording` is columns of float64 samples with the unit each is
 spelt in (if the file says), the time column if there is one (in seconds)
 and a rate from the file's metadata; units and conversion to MPa are the
@@ -17,7 +23,10 @@ caller's (``service.api.uploads.validated``).
 from __future__ import annotations
 
 import gzip
+import io
 import shutil
+import tempfile
+import zlib
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -42,6 +51,33 @@ _MAGIC = (
     (b"\x89HDF\r\n\x1a\n", "hdf5"),
 )
 _GZIP = b"\x1f\x8b"
+
+def in_memory(source) -> bool:
+    """Whether ``source`` is bytes held in memory rather than a file."""
+    return isinstance(source, (bytes, bytearray, memoryview))
+
+
+def binary(source):
+    """``source`` opened as a binary file object (a file, or a view of the bytes)."""
+    return io.BytesIO(source) if in_memory(source) else open(source, "rb")
+
+
+def arrow_input(source, *, memory_map: bool = False):
+    """``source`` as pyarrow reads it: a buffer over the bytes (no copy), or the
+    file's path (memory-mapped when ``memory_map``)."""
+    import pyarrow as pa
+
+    if in_memory(source):
+        return pa.BufferReader(pa.py_buffer(source))
+    return pa.memory_map(str(source)) if memory_map else str(source)
+
+
+def head(source, n: int = 16) -> bytes:
+    """The first ``n`` bytes of ``source``."""
+    if in_memory(source):
+        return bytes(source[:n])
+    with open(source, "rb") as f:
+        return f.read(n)
 
 
 class RecordingError(EngineError):
@@ -95,20 +131,55 @@ def detect(head: bytes, media_type: str | None = None) -> str:
     return "csv"
 
 
-def unpacked(path: Path) -> Path:
-    """A gzip file unpacked beside itself (streamed: bounded memory)."""
-    out = Path(str(path) + ".unpacked")
+def unpacked(source, *, folder=None, memory_limit: int = 0):
+    """A gzip file or body unpacked (streamed: bounded memory).
+
+    A file on disk is unpacked to a file beside it. Bytes in memory are
+    unpacked into memory while the result stays within ``memory_limit``
+    bytes, else (a large or highly compressed body) into a temporary file in
+    ``folder`` (default: the system's temporary folder). Returns the
+    unpacked file's path or bytes; a path is the caller's to remove.
+    """
+    if not in_memory(source):
+        out = Path(str(source) + ".unpacked")
+        try:
+            with gzip.open(source, "rb") as src, open(out, "wb") as dst:
+                shutil.copyfileobj(src, dst, 1 << 20)
+        except (OSError, EOFError, zlib.error) as exc:
+            out.unlink(missing_ok=True)
+            raise UnreadableRecording(f"the gzip body could not be unpacked: {exc}") from None
+        return out
+    chunks, size, spill = [], 0, None
     try:
-        with gzip.open(path, "rb") as src, open(out, "wb") as dst:
-            shutil.copyfileobj(src, dst, 1 << 20)
-    except (OSError, EOFError) as exc:
-        out.unlink(missing_ok=True)
+        with gzip.GzipFile(fileobj=io.BytesIO(source), mode="rb") as src:
+            while True:
+                chunk = src.read(1 << 22)
+                if not chunk:
+                    break
+                if spill is None and size + len(chunk) > memory_limit:
+                    spill = tempfile.NamedTemporaryFile(
+                        dir=folder, prefix=".tmp-", suffix=".unpacked", delete=False)
+                    spill.writelines(chunks)
+                    chunks = []
+                if spill is not None:
+                    spill.write(chunk)
+                else:
+                    chunks.append(chunk)
+                size += len(chunk)
+    except (OSError, EOFError, zlib.error) as exc:
+        if spill is not None:
+            spill.close()
+            Path(spill.name).unlink(missing_ok=True)
         raise UnreadableRecording(f"the gzip body could not be unpacked: {exc}") from None
-    return out
+    if spill is None:
+        return b"".join(chunks)
+    spill.close()
+    return Path(spill.name)
 
 
-def read(path, media_type: str | None = None, options: dict | None = None) -> Recording:
-    """Read the recording in ``path`` (see the module notes).
+def read(source, media_type: str | None = None, options: dict | None = None) -> Recording:
+    """Read the recording in ``source``, a file's path or its bytes (see the
+    module notes).
 
     ``options``: ``delimiter``, ``decimal``, ``header_row`` (CSV);
     ``channels`` (MDF 4 and HDF5: names or dataset paths, comma separated),
@@ -116,41 +187,38 @@ def read(path, media_type: str | None = None, options: dict | None = None) -> Re
     ``time_column``. A gzip file must be unpacked first (:func:`unpacked`).
     """
     options = options or {}
-    path = Path(path)
-    with open(path, "rb") as f:
-        head = f.read(16)
-    fmt = detect(head, media_type)
+    source = source if in_memory(source) else Path(source)
+    fmt = detect(head(source), media_type)
     if fmt == "gzip":
         raise RecordingError("unpack gzip files first (recordings.unpacked)")
     if fmt == "csv":
-        rec = _read_csv(path, options)
+        rec = _read_csv(source, options)
     elif fmt in ("parquet", "arrow_file", "arrow_stream"):
-        rec = _read_arrow(path, fmt)
+        rec = _read_arrow(source, fmt)
     elif fmt == "mdf4":
         from .mdf import read_mdf
 
-        rec = read_mdf(path, options)
+        rec = read_mdf(source, options)
     elif fmt == "hdf5":
         from .hdf5 import read_hdf5
 
-        rec = read_hdf5(path, options)
+        rec = read_hdf5(source, options)
     else:
         raise RecordingError("a JSON body is read by the API, not as a recording file")
     _time_in_seconds(rec, options.get("time_column"))
     return rec
 
 
-def _read_csv(path: Path, options: dict) -> Recording:
+def _read_csv(source, options: dict) -> Recording:
     import pyarrow as pa
 
     from . import csv_dialect
 
-    with open(path, "rb") as f:
-        head = f.read(4096)
-    if head.startswith((b"\xff\xfe", b"\xfe\xff")) or b"\x00" in head:
+    start = head(source, 4096)
+    if start.startswith((b"\xff\xfe", b"\xfe\xff")) or b"\x00" in start:
         raise UnreadableRecording("the CSV must be UTF-8 (or ASCII) text; this looks like UTF-16 "
                              "or binary: save it as UTF-8 CSV")
-    with open(path, "rb") as f:
+    with binary(source) as f:
         text, complete = csv_dialect.head_text(f)
     delimiter, decimal, header_row = _csv_options(options)
     try:
@@ -162,12 +230,12 @@ def _read_csv(path: Path, options: dict) -> Recording:
         raise RecordingError(f"the CSV's column names repeat: {dialect.names}",
                              field="channels")
     try:
-        table = csv_dialect.read(path, dialect)
+        table = csv_dialect.read(arrow_input(source), dialect)
     except UnicodeDecodeError:
         raise UnreadableRecording("the CSV must be UTF-8 (or ASCII) text: save it as UTF-8 CSV"
                              ) from None
     except pa.ArrowInvalid as exc:
-        bad = _bad_cell(path, dialect) if "conversion error" in str(exc) else None
+        bad = _bad_cell(source, dialect) if "conversion error" in str(exc) else None
         if bad is not None:
             name, row, cell = bad
             raise InvalidLoadHistory(f"channel {name!r} row {row} is {cell[:40]!r}, not a number",
@@ -188,7 +256,7 @@ def _read_csv(path: Path, options: dict) -> Recording:
                      {"dialect": dialect.describe()})
 
 
-def _bad_cell(path: Path, dialect) -> tuple | None:
+def _bad_cell(source, dialect) -> tuple | None:
     """``(channel, row, cell)`` of the first cell that is not a number (the
     error path only: the file is read again as text)."""
     import pyarrow as pa
@@ -197,7 +265,7 @@ def _bad_cell(path: Path, dialect) -> tuple | None:
     from . import csv_dialect
 
     table = pacsv.read_csv(
-        str(path), read_options=pacsv.ReadOptions(
+        arrow_input(source), read_options=pacsv.ReadOptions(
             skip_rows=dialect.header_row + 1 + int(dialect.units_row),
             column_names=dialect.names),
         parse_options=pacsv.ParseOptions(delimiter=dialect.delimiter),
@@ -241,12 +309,12 @@ def _csv_options(options: dict):
     return delimiter, decimal, header_row
 
 
-def _read_arrow(path: Path, fmt: str) -> Recording:
+def _read_arrow(source, fmt: str) -> Recording:
     import pyarrow as pa
     import pyarrow.parquet as pq
 
     try:
-        source = pa.memory_map(str(path))
+        source = arrow_input(source, memory_map=True)
         if fmt == "parquet":
             table = pq.read_table(source)
         elif fmt == "arrow_stream":

@@ -209,9 +209,9 @@ def sniff(text: str, *, delimiter: str | None = None, decimal: str | None = None
     return Dialect(d, dec, header_row, units_row, names, units)
 
 
-def read(path, dialect: Dialect):
-    """The table pyarrow reads with ``dialect`` from the file at ``path``
-    (uncompressed; pyarrow opens and closes it). Every column is read
+def read(source, dialect: Dialect):
+    """The table pyarrow reads with ``dialect`` from ``source`` (a file's
+    path or a pyarrow input stream; uncompressed). Every column is read
     as float64 (empty cells are nulls); a column that is not numbers raises
     ``pyarrow.ArrowInvalid`` naming it and the row."""
     import pyarrow as pa
@@ -224,7 +224,7 @@ def read(path, dialect: Dialect):
         decimal_point=dialect.decimal,
         column_types={n: pa.float64() for n in dialect.names},
         null_values=["", "NaN", "nan", "NAN", "-nan"], strings_can_be_null=False)
-    return pacsv.read_csv(str(path), read_options=read_opts, parse_options=parse_opts,
+    return pacsv.read_csv(source, read_options=read_opts, parse_options=parse_opts,
                           convert_options=convert)
 
 

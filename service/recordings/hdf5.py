@@ -16,11 +16,9 @@ References
 
 from __future__ import annotations
 
-from pathlib import Path
-
 import numpy as np
 
-from . import TIME_NAMES, Recording, RecordingError, UnreadableRecording
+from . import TIME_NAMES, Recording, RecordingError, UnreadableRecording, binary, in_memory
 
 _RATE_ATTRS = ("sample_rate_hz", "sample_rate", "rate", "fs")
 _STEP_ATTRS = ("dt", "time_step", "increment")
@@ -60,12 +58,13 @@ def _rate(ds) -> float | None:
     return None
 
 
-def read_hdf5(path: Path, options: dict) -> Recording:
-    """The chosen datasets of an HDF5 file (module notes)."""
+def read_hdf5(source, options: dict) -> Recording:
+    """The chosen datasets of an HDF5 file (module notes): ``source`` is its
+    path or its bytes."""
     import h5py
 
     try:
-        f = h5py.File(str(path), "r")
+        f = h5py.File(binary(source) if in_memory(source) else str(source), "r")
     except OSError as exc:
         raise UnreadableRecording(f"the HDF5 file could not be read: {exc}") from None
     with f:

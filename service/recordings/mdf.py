@@ -15,11 +15,9 @@ References
 
 from __future__ import annotations
 
-from pathlib import Path
-
 import numpy as np
 
-from . import Recording, RecordingError, UnreadableRecording
+from . import Recording, RecordingError, UnreadableRecording, binary, in_memory
 
 
 def _groups(mdf) -> list[list[tuple[str, str]]]:
@@ -32,12 +30,13 @@ def _groups(mdf) -> list[list[tuple[str, str]]]:
     return out
 
 
-def read_mdf(path: Path, options: dict) -> Recording:
-    """The channels of one channel group of an MDF 4 file (module notes)."""
+def read_mdf(source, options: dict) -> Recording:
+    """The channels of one channel group of an MDF 4 file (module notes):
+    ``source`` is its path or its bytes."""
     from asammdf import MDF
 
     try:
-        mdf = MDF(str(path))
+        mdf = MDF(binary(source) if in_memory(source) else str(source))
     except Exception as exc:  # asammdf raises many kinds on a damaged file
         raise UnreadableRecording(f"the MDF file could not be read: {exc}") from None
     try:

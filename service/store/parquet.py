@@ -63,9 +63,14 @@ def read_table(data_dir: str | Path, rel: str, columns=None) -> pa.Table:
     return pq.read_table(Path(data_dir) / rel, columns=columns, memory_map=True)
 
 
-def adopt(data_dir: str | Path, folder: str, name: str, path: str | Path) -> str:
-    """Keep an already written, validated file (an upload spooled to disk) as
-    ``<folder>/<name>.parquet``: fsync it, rename it into place, fsync the folder."""
+def adopt(data_dir: str | Path, folder: str, name: str, path: str | Path | bytes) -> str:
+    """Keep an already validated file (an upload spooled to disk) as
+    ``<folder>/<name>.parquet``: fsync it, rename it into place, fsync the
+    folder. Given the file's bytes (an upload held in memory), write them
+    the same way."""
+    if isinstance(path, (bytes, bytearray, memoryview)):
+        data = path
+        return _atomic(data_dir, folder, name, lambda tmp: Path(tmp).write_bytes(data))
     rel = f"{folder}/{name}.parquet"
     target = Path(data_dir) / rel
     _fsync(Path(path))

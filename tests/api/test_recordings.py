@@ -284,3 +284,80 @@ def test_rate_from_a_time_column_is_rounded_to_what_it_can_say(client):
     assert r.status_code == 201, r.get_json()
     h = r.get_json()
     assert h["sample_rate_hz"] == 500.0 and h["duration_s"] == 240.0
+
+
+def _bodies(tmp_path) -> list[tuple[str, bytes, str, str]]:
+    """One file of each kind: (label, body, content type, query)."""
+    import h5py
+    from asammdf import MDF, Signal
+
+    t, g1, g2 = signals(seed=21)
+    csv = ("Zeit;g1;g2\nms;µm/m;N/mm²\n" + "".join(
+        f"{_fmt(a * 1000, ',')};{_fmt(b, ',')};{_fmt(c, ',')}\n"
+        for a, b, c in zip(t, g1, g2))).encode()
+    mdf = MDF(version="4.10")
+    mdf.append([Signal(g1, t, name="g1", unit="µm/m"), Signal(g2, t, name="g2", unit="MPa")])
+    mdf.save(tmp_path / "m.mf4", overwrite=True)
+    mdf.close()
+    with h5py.File(tmp_path / "h.h5", "w") as f:
+        f.attrs["sample_rate_hz"] = 500.0
+        f.create_dataset("g1", data=g1).attrs["unit"] = "µm/m"
+        f.create_dataset("g2", data=g2).attrs["unit"] = "MPa"
+    q = f"youngs_modulus={E}"
+    return [("csv", csv, "text/csv", q + "&time_column=Zeit"),
+            ("gzip csv", gzip.compress(csv), "application/gzip", q + "&time_column=Zeit"),
+            ("mdf4", (tmp_path / "m.mf4").read_bytes(), "application/octet-stream", q),
+            ("hdf5", (tmp_path / "h.h5").read_bytes(), "application/x-hdf5", q),
+            ("parquet", parquet_bytes({"time_s": t, "g1": g1 * E * 1e-6, "g2": g2}), PARQUET,
+             "unit=MPa"),
+            ("bad cell", b"a;b\n1,5;2\n3,x;4\n5;6\n", "text/csv", "unit=MPa")]
+
+
+def test_bodies_read_in_memory_or_through_a_file_give_the_same_history(tmp_path):
+    # Bodies within MEMORY_BODY_MB are read from memory, larger ones through
+    # a temporary file (and a gzip body unpacks into memory only while it
+    # fits): the same bytes must give the same stored samples, damage and
+    # problems either way, and leave no temporary file behind.
+    from tests.api.conftest import make_app
+
+    packed = len(_bodies(tmp_path)[1][1])
+    answers = {}
+    # "gzip spilled": the gzip body is held in memory, its CSV is not.
+    for label, mb in (("memory", 256), ("file", 0), ("gzip spilled", packed / 2**20)):
+        app = make_app(tmp_path / label, MEMORY_BODY_MB=mb)
+        try:
+            c = app.test_client()
+            got = []
+            for kind, body, ctype, q in _bodies(tmp_path):
+                r = c.post(f"/v1/histories?{q}", data=body, content_type=ctype)
+                j = r.get_json()
+                if r.status_code != 201:
+                    got.append((kind, r.status_code, j["type"], j.get("channel"),
+                                j.get("sample_index")))
+                    continue
+                got.append((kind, j["sample_count"], j["sample_rate_hz"],
+                            [(x["name"], x["min_mpa"], x["max_mpa"]) for x in j["channels"]],
+                            stored(c, j["id"])))
+            answers[label] = got
+            data = Path(app.config["DATA_DIR"])
+            assert not [p for p in data.rglob("*") if p.name.startswith(".tmp-")]
+            assert not app.config["contract_errors"], app.config["contract_errors"]
+        finally:
+            app.extensions["cycleledger.jobs"].shutdown(wait=True)
+    assert answers["memory"] == answers["file"] == answers["gzip spilled"]
+    assert answers["memory"][-1][1:] == (422, answers["memory"][-1][2], "a", 1)
+
+
+def test_gzip_in_memory_spills_to_a_file_beyond_the_limit(tmp_path):
+    # A small, highly compressed body must not unpack into unbounded memory.
+    from service import recordings
+
+    text = b"g\n" + b"1.5\n-2.5\n" * 200_000
+    packed = gzip.compress(text)
+    assert recordings.unpacked(packed, folder=tmp_path, memory_limit=len(text)) == text
+    out = recordings.unpacked(packed, folder=tmp_path, memory_limit=1 << 16)
+    assert isinstance(out, Path) and out.parent == tmp_path and out.read_bytes() == text
+    out.unlink()
+    with pytest.raises(recordings.UnreadableRecording):
+        recordings.unpacked(packed[:-9] + b"\0" * 9, folder=tmp_path, memory_limit=1 << 16)
+    assert list(tmp_path.iterdir()) == []

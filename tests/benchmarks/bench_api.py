@@ -59,16 +59,22 @@ def free_port() -> int:
 
 
 def start_service(data_dir: Path, port: int) -> subprocess.Popen:
+    """``cycleledger serve`` on 127.0.0.1:``port``, its log (one JSON line a
+    request) written to ``service.log`` beside ``data_dir``. Not a pipe: a
+    pipe nobody reads fills after ~250 requests and the service then waits
+    in its logger (that stalled small_assessments_per_s to 2 a second)."""
     cmd = [sys.executable, "-m", "service.cli", "serve", "--host", "127.0.0.1",
            "--port", str(port), "--data-dir", str(data_dir), "--threads", "8",
            "--async-samples", str(10**9)]
-    proc = subprocess.Popen(cmd, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE)
+    log_path = Path(data_dir).parent / f"service-{port}.log"
+    with open(log_path, "wb") as log:
+        proc = subprocess.Popen(cmd, stdout=subprocess.DEVNULL, stderr=log)
     client = Client(f"http://127.0.0.1:{port}", timeout_s=10)
     deadline = time.monotonic() + 120
     while not client.ready():
         if proc.poll() is not None or time.monotonic() > deadline:
             proc.kill()
-            raise RuntimeError("service did not start: " + proc.stderr.read().decode()[-2000:])
+            raise RuntimeError("service did not start: " + log_path.read_text()[-2000:])
         time.sleep(0.1)
     return proc
 
