@@ -57,9 +57,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ._numba import kernel
 from .errors import InvalidParameter, unknown
 from .rainflow import astm_e1049, turning_points
+# The notch root's stress and strain: one import path.
+from .strain_life_local import (Memory, cyclic_strain, follow, local_states,
+                                masing_strain_range)
 # The material, its estimates and its life curve: one import path.
 from .strain_life_material import (ESTIMATES, STRAIN_MEAN_STRESS, StrainLifeMaterial,
                                    estimate, reversals_to_failure)
@@ -73,167 +75,6 @@ __all__ = ["INPUTS", "NOTCH_RULES", "STRAIN_MEAN_STRESS", "ESTIMATES", "StrainLi
 INPUTS = ("nominal", "local_elastic", "local_strain")
 #: Elastic-to-local rules (for the stress inputs).
 NOTCH_RULES = ("neuber", "glinka")
-#: Codes inside the kernels.
-_RULE_CODES = {"neuber": 0, "glinka": 1, "strain": 2}
-
-
-# ---------------------------------------------------------------------------- the curves
-
-
-def cyclic_strain(stress, material: StrainLifeMaterial) -> np.ndarray:
-    r""":math:`\varepsilon = \sigma/E + \mathrm{sign}(\sigma)(|\sigma|/K')^{1/n'}`. [-]"""
-    s = np.asarray(stress, dtype=np.float64)
-    m = material
-    return s / m.youngs_modulus + np.sign(s) * (np.abs(s) / m.cyclic_strength_coefficient) ** (
-        1.0 / m.cyclic_hardening_exponent)
-
-
-def masing_strain_range(stress_range, material: StrainLifeMaterial) -> np.ndarray:
-    r""":math:`\Delta\varepsilon = \Delta\sigma/E + 2(\Delta\sigma/2K')^{1/n'}`. [-]"""
-    return 2.0 * cyclic_strain(0.5 * np.asarray(stress_range, dtype=np.float64), material)
-
-
-@kernel
-def _first_loading(x, rule, e_mod, k, inv_n, n):
-    """Local stress [MPa] >= 0 on the first-loading curve for a pseudo
-    stress (Neuber, Glinka) or a strain (rule 2) ``x`` >= 0.
-
-    Each equation f(s) = 0 is increasing and convex in s, and each of its
-    two terms alone (elastic, plastic) reaches the target at an s above the
-    root; Newton's method started from the smaller of those two falls
-    monotonically onto the root (no overshoot, no bracket needed) and is
-    stopped at round-off.
-    """
-    if x <= 0.0:
-        return 0.0
-    if rule == 0:
-        target = x * x / e_mod
-        s_el = x
-        s_pl = (target * k ** inv_n) ** (1.0 / (1.0 + inv_n))
-    elif rule == 1:
-        target = 0.5 * x * x / e_mod
-        s_el = x
-        s_pl = ((1.0 + n) * target * k ** inv_n) ** (1.0 / (1.0 + inv_n))
-    else:
-        target = x
-        s_el = e_mod * x
-        s_pl = k * x ** n
-    s = min(s_el, s_pl)
-    for _ in range(100):
-        plast = (s / k) ** inv_n
-        if rule == 0:
-            f = s * s / e_mod + s * plast - target
-            df = 2.0 * s / e_mod + plast * (1.0 + inv_n)
-        elif rule == 1:
-            f = 0.5 * s * s / e_mod + s * plast / (1.0 + n) - target
-            df = s / e_mod + plast * (1.0 + inv_n) / (1.0 + n)
-        else:
-            f = s / e_mod + plast - target
-            df = 1.0 / e_mod + inv_n * plast / s
-        step = f / df
-        s_new = s - step
-        if s_new <= 0.0:
-            s_new = 0.5 * s
-        # Quadratic convergence: after a step of 1e-8 s the error left is
-        # of order (1e-8)^2, below round-off.
-        if abs(step) <= 1e-8 * s:
-            return s_new
-        s = s_new
-    return s
-
-
-@kernel
-def _follow(x, rule, e_mod, k, inv_n, n, sig, eps, st_x, st_s, st_e, sp):
-    """Local stress and strain at each turning point ``x`` (pseudo stress or
-    strain), following the material's memory: the stack ``st_x, st_s,
-    st_e`` (``sp`` entries; room for ``sp + len(x)``) holds the open
-    reversal points and is left as it stands after the last point (so a
-    history can be followed block by block). Returns the new ``sp``."""
-    m = x.shape[0]
-    for j in range(m):
-        v = x[j]
-        while True:
-            if sp >= 2:
-                if abs(v - st_x[sp - 1]) >= abs(st_x[sp - 2] - st_x[sp - 1]):
-                    sp -= 2  # the loop closes: the interrupted branch goes on
-                    continue
-            elif sp == 1:
-                r = st_x[0]
-                # The first-loading curve is met again at the mirror of r.
-                if (v - r) * r < 0.0 and abs(v - r) >= 2.0 * abs(r):
-                    sp = 0
-                    continue
-            break
-        if sp == 0:
-            s = _first_loading(abs(v), rule, e_mod, k, inv_n, n)
-            sgn = 1.0 if v >= 0.0 else -1.0
-            sig[j] = sgn * s
-            eps[j] = sgn * (s / e_mod + (s / k) ** inv_n)
-        else:
-            dv = abs(v - st_x[sp - 1])
-            half = _first_loading(0.5 * dv, rule, e_mod, k, inv_n, n)
-            sgn = 1.0 if v >= st_x[sp - 1] else -1.0
-            sig[j] = st_s[sp - 1] + sgn * 2.0 * half
-            eps[j] = st_e[sp - 1] + sgn * 2.0 * (half / e_mod + (half / k) ** inv_n)
-        st_x[sp] = v
-        st_s[sp] = sig[j]
-        st_e[sp] = eps[j]
-        sp += 1
-    return sp
-
-
-@dataclass
-class Memory:
-    """The open reversal points of a followed history (oldest first): the
-    input value, local stress [MPa] and strain [-] of each; empty for an
-    unloaded start."""
-
-    x: list
-    stress: list
-    strain: list
-
-    @classmethod
-    def empty(cls) -> "Memory":
-        return cls([], [], [])
-
-    def to_dict(self) -> dict:
-        return {"x": list(map(float, self.x)), "stress": list(map(float, self.stress)),
-                "strain": list(map(float, self.strain))}
-
-    @classmethod
-    def from_dict(cls, data: dict) -> "Memory":
-        return cls(list(data["x"]), list(data["stress"]), list(data["strain"]))
-
-
-def follow(x, material: StrainLifeMaterial, rule: str, memory: Memory | None = None):
-    """``(stress, strain, memory)``: the local state at each turning point
-    ``x`` (in order) starting from ``memory`` (an unloaded start if None),
-    and the memory after the last. [MPa], [-]"""
-    x = np.ascontiguousarray(x, dtype=np.float64)
-    memory = memory or Memory.empty()
-    sp = len(memory.x)
-    st_x = np.empty(sp + x.shape[0])
-    st_s = np.empty_like(st_x)
-    st_e = np.empty_like(st_x)
-    st_x[:sp], st_s[:sp], st_e[:sp] = memory.x, memory.stress, memory.strain
-    sig = np.empty_like(x)
-    eps = np.empty_like(x)
-    m = material
-    sp = _follow(x, _RULE_CODES[rule], float(m.youngs_modulus),
-                 float(m.cyclic_strength_coefficient), 1.0 / m.cyclic_hardening_exponent,
-                 float(m.cyclic_hardening_exponent), sig, eps, st_x, st_s, st_e, sp)
-    return sig, eps, Memory(st_x[:sp].tolist(), st_s[:sp].tolist(), st_e[:sp].tolist())
-
-
-def local_states(x, material: StrainLifeMaterial, rule: str):
-    """``(stress, strain)`` at the notch root for each turning point ``x``
-    (pseudo-elastic stress [MPa] for ``neuber``/``glinka``, strain [-] for
-    ``strain``), with Masing branches and memory, from an unloaded start.
-    [MPa], [-]"""
-    sig, eps, _ = follow(x, material, rule)
-    return sig, eps
-
-
 def input_of_stored(material: StrainLifeMaterial, input_kind: str) -> float:
     """The factor from a channel as the service stores it [MPa] to the
     engine's input: 1 for stresses, 1/E for a notch-root strain (stored as
@@ -321,19 +162,29 @@ class _Counted:
 def _reserve(counted, material, input_kind, rule, mean_stress_method, damage,
              allowable_damage) -> float | None:
     """The factor on the input that brings the damage to ``allowable_damage``:
-    the root of log(D(s)/D_allow) in log s by the Illinois (bracketed
-    secant) method, each trial the notch followed again (plasticity makes
-    D(s) no power law). None if no factor in [1e-4, 1e4] does it."""
+    the root of log(D(s)/D_allow) in log s, bracketed, then by Brent's
+    method (scipy's ``brentq``: inverse quadratic interpolation, bisection
+    when it strays), each trial the notch followed again (plasticity makes
+    D(s) no power law, but a smooth one). None if no factor in [1e-4, 1e4]
+    does it."""
+    from scipy.optimize import brentq
+
+    known = {}
+
     def f(log_s):
-        d = float(np.sum(counted.evaluate(material, input_kind, rule, mean_stress_method,
-                                          math.exp(log_s))[4]))
-        if d == math.inf or np.isnan(d):
-            return math.inf
-        return math.log(d / allowable_damage) if d > 0 else -math.inf
+        if log_s not in known:
+            d = float(np.sum(counted.evaluate(material, input_kind, rule, mean_stress_method,
+                                              math.exp(log_s))[4]))
+            # An overload (inf) or no damage (0) at a trial: a large finite
+            # value of the right sign, so the interpolation stays defined.
+            known[log_s] = (_BIG if d == math.inf or np.isnan(d) else
+                            math.log(d / allowable_damage) if d > 0 else -_BIG)
+        return known[log_s]
 
     a, fa = 0.0, math.log(damage / allowable_damage)
     if fa == 0.0:
         return 1.0
+    known[a] = fa
     # A first guess as if damage went with the load to the power 5, then
     # widen until the root is bracketed.
     step = max(min(-fa / 5.0, 3.0), -3.0)
@@ -344,27 +195,11 @@ def _reserve(counted, material, input_kind, rule, mean_stress_method, damage,
         a, fa = b, fb
         b = b + step
         fb = f(b)
-    side = 0
-    for _ in range(60):
-        if not (math.isfinite(fa) and math.isfinite(fb)):
-            c = 0.5 * (a + b)   # an overload or no damage at one end: bisect
-        else:
-            c = b - fb * (b - a) / (fb - fa)
-        fc = f(c)
-        if abs(b - a) < 1e-9 or fc == 0.0:
-            return math.exp(c)
-        if (fc < 0) == (fb < 0):
-            b, fb = c, fc
-            if side == -1:
-                fa *= 0.5
-            side = -1
-        else:
-            a, fa = b, fb
-            b, fb = c, fc
-            side = 1
-        if abs(b - a) < 1e-9:
-            break
-    return math.exp(b)
+    return math.exp(brentq(f, min(a, b), max(a, b), xtol=1e-9, rtol=1e-12, maxiter=200))
+
+
+#: Stands for an infinite log damage ratio in the reserve search.
+_BIG = 1e3
 
 
 def assess_strain_life(samples, material: StrainLifeMaterial, *, input_kind: str = "nominal",

@@ -26,6 +26,7 @@ from dataclasses import asdict, dataclass
 
 import numpy as np
 
+from ._numba import kernel
 from .errors import InvalidParameter, unknown
 
 #: Mean-stress forms of the strain-life curve.
@@ -186,8 +187,8 @@ def reversals_to_failure(strain_amplitude, material: StrainLifeMaterial, *,
     N. E. Dowling, "Mean stress effects in strain-life fatigue," *Fatigue
     Fract. Eng. Mater. Struct.*, vol. 32, pp. 1004-1019, 2009; inf where
     :math:`\sigma_{max} \le 0`); ``none``: no mean term.
-    Solved for :math:`\log 2N` by Newton's method (the right side falls
-    monotonically with life).
+    Solved for :math:`\log 2N` by Halley's method (the right side falls
+    monotonically with life; :func:`_solve_lives`).
     """
     m = material
     ea = np.asarray(strain_amplitude, dtype=np.float64)
@@ -221,22 +222,49 @@ def reversals_to_failure(strain_amplitude, material: StrainLifeMaterial, *,
               else np.asarray(mean_stress, dtype=np.float64))
         a1 = (sf - sm) / E
         target, e1, a2, e2 = ea, b, ef, c
-    out = np.full(ea.shape, np.inf)
-    live = (target > 0.0) & (a1 > 0.0)
-    dead = (a1 <= 0.0) & (target > 0.0)
-    out[dead] = 0.0  # the mean (or peak) reaches sigma_f': no fatigue life left
-    if not live.any():
-        return out
-    t, a = target[live], a1[live]
-    # Start from the larger of the two terms' own solutions, then Newton in
-    # y = ln 2N; f(y) = a e^{e1 y} + a2 e^{e2 y} - t is convex and falling.
-    y = np.minimum(np.log(t / a) / e1, np.log(t / a2) / e2)
-    for _ in range(100):
-        p1, p2 = a * np.exp(e1 * y), a2 * np.exp(e2 * y)
-        f = p1 + p2 - t
-        step = f / (e1 * p1 + e2 * p2)
-        y = y - step
-        if np.all(np.abs(step) < 1e-13 * np.maximum(1.0, np.abs(y))):
-            break
-    out[live] = np.exp(y)
-    return out
+    out = np.full(ea.size, np.inf)
+    _solve_lives(np.ascontiguousarray(np.broadcast_to(target, ea.shape), np.float64).ravel(),
+                 np.ascontiguousarray(np.broadcast_to(a1, ea.shape), np.float64).ravel(),
+                 float(e1), float(a2), float(e2), out)
+    return out.reshape(ea.shape)
+
+
+@kernel
+def _solve_lives(target, a1, e1, a2, e2, out):
+    """``out[i]`` = 2N solving ``a1[i] (2N)^e1 + a2 (2N)^e2 = target[i]``
+    (both exponents negative); 0 where ``a1[i] <= 0`` (the mean or peak has
+    reached sigma_f'), left as it is where there is nothing to solve.
+
+    Halley's method in y = ln 2N from the later of the two terms' own
+    solutions (both lie left of the root): f(y) = a1 e^{e1 y} + a2 e^{e2 y} - target is convex and
+    falling, and Halley's step (cubic convergence; the exponentials serve
+    f and both its derivatives; Newton's where Halley's is not to be
+    trusted) needs about four steps where Newton's alone took eight. Stopped once a step is below 1e-9 of max(1, |y|): the error left
+    is of the order of its cube, far below round-off.
+    """
+    for i in range(target.shape[0]):
+        t, a = target[i], a1[i]
+        if not t > 0.0:
+            continue
+        if a <= 0.0:
+            out[i] = 0.0
+            continue
+        # Each term alone reaches the target left of the root (the other
+        # is still positive there): start from the later of the two.
+        y = max(math.log(t / a) / e1, math.log(t / a2) / e2)
+        for _ in range(100):
+            p1 = a * math.exp(e1 * y)
+            p2 = a2 * math.exp(e2 * y)
+            f = p1 + p2 - t
+            d1 = e1 * p1 + e2 * p2
+            d2 = e1 * e1 * p1 + e2 * e2 * p2
+            newton = f / d1
+            # Halley's step is Newton's over (1 - L); far from the root
+            # (L >= 1/2) it is not to be trusted, and Newton's step, which
+            # never overshoots on this convex falling curve, is taken.
+            lean = 0.5 * f * d2 / (d1 * d1)
+            step = newton / (1.0 - lean) if abs(lean) < 0.5 else newton
+            y -= step
+            if abs(step) < 1e-9 * max(1.0, abs(y)):
+                break
+        out[i] = math.exp(y)

@@ -226,3 +226,57 @@ def test_block_by_block_equals_the_whole_history(gate):
     tail = close_local(state, STEEL, rule="neuber", mean_stress_method="smith_watson_topper")
     assert damage + tail["damage"].sum() == pytest.approx(whole.damage, rel=1e-12)
     assert cycles + tail["count"].sum() == whole.cycles_counted
+
+
+@pytest.mark.parametrize("material", [
+    (206_000.0, 1150.0, 0.16), (206_000.0, 1910.0, 0.123), (70_000.0, 600.0, 0.30),
+    (200_000.0, 900.0, 0.05)])
+def test_the_interpolated_first_loading_equals_the_solved_one(material):
+    # The follow reads each rule's first-loading solution from a table over
+    # ln x (cubic Hermite with exact slopes); it must give the solver's
+    # stress and plastic strain, and go back to the solver outside the span.
+    from service.engine import strain_life_local as local
+
+    e_mod, k, n = material
+    for code in (0, 1, 2):
+        tab = local.inverse_table(code, e_mod, k, n)
+        u0, u1 = tab[0, 0], tab[0, 0] + (tab.shape[0] - 2) / tab[0, 1]
+        xs = np.exp(np.random.default_rng(code).uniform(u0 - 2.0, u1 + 2.0, 4000))
+        for x in xs:
+            s, plast = local._stress_of(x, code, e_mod, k, 1.0 / n, n, tab)
+            solved = local._first_loading(x, code, e_mod, k, 1.0 / n, n)
+            assert s == pytest.approx(solved, rel=1e-9)
+            assert plast == pytest.approx((solved / k) ** (1.0 / n), rel=1e-9)
+        # The forward relation holds at the interpolated stress.
+        x = math.exp(0.5 * (u0 + u1))
+        s, _ = local._stress_of(x, code, e_mod, k, 1.0 / n, n, tab)
+        assert local._forward(s, code, e_mod, k, 1.0 / n, n)[0] == pytest.approx(x, rel=1e-9)
+
+
+def test_lives_solved_from_any_start_including_a_mean_near_the_strength():
+    # Inverted by hand: a life chosen, the strain amplitude it answers
+    # computed from Coffin-Manson-Basquin with Morrow's mean (or the SWT
+    # product), and the solver asked for the life again. Means close to
+    # sigma_f' leave a tiny elastic term whose own solution lies hundreds of
+    # units of ln 2N left of the root; the earlier solver started there and
+    # stopped after 100 Newton steps far from it (life 6e-4 reversals for
+    # 17.4).
+    rng = np.random.default_rng(20)
+    for _ in range(300):
+        m = sl.StrainLifeMaterial(rng.uniform(5e4, 2.2e5), 1000.0, 0.15,
+                                  rng.uniform(300, 2500), rng.uniform(-0.15, -0.04),
+                                  rng.uniform(0.05, 2.5), rng.uniform(-0.9, -0.4))
+        E, sf, b, ef, c = (m.youngs_modulus, m.fatigue_strength_coefficient,
+                           m.fatigue_strength_exponent, m.fatigue_ductility_coefficient,
+                           m.fatigue_ductility_exponent)
+        two_n = 10 ** rng.uniform(0.5, 9.0, 50)
+        sm = sf * np.where(rng.random(50) < 0.3, 1.0 - 10 ** rng.uniform(-9, -3, 50),
+                           rng.uniform(-1.0, 0.9, 50))
+        ea = (sf - sm) / E * two_n ** b + ef * two_n ** c
+        got = sl.reversals_to_failure(ea, m, mean_stress=sm, mean_stress_method="morrow")
+        np.testing.assert_allclose(got, two_n, rtol=1e-9)
+        smax = rng.uniform(10.0, 2.0 * sf, 50)
+        ea = (sf * sf / E * two_n ** (2 * b) + sf * ef * two_n ** (b + c)) / smax
+        got = sl.reversals_to_failure(ea, m, mean_stress=smax / 2, max_stress=smax,
+                                      mean_stress_method="smith_watson_topper")
+        np.testing.assert_allclose(got, two_n, rtol=1e-9)
