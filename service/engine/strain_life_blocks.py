@@ -21,7 +21,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from .rainflow import CountingState, close_residue, count_block
-from .rainflow import _points as _confirmed_codes  # the counting's own turning points
+from .turning import confirmed_points as _confirmed_codes  # the counting's own points
 from .strain_life import Memory, StrainLifeMaterial, follow, reversals_to_failure
 
 

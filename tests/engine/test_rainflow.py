@@ -329,19 +329,19 @@ def test_two_thread_turning_point_pass_equals_one_thread(values, cut, carry):
     # the split on short integer signals (plateaus and equal values at the
     # seam are the hard cases) and compare with the one-thread pass, for a
     # whole history and for a continued block (regression pin of the split).
-    from service.engine import rainflow as rf
+    from service.engine import turning
 
     x, state = _continued(values, cut, carry)
     if len(x) < 2:
         return
-    saved = rf._SPLIT_SAMPLES
+    saved = turning._SPLIT_SAMPLES
     try:
-        rf._SPLIT_SAMPLES = 10**9
+        turning._SPLIT_SAMPLES = 10**9
         one, s1 = count_block(x, state, final=True)
-        rf._SPLIT_SAMPLES = 2
+        turning._SPLIT_SAMPLES = 2
         two, s2 = count_block(x, state, final=True)
     finally:
-        rf._SPLIT_SAMPLES = saved
+        turning._SPLIT_SAMPLES = saved
     for f in ("stress_from", "stress_to", "count", "start_index", "end_index"):
         assert np.array_equal(getattr(one, f), getattr(two, f)), f
     assert s1.to_dict() == s2.to_dict()
@@ -441,7 +441,7 @@ def test_one_thread_keeps_long_work_off_the_helper(monkeypatch):
     # Threads that already run side by side (planes of a scan, points of a
     # request) keep the engine's work on their own thread; the figures are
     # the same as with the helper (counts exactly; damage to the last bit).
-    from service.engine import _threads, rainflow as rf
+    from service.engine import _threads, rainflow as rf, turning
     from service.engine._threads import helper_allowed, in_one_thread, one_thread
     from service.engine.damage import AssessmentOptions, assess_history
     from service.engine.sn_catalogue import catalogue_curve
@@ -456,6 +456,7 @@ def test_one_thread_keeps_long_work_off_the_helper(monkeypatch):
 
     monkeypatch.setattr(_threads, "helper", no_helper)
     monkeypatch.setattr(rf, "helper", no_helper)
+    monkeypatch.setattr(turning, "helper", no_helper)
     with one_thread():
         assert not helper_allowed()
         alone = astm_e1049(x), assess_history(x, curve, opts)
