@@ -95,6 +95,9 @@ def assess_strain_life(point, gate, gate_fraction, residue, duration_s):
         screening.damage_shares(findings, loops["start_index"], loops["end_index"],
                                 loops["damage"])
         extra.append(runs.findings_caution(findings))
+    if r.reserve_limited_by == "static_strength":
+        extra.append(cautions.caution("reserve_limited_by_static_strength",
+                                      reserve=r.reserve_factor))
     damage = r.damage
     finite = math.isfinite(damage) and damage > 0
     order = np.argsort(-loops["damage"], kind="stable")[:10]
@@ -112,7 +115,7 @@ def assess_strain_life(point, gate, gate_fraction, residue, duration_s):
         "residue_damage_share": None, "life_repeats": r.life_repeats,
         "life_hours": r.life_hours, "life_cycles": r.life_cycles,
         "reserve_factor": r.reserve_factor,
-        "reserve_limited_by": "fatigue" if r.reserve_factor is not None else None,
+        "reserve_limited_by": r.reserve_limited_by,
         "equivalent_range": None, "equivalent_slope": None, "equivalent_cycles": None,
         "cycles_counted": r.cycles_counted,
         "max_range": float(ranges.max()) if ranges.size else 0.0,

@@ -103,7 +103,8 @@ class StrainLifeAssessment:
 
     ``damage`` [-] of one pass (residue as half cycles); ``life_repeats``
     [-] until ``allowable_damage``; ``life_hours`` [h]; ``reserve_factor``
-    [-] on the input history; ``loops``: per counted cycle the local
+    [-] on the input history, ``reserve_limited_by`` ``fatigue`` or
+    ``static_strength`` (a static overload sets it); ``loops``: per counted cycle the local
     ``strain_amplitude`` [-], ``stress_mean`` and ``stress_max`` [MPa],
     ``reversals_to_failure`` [-] and ``damage`` [-].
     """
@@ -113,6 +114,7 @@ class StrainLifeAssessment:
     life_hours: float | None
     life_cycles: float
     reserve_factor: float | None
+    reserve_limited_by: str | None
     cycles_counted: float
     max_strain_amplitude: float
     max_stress: float
@@ -141,8 +143,13 @@ class _Counted:
         self.table = astm_e1049(x, gate=gate, residue=residue)
         idx = turning_points(x, gate=gate)[0]
         self.points = x[idx]
-        self.pos_a = np.searchsorted(idx, self.table.start_index)
-        self.pos_b = np.searchsorted(idx, self.table.end_index)
+        # Each cycle's tips as positions among the turning points: through a
+        # map from sample index to position (a binary search per tip cost
+        # three times the counting).
+        where = np.empty(x.shape[0], np.int32 if idx.shape[0] < 2**31 else np.int64)
+        where[idx] = np.arange(idx.shape[0])
+        self.pos_a = where[self.table.start_index]
+        self.pos_b = where[self.table.end_index]
 
     def evaluate(self, material, input_kind, rule, mean_stress_method, scale=1.0):
         """Per-loop local values and damage at ``scale`` times the input."""
@@ -160,15 +167,16 @@ class _Counted:
 
 
 def _reserve(counted, material, input_kind, rule, mean_stress_method, damage,
-             allowable_damage) -> float | None:
+             allowable_damage) -> tuple[float | None, str | None]:
     """The factor on the input that brings the damage to ``allowable_damage``:
-    the root of log(D(s)/D_allow) in log s, bracketed, then by Brent's
-    method (scipy's ``brentq``: inverse quadratic interpolation, bisection
-    when it strays), each trial the notch followed again (plasticity makes
-    D(s) no power law, but a smooth one). None if no factor in [1e-4, 1e4]
-    does it."""
-    from scipy.optimize import brentq
-
+    the root of log(D(s)/D_allow) in log s, bracketed by secant steps, then
+    by inverse quadratic interpolation kept inside the bracket (bisection
+    when it strays or stalls), each trial the notch followed again (plasticity makes D(s) no
+    power law, but a smooth one). Returns ``(factor, limited_by)``:
+    ``static_strength`` when the damage jumps past the allowable sum at a
+    static overload (a trial beyond it has a loop with no life: Morrow's
+    mean or SWT's peak past the strength), the factor then being that
+    onset; ``(None, None)`` if no factor in [1e-4, 1e4] does it."""
     known = {}
 
     def f(log_s):
@@ -183,19 +191,66 @@ def _reserve(counted, material, input_kind, rule, mean_stress_method, damage,
 
     a, fa = 0.0, math.log(damage / allowable_damage)
     if fa == 0.0:
-        return 1.0
+        return 1.0, "fatigue"
     known[a] = fa
-    # A first guess as if damage went with the load to the power 5, then
-    # widen until the root is bracketed.
+    # A first guess as if damage went with the load to the power 5; until
+    # the root is bracketed, secant steps from the last two trials (5 %
+    # beyond, to bracket it), at most 3 in ln s a step.
     step = max(min(-fa / 5.0, 3.0), -3.0)
     b, fb = a + step, f(a + step)
     while (fa < 0) == (fb < 0):
         if abs(b) > 9.2:
-            return None
+            return None, None
+        slope = (fb - fa) / (b - a)
+        nxt = b - 1.05 * fb / slope if abs(fb) < _BIG and slope > 0 else b + step
+        nxt = b + max(min(nxt - b, 3.0), -3.0) if (nxt - b) * step > 0 else b + step
         a, fa = b, fb
-        b = b + step
-        fb = f(b)
-    return math.exp(brentq(f, min(a, b), max(a, b), xtol=1e-9, rtol=1e-12, maxiter=200))
+        b, fb = nxt, f(nxt)
+    # Bracketed: inverse quadratic interpolation through the three latest
+    # trials (a secant through two at first) while it falls inside the
+    # bracket and shrinks |f| well, else bisection (the scheme of Brent's
+    # method); stopped once |ln(D/D_allow)| < 1e-10, which holds the factor
+    # to ~1e-10 (the damage grows at least linearly with it).
+    lo, flo, hi, fhi = (a, fa, b, fb) if a < b else (b, fb, a, fa)
+    trials = [(x, fx) for x, fx in ((a, fa), (b, fb)) if abs(fx) < _BIG]
+    for _ in range(100):
+        c = _interpolated_root(trials[-3:])
+        if c is None or not lo < c < hi:
+            c = 0.5 * (lo + hi)
+        fc = f(c)
+        if abs(fc) < 1e-10:
+            return math.exp(c), "fatigue"
+        if (fc < 0) == (flo < 0):
+            lo, flo = c, fc
+        else:
+            hi, fhi = c, fc
+        if hi - lo < 1e-12:
+            break
+        if abs(fc) >= _BIG or (trials and abs(fc) > 0.5 * abs(trials[-1][1])):
+            trials = []          # poor progress: bisect next
+        else:
+            trials.append((c, fc))
+    # The damage jumps at a static overload: the factor is its onset (the
+    # last scale without one), not a fatigue root.
+    if fhi >= _BIG and flo < -1e-6:
+        return math.exp(lo), "static_strength"
+    return math.exp(0.5 * (lo + hi)), "fatigue"
+
+
+def _interpolated_root(points) -> float | None:
+    """The root of the inverse quadratic through three ``(x, f)`` points (the
+    secant through two), or None with fewer or with repeated f."""
+    if len(points) < 2:
+        return None
+    fs = [p[1] for p in points]
+    if len(set(fs)) < len(fs):
+        return None
+    if len(points) == 2:
+        (x0, f0), (x1, f1) = points
+        return x1 - f1 * (x1 - x0) / (f1 - f0)
+    (x0, f0), (x1, f1), (x2, f2) = points
+    return (x0 * f1 * f2 / ((f0 - f1) * (f0 - f2)) + x1 * f0 * f2 / ((f1 - f0) * (f1 - f2))
+            + x2 * f0 * f1 / ((f2 - f0) * (f2 - f1)))
 
 
 #: Stands for an infinite log damage ratio in the reserve search.
@@ -256,9 +311,9 @@ def assess_strain_life(samples, material: StrainLifeMaterial, *, input_kind: str
         damage, life = math.inf, 0.0
     elif damage >= allowable_damage:
         flags.append("allowable_reached")
-    reserve = None
+    reserve, limited = None, None
     if reserve_factor and 0.0 < damage < math.inf:
-        reserve = _reserve(counted, material, input_kind, rule, mean_stress_method, damage,
+        reserve, limited = _reserve(counted, material, input_kind, rule, mean_stress_method, damage,
                            allowable_damage)
     loops = {"start_index": table.start_index, "end_index": table.end_index,
              "count": table.count, "strain_amplitude": strain_amp, "stress_mean": mean,
@@ -267,7 +322,7 @@ def assess_strain_life(samples, material: StrainLifeMaterial, *, input_kind: str
         damage=damage, life_repeats=life,
         life_hours=None if duration_s is None else life * duration_s / 3600.0,
         life_cycles=math.inf if math.isinf(life) else life * total,
-        reserve_factor=reserve, cycles_counted=total,
+        reserve_factor=reserve, reserve_limited_by=limited, cycles_counted=total,
         max_strain_amplitude=float(strain_amp.max()) if len(table) else 0.0,
         max_stress=float(smax.max()) if len(table) else 0.0, flags=tuple(flags),
         loops=loops, material=material.as_dict(),

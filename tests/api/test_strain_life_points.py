@@ -141,3 +141,22 @@ def test_walker_needs_the_materials_exponent(client):
     r = client.post("/v1/assessments", json={
         "samples": {"fillet": x.tolist()}, "unit": "MPa", "points": {"fillet": bare}})
     assert_problem(r, 422, "invalid-parameter", field="walker_exponent")
+
+
+def test_a_reserve_set_by_static_overload_is_said_so(client):
+    # A high tensile mean with a small amplitude: scaling up, Morrow's mean
+    # reaches sigma_f' (no life left) long before fatigue uses the
+    # allowable sum, so the factor is that onset and the result says so.
+    x = 300 + 40 * np.sin(np.arange(400) / 5.0)
+    r = client.post("/v1/assessments", json={
+        "samples": {"bore": x.tolist()}, "unit": "MPa", "sample_rate_hz": 100,
+        "settings": {"method": "strain_life", "strain_life": {
+            "material": MATERIAL, "kt": 1.5, "mean_stress_method": "morrow"}}})
+    assert r.status_code == 201, r.get_json()
+    p = r.get_json()["points"]["bore"]
+    ref = sl.assess_strain_life(x, sl.StrainLifeMaterial(**MATERIAL), kt=1.5,
+                                mean_stress_method="morrow")
+    assert ref.reserve_limited_by == "static_strength"
+    assert p["reserve_factor"] == pytest.approx(ref.reserve_factor, rel=1e-9)
+    assert p["reserve_limited_by"] == "static_strength"
+    assert "reserve_limited_by_static_strength" in {c["code"] for c in p["cautions"]}

@@ -280,3 +280,37 @@ def test_lives_solved_from_any_start_including_a_mean_near_the_strength():
         got = sl.reversals_to_failure(ea, m, mean_stress=smax / 2, max_stress=smax,
                                       mean_stress_method="smith_watson_topper")
         np.testing.assert_allclose(got, two_n, rtol=1e-9)
+
+
+def test_the_reserve_search_lands_on_the_allowable_sum_over_seeded_cases():
+    # The factor must bring the damage (each trial a full local analysis) to
+    # the allowable sum, from far below or far above it, with Morrow, SWT
+    # or no mean correction, whether or not a trial meets a static overload
+    # (Morrow's mean reaching sigma_f') on the way.
+    rng = np.random.default_rng(31)
+    methods = ("morrow", "smith_watson_topper", "none")
+    limited = []
+    for case in range(24):
+        x = np.cumsum(rng.normal(0, 1, 400))
+        x = rng.uniform(20, 600) * x / np.ptp(x) + rng.uniform(-50, 150)
+        allowable = float(10 ** rng.uniform(-3, 0.5))
+        ms = methods[case % 3]
+        r = sl.assess_strain_life(x, STEEL, kt=float(rng.uniform(1.0, 3.0)),
+                                  mean_stress_method=ms, allowable_damage=allowable)
+        if r.reserve_factor is None:
+            continue
+        again = sl.assess_strain_life(x * r.reserve_factor, STEEL, kt=r.method["kt"],
+                                      mean_stress_method=ms, reserve_factor=False)
+        if r.reserve_limited_by == "static_strength":
+            # The damage jumps past the allowable sum where a loop's mean
+            # reaches sigma_f' (Morrow: no life left): the factor is that
+            # onset, said so (the service cautions it), not a fatigue root.
+            limited.append(case)
+            beyond = sl.assess_strain_life(x * r.reserve_factor * (1 + 1e-8), STEEL,
+                                           kt=r.method["kt"], mean_stress_method=ms,
+                                           reserve_factor=False)
+            assert again.damage < allowable and "static_overload" in beyond.flags
+        else:
+            assert r.reserve_limited_by == "fatigue"
+            assert again.damage == pytest.approx(allowable, rel=1e-8), (case, ms)
+    assert limited  # the seeds include a reserve set by static overload
