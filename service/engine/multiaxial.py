@@ -39,7 +39,7 @@ from .planes import (ROTATION_WARNING_DEG, _normal_stress, _plane_normal, _plane
                      principal_rotation, shear_stress_on_planes)
 from .rosette import (CALIBRATION_POISSON, ROSETTE_LAYOUTS, plane_stress_from_strains,
                       rosette_plane_stress, rosette_strains)
-from .stress_state import (_columns, _finite, _parts, _signal, as_components,
+from .stress_state import (_columns, _parts, as_components,
                            principal_in_plane, principal_stresses, von_mises)
 from .superposition import NodeDamage, assess_superposition, superpose
 

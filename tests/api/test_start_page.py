@@ -112,7 +112,7 @@ def test_assets_and_assessments_show_the_api_numbers(browser):
     driver.get(url + "/")
     wait_for(driver, 'tr[data-asset="arm"][data-point="b"]')
     for p in ("a", "b"):
-        api = c.get(f"/v1/feeds/points?asset=arm").get_json()["items"]
+        api = c.get("/v1/feeds/points?asset=arm").get_json()["items"]
         row = next(r for r in api if r["point"] == p)
         shown = cells(driver, f'tr[data-asset="arm"][data-point="{p}"]')
         assert shown["damage"] == formatting.number(row["damage"])

@@ -30,7 +30,6 @@ from pathlib import Path
 os.environ.setdefault("NUMBA_CACHE_DIR", os.path.join(tempfile.gettempdir(), "cycleledger-numba"))
 sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
 
-import numpy as np  # noqa: E402
 
 from service import demo, runs  # noqa: E402
 from service.api import create_app  # noqa: E402

@@ -12,7 +12,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from service.engine import CycleTable, astm_e1049
+from service.engine import CycleTable
 from service.engine.damage import AssessmentOptions, assess, assess_history
 from service.engine.sn_catalogue import catalogue_curve
 from service.engine.sn_estimate import fatigue_strength_fraction, shigley
