@@ -126,6 +126,15 @@ CAUTION_TEXTS = {
     "strain_life_estimate": "The strain-life constants are an {source}: lives from such "
                             "estimates scatter by a factor of several; use test data for "
                             "decisions.",
+    "strain_life_short_lives": "{count} loop(s) have lives below {limit:g} reversals (the "
+                               "shortest {least:.3g}): the notch's ductility is used up within "
+                               "a few cycles, beyond the strain-controlled test data the "
+                               "Coffin-Manson-Basquin constants come from; treat them as a "
+                               "static failure risk and check by test or plastic analysis.",
+    "strain_life_long_lives": "{share:.0%} of the damage is in loops with lives above "
+                              "{limit:.0e} reversals, longer than strain-controlled tests usually "
+                              "run: there the curve is extrapolated along its elastic line, with "
+                              "no endurance limit; check the material data's test range.",
     "haigh_ratio_mismatch": "The Haigh diagram is referred to R = {diagram:g}, but the S-N "
                             "curve is for R = {curve:g}: set haigh_stress_ratio to the curve's "
                             "ratio, or the correction shifts every cycle.",
@@ -196,6 +205,7 @@ _SEVERITY = {
     "hot_spot_gauge_position": "warning", "hot_spot_gauge_in_notch": "warning",
     "hot_spot_curve": "warning", "shear_interaction_exceeded": "warning",
     "interaction_non_proportional_en": "warning", "strain_life_estimate": "warning",
+    "strain_life_short_lives": "critical", "strain_life_long_lives": "warning",
     "haigh_ratio_mismatch": "warning", "duty_cycle_order": "warning",
     "duty_cycle_governing": "warning", "edit_short": "warning",
     "extrapolation_extremes": "warning", "non_gaussian": "warning",

@@ -67,7 +67,7 @@ from .strain_life_material import (ESTIMATES, STRAIN_MEAN_STRESS, StrainLifeMate
                                    estimate, reversals_to_failure)
 
 __all__ = ["INPUTS", "NOTCH_RULES", "STRAIN_MEAN_STRESS", "ESTIMATES", "StrainLifeMaterial",
-           "estimate", "reversals_to_failure", "cyclic_strain", "masing_strain_range",
+           "estimate", "reversals_to_failure", "validity_cautions", "cyclic_strain", "masing_strain_range",
            "Memory", "follow", "local_states", "input_of_stored", "pseudo_of_stored",
            "StrainLifeAssessment", "assess_strain_life"]
 
@@ -255,6 +255,37 @@ def _interpolated_root(points) -> float | None:
 
 #: Stands for an infinite log damage ratio in the reserve search.
 _BIG = 1e3
+
+
+#: Lives outside the span strain-controlled fatigue tests usually cover
+#: (common practice: a few cycles to about 1e7 cycles). [reversals]
+SHORT_LIFE_REVERSALS = 10.0
+LONG_LIFE_REVERSALS = 2e7
+#: Share of the damage in loops beyond LONG_LIFE_REVERSALS that is cautioned.
+LONG_LIFE_SHARE = 0.1
+
+
+def validity_cautions(loops: dict) -> list:
+    """Cautions for loops whose lives lie outside the usual span of the
+    strain-life data: below :data:`SHORT_LIFE_REVERSALS` (the notch near
+    ductile exhaustion; a static overload, life 0, is flagged on its own),
+    and a share above :data:`LONG_LIFE_SHARE` of the damage in loops beyond
+    :data:`LONG_LIFE_REVERSALS` (the elastic line extrapolated)."""
+    from .cautions import caution
+
+    rev, dmg = loops["reversals_to_failure"], loops["damage"]
+    out = []
+    short = (rev > 0.0) & (rev < SHORT_LIFE_REVERSALS)
+    if short.any():
+        out.append(caution("strain_life_short_lives", count=int(short.sum()),
+                           limit=SHORT_LIFE_REVERSALS, least=float(rev[short].min())))
+    total = float(np.sum(dmg))
+    if 0.0 < total < math.inf:
+        share = float(np.sum(dmg[np.isfinite(rev) & (rev > LONG_LIFE_REVERSALS)])) / total
+        if share > LONG_LIFE_SHARE:
+            out.append(caution("strain_life_long_lives", share=share,
+                               limit=LONG_LIFE_REVERSALS))
+    return out
 
 
 def assess_strain_life(samples, material: StrainLifeMaterial, *, input_kind: str = "nominal",

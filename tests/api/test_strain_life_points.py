@@ -160,3 +160,16 @@ def test_a_reserve_set_by_static_overload_is_said_so(client):
     assert p["reserve_factor"] == pytest.approx(ref.reserve_factor, rel=1e-9)
     assert p["reserve_limited_by"] == "static_strength"
     assert "reserve_limited_by_static_strength" in {c["code"] for c in p["cautions"]}
+
+
+def test_short_strain_lives_are_cautioned_in_the_result(client):
+    # A gauge at the notch root reading +-17 % strain: lives of a few
+    # reversals, outside the strain-controlled test span (common practice).
+    eps = np.tile([-0.17, 0.17], 10)
+    r = client.post("/v1/assessments", json={
+        "samples": {"root": (eps * MATERIAL["youngs_modulus"]).tolist()}, "unit": "MPa",
+        "sample_rate_hz": 10, "settings": {"method": "strain_life", "strain_life": {
+            "material": MATERIAL, "input": "local_strain", "mean_stress_method": "none"}}})
+    assert r.status_code == 201, r.get_json()
+    cautions = {c["code"]: c for c in r.get_json()["points"]["root"]["cautions"]}
+    assert cautions["strain_life_short_lives"]["severity"] == "critical"

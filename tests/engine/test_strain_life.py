@@ -314,3 +314,36 @@ def test_the_reserve_search_lands_on_the_allowable_sum_over_seeded_cases():
             assert r.reserve_limited_by == "fatigue"
             assert again.damage == pytest.approx(allowable, rel=1e-8), (case, ms)
     assert limited  # the seeds include a reserve set by static overload
+
+
+def test_lives_outside_the_usual_test_span_are_cautioned():
+    # Strain-controlled tests usually span a few cycles to about 1e7 cycles
+    # (common practice); loops outside are extrapolations. A gauge at the
+    # notch root (strain input): a zero-mean loop of amplitude ea has the
+    # life solving Coffin-Manson-Basquin, inverted here by hand.
+    E, sf, b, ef, c = 206_000.0, 1050.0, -0.085, 0.45, -0.6
+
+    def ea(two_n):
+        return sf / E * two_n ** b + ef * two_n ** c
+
+    def codes(two_n, repeats=20):
+        x = np.tile([-ea(two_n), ea(two_n)], repeats)
+        r = sl.assess_strain_life(x, STEEL, input_kind="local_strain",
+                                  mean_stress_method="none", reserve_factor=False)
+        return {k.code: k for k in sl.validity_cautions(r.loops)}, r
+
+    short, r = codes(5.0)
+    assert np.allclose(r.loops["reversals_to_failure"][1:-1], 5.0, rtol=1e-6)
+    assert list(short) == ["strain_life_short_lives"]
+    from service.engine.cautions import severity
+
+    assert severity("strain_life_short_lives") == "critical"
+    long, _ = codes(1e9)
+    assert list(long) == ["strain_life_long_lives"] and "100%" in long[
+        "strain_life_long_lives"].text
+    assert codes(1e4)[0] == {}
+    # A few long-life loops beside damaging ones carry no share worth a word.
+    x = np.concatenate([np.tile([-ea(1e9), ea(1e9)], 50), np.tile([-ea(1e4), ea(1e4)], 5)])
+    r = sl.assess_strain_life(x, STEEL, input_kind="local_strain", mean_stress_method="none",
+                              reserve_factor=False)
+    assert sl.validity_cautions(r.loops) == []
