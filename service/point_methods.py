@@ -95,7 +95,7 @@ def assess_strain_life(point, gate, gate_fraction, residue, duration_s):
         screening.damage_shares(findings, loops["start_index"], loops["end_index"],
                                 loops["damage"])
         extra.append(runs.findings_caution(findings))
-    extra.extend(strain_life.validity_cautions(loops))
+    extra.extend(strain_life.validity_cautions(loops, material))
     if r.reserve_limited_by == "static_strength":
         extra.append(cautions.caution("reserve_limited_by_static_strength",
                                       reserve=r.reserve_factor))

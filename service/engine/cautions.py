@@ -131,6 +131,12 @@ CAUTION_TEXTS = {
                                "a few cycles, beyond the strain-controlled test data the "
                                "Coffin-Manson-Basquin constants come from; treat them as a "
                                "static failure risk and check by test or plastic analysis.",
+    "strain_life_incompatible": "The cyclic stress-strain curve and the strain-life curve "
+                                "give stress amplitudes {gap:+.0%} apart at the largest loop's "
+                                "plastic strain amplitude ({strain:.2g}): the constants were "
+                                "not fitted together (Morrow's compatibility n' = b/c = "
+                                "{ratio:.3g}, here n' = {n:.3g}), so the local stresses and the "
+                                "lives disagree; check the material data.",
     "strain_life_long_lives": "{share:.0%} of the damage is in loops with lives above "
                               "{limit:.0e} reversals, longer than strain-controlled tests usually "
                               "run: there the curve is extrapolated along its elastic line, with "
@@ -206,6 +212,7 @@ _SEVERITY = {
     "hot_spot_curve": "warning", "shear_interaction_exceeded": "warning",
     "interaction_non_proportional_en": "warning", "strain_life_estimate": "warning",
     "strain_life_short_lives": "critical", "strain_life_long_lives": "warning",
+    "strain_life_incompatible": "warning",
     "haigh_ratio_mismatch": "warning", "duty_cycle_order": "warning",
     "duty_cycle_governing": "warning", "edit_short": "warning",
     "extrapolation_extremes": "warning", "non_gaussian": "warning",

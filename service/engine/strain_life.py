@@ -265,16 +265,32 @@ LONG_LIFE_REVERSALS = 2e7
 LONG_LIFE_SHARE = 0.1
 
 
-def validity_cautions(loops: dict) -> list:
+#: Disagreement of the two curves (``compatibility_gap``) that is cautioned.
+COMPATIBILITY_GAP = 0.2
+
+
+def validity_cautions(loops: dict, material: StrainLifeMaterial | None = None) -> list:
     """Cautions for loops whose lives lie outside the usual span of the
     strain-life data: below :data:`SHORT_LIFE_REVERSALS` (the notch near
     ductile exhaustion; a static overload, life 0, is flagged on its own),
     and a share above :data:`LONG_LIFE_SHARE` of the damage in loops beyond
-    :data:`LONG_LIFE_REVERSALS` (the elastic line extrapolated)."""
+    :data:`LONG_LIFE_REVERSALS` (the elastic line extrapolated); given the
+    material, constants whose two curves disagree by more than
+    :data:`COMPATIBILITY_GAP` at the largest loop's plastic strain."""
     from .cautions import caution
 
     rev, dmg = loops["reversals_to_failure"], loops["damage"]
     out = []
+    if material is not None and rev.shape[0]:
+        i = int(np.argmax(loops["strain_amplitude"]))
+        amplitude = loops["stress_max"][i] - loops["stress_mean"][i]
+        ep = float(loops["strain_amplitude"][i] - amplitude / material.youngs_modulus)
+        gap = material.compatibility_gap(ep)
+        if abs(gap) > COMPATIBILITY_GAP:
+            out.append(caution("strain_life_incompatible", gap=gap, strain=ep,
+                               ratio=material.fatigue_strength_exponent
+                               / material.fatigue_ductility_exponent,
+                               n=material.cyclic_hardening_exponent))
     short = (rev > 0.0) & (rev < SHORT_LIFE_REVERSALS)
     if short.any():
         out.append(caution("strain_life_short_lives", count=int(short.sum()),

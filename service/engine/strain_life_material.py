@@ -90,6 +90,27 @@ class StrainLifeMaterial:
                 / self.fatigue_strength_coefficient) ** (
             1.0 / (self.fatigue_strength_exponent - self.fatigue_ductility_exponent))
 
+    def compatibility_gap(self, plastic_strain_amplitude: float) -> float:
+        r"""How far the cyclic stress-strain curve and the strain-life curve
+        disagree at a plastic strain amplitude: eliminating life from the
+        two Coffin-Manson-Basquin terms gives a stress amplitude
+        :math:`\sigma_f'(\varepsilon_p/\varepsilon_f')^{b/c}`, which constants
+        fitted together match to Ramberg-Osgood's :math:`K'\varepsilon_p^{n'}`
+        (the compatibility :math:`n' = b/c`, :math:`K' =
+        \sigma_f'/\varepsilon_f'^{\,b/c}`: J. Morrow, "Cyclic plastic strain
+        energy and fatigue of metals," in *Internal Friction, Damping, and
+        Cyclic Plasticity*, ASTM STP 378, 1965, pp. 45-87). Returns the
+        ratio of the two stresses minus one (0 for compatible constants;
+        0 where the strain is not positive). [-]"""
+        ep = float(plastic_strain_amplitude)
+        if not ep > 0.0:
+            return 0.0
+        from_life = self.fatigue_strength_coefficient * (
+            ep / self.fatigue_ductility_coefficient) ** (
+            self.fatigue_strength_exponent / self.fatigue_ductility_exponent)
+        from_curve = self.cyclic_strength_coefficient * ep ** self.cyclic_hardening_exponent
+        return from_curve / from_life - 1.0
+
 
 # ---------------------------------------------------------------------------- estimates
 

@@ -347,3 +347,21 @@ def test_lives_outside_the_usual_test_span_are_cautioned():
     r = sl.assess_strain_life(x, STEEL, input_kind="local_strain", mean_stress_method="none",
                               reserve_factor=False)
     assert sl.validity_cautions(r.loops) == []
+
+
+def test_constants_not_fitted_together_are_cautioned():
+    # Morrow's compatibility (J. Morrow, ASTM STP 378, 1965, from memory):
+    # eliminating life from the two Coffin-Manson-Basquin terms gives
+    # sigma_a = sf (eps_p / ef)^(b/c); constants fitted together have
+    # n' = b/c and K' = sf / ef^(b/c), and the gap is then zero at any strain.
+    sf, b, ef, c = 1050.0, -0.085, 0.45, -0.6
+    k_fit = sf / ef ** (b / c)
+    fitted = sl.StrainLifeMaterial(206_000.0, k_fit, b / c, sf, b, ef, c)
+    for ep in (1e-4, 1e-3, 2e-2):
+        assert abs(fitted.compatibility_gap(ep)) < 1e-12
+    off = sl.StrainLifeMaterial(206_000.0, 1.3 * k_fit, b / c, sf, b, ef, c)
+    assert off.compatibility_gap(3e-3) == pytest.approx(0.3, rel=1e-12)
+    x = np.tile([-600.0, 600.0], 20)
+    for material, expect in ((fitted, []), (off, ["strain_life_incompatible"])):
+        r = sl.assess_strain_life(x, material, kt=2.0, reserve_factor=False)
+        assert [k.code for k in sl.validity_cautions(r.loops, material)] == expect
