@@ -81,10 +81,14 @@ def create_app(test_config: dict | None = None) -> Flask:
         from service.engine.damage import warm_up as warm_damage
 
         from service.engine.multiaxial import warm_up as warm_multiaxial
+        from service.engine.screening import warm_up as warm_screening
+        from service.engine.strain_life import warm_up as warm_strain_life
 
         warm_up()
         warm_damage()
         warm_multiaxial()
+        warm_screening()      # every assessment screens its channels first
+        warm_strain_life()
 
     # One connection per request thread, kept for the thread's life: opening
     # one per request cost three PRAGMAs, and closing the last connection of

@@ -437,5 +437,13 @@ def clean(samples, findings: list[Finding],
 
 
 def warm_up() -> None:
-    """Compile (or load from cache) the screening kernel."""
-    screen(np.array([0.0, 1.0, 1.0, 0.0, 0.0, 1.0, 9.0, 1.0] * 20))
+    """Compile (or load from cache) every screening kernel: a signal with a
+    spike, a clipped top, a held run and a repeated block, so each rule
+    runs its compiled pass."""
+    rng = np.random.default_rng(0)
+    x = np.sin(np.arange(4000) / 7.0) + 0.01 * rng.standard_normal(4000)
+    x[500] = 40.0
+    x[900:960] = 0.5
+    x = np.minimum(x, 0.95)
+    x[3000:3700] = x[1200:1900]
+    screen(x, 100.0)

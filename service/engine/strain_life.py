@@ -69,7 +69,7 @@ from .strain_life_material import (ESTIMATES, STRAIN_MEAN_STRESS, StrainLifeMate
 __all__ = ["INPUTS", "NOTCH_RULES", "STRAIN_MEAN_STRESS", "ESTIMATES", "StrainLifeMaterial",
            "estimate", "reversals_to_failure", "validity_cautions", "cyclic_strain", "masing_strain_range",
            "Memory", "follow", "local_states", "input_of_stored", "pseudo_of_stored",
-           "StrainLifeAssessment", "assess_strain_life"]
+           "StrainLifeAssessment", "assess_strain_life", "warm_up"]
 
 #: How the history relates to the notch root.
 INPUTS = ("nominal", "local_elastic", "local_strain")
@@ -376,3 +376,13 @@ def assess_strain_life(samples, material: StrainLifeMaterial, *, input_kind: str
         method={"input": input_kind, "notch_rule": None if input_kind == "local_strain"
                 else rule, "kt": kt, "mean_stress_method": mean_stress_method,
                 "allowable_damage": allowable_damage, "residue": residue, "gate": gate})
+
+
+def warm_up() -> None:
+    """Compile (or load from cache) the local analysis and life kernels:
+    one assessment with its reserve search, and a follow from a memory."""
+    m = StrainLifeMaterial(206_000.0, 1150.0, 0.16, 1050.0, -0.085, 0.45, -0.6)
+    x = np.array([0.0, 300.0, -200.0, 500.0, -450.0, 100.0, -50.0, 400.0] * 4)
+    assess_strain_life(x, m, kt=2.0, mean_stress_method="morrow")
+    _, _, memory = follow(x[:5], m, "glinka")
+    follow(x[5:], m, "glinka", memory)

@@ -13,10 +13,13 @@ import numpy as np
 from numba.core.registry import CPUDispatcher
 from service.engine import _batch_kernels, _counting_kernels, _damage_kernels
 from service.engine import _multiaxial_kernels, damage, multiaxial, rainflow
+from service.engine import _screening_kernels, screening, strain_life
+from service.engine import strain_life_local, strain_life_material
 from service.engine.damage import AssessmentOptions, assess_history, assess_many
 from service.engine.sn_catalogue import catalogue_curve
 
-MODULES = (_batch_kernels, _counting_kernels, _damage_kernels, _multiaxial_kernels)
+MODULES = (_batch_kernels, _counting_kernels, _damage_kernels, _multiaxial_kernels,
+           _screening_kernels, strain_life_local, strain_life_material)
 
 def signatures():
     return {f"{m.__name__}.{name}": len(obj.signatures)
@@ -26,6 +29,8 @@ def signatures():
 rainflow.warm_up()
 damage.warm_up()
 multiaxial.warm_up()
+screening.warm_up()
+strain_life.warm_up()
 before = signatures()
 rng = np.random.default_rng(1)
 curve = catalogue_curve("EN1993-1-9:71")
@@ -37,6 +42,16 @@ rainflow.count_block(x[300_000:], state, final=True)
 rainflow.turning_points(x)
 assess_many(rng.standard_normal((2000, 40)) * 50, curve, opts)
 multiaxial.assess_multiaxial(rng.standard_normal((300_000, 3)) * 50, curve, opts)
+spiky = np.cumsum(rng.standard_normal(200_000))
+spiky[1000] += 500.0
+spiky[5000:5400] = spiky[5000]
+spiky[90_000:91_000] = spiky[10_000:11_000]
+screening.screen(spiky, 1000.0)
+steel = strain_life.StrainLifeMaterial(200_000.0, 900.0, 0.12, 900.0, -0.09, 0.5, -0.55)
+for rule in ("neuber", "glinka"):
+    strain_life.assess_strain_life(x[:50_000] * 4, steel, kt=2.5, rule=rule,
+                                   mean_stress_method="smith_watson_topper")
+strain_life.assess_strain_life(x[:50_000] * 1e-5, steel, input_kind="local_strain")
 after = signatures()
 print(json.dumps({k: [before.get(k), v] for k, v in after.items() if before.get(k) != v}))
 '''
