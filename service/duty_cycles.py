@@ -28,6 +28,7 @@ from service.engine.extrapolation import extrapolate_matrix
 from service.engine.settings import point_from_dict, resolve, thickness_note
 from service.events import (Event, defaults_and_gate, fields, load_events, number, overlay,
                             point_settings, points_of)
+from service import extrapolation
 from service.extrapolation import METHOD as EXTRAPOLATION_METHOD
 from service.runs import json_safe
 from service.store import sqlite
@@ -249,11 +250,8 @@ def _extrapolated(out: dict, data: _PointData, settings: dict, expo: dict) -> No
         out["extrapolated"] = None
         return
     curve, opts, _ = point_from_dict(settings)
-    plain = replace(opts, reserve_factor=False, top_cycles=0)
     e = extrapolate_matrix(c, n)
-    d_ex = assess(e.table(), curve, plain, weighted=True).damage
-    d_sc = assess(e.table("scaled"), curve, plain, weighted=True).damage
-    effect = d_ex / d_sc if d_sc > 0 and math.isfinite(d_sc) else None
+    d_ex, d_sc, effect = extrapolation.damages(e, curve, opts)
     out["extrapolated"] = json_safe({
         "method": EXTRAPOLATION_METHOD, "factor": n, "damage": d_ex,
         "damage_scaled": d_sc, "extrapolation_effect": effect,

@@ -26,6 +26,17 @@ METHOD = ("kernel density of the range-mean matrix (K. Dressler et al., 'Extrapo
           "(Ann. Statist. 10, 1982)")
 
 
+def damages(e, curve, opts) -> tuple[float, float, float | None]:
+    """``(extrapolated, scaled, effect)``: Miner's sums of an extrapolated
+    matrix and of the recorded one scaled by the same factor (each bin's
+    count an occurrence, no reserve search), and their ratio (None where
+    the scaled sum is 0 or infinite)."""
+    plain = replace(opts, reserve_factor=False, top_cycles=0)
+    d_ex = assess(e.table(), curve, plain, weighted=True).damage
+    d_sc = assess(e.table("scaled"), curve, plain, weighted=True).damage
+    return d_ex, d_sc, d_ex / d_sc if d_sc > 0 and math.isfinite(d_sc) else None
+
+
 def extrapolated(data_dir, assessment: dict, point: str, factor: float, range_bins: int,
                  mean_bins: int, con=None) -> dict:
     """The extrapolated matrix of a stored point and the damages it gives."""
@@ -37,9 +48,7 @@ def extrapolated(data_dir, assessment: dict, point: str, factor: float, range_bi
     table = astm_e1049(samples, gate=res["gate_mpa"], residue=res["options"]["residue"])
     e = extrapolate_matrix(table, factor, range_bins=range_bins, mean_bins=mean_bins)
     curve, opts, _ = point_from_dict(res["settings_used"])
-    opts = replace(opts, reserve_factor=False, top_cycles=0)
-    d_ex = assess(e.table(), curve, opts, weighted=True).damage
-    d_sc = assess(e.table("scaled"), curve, opts, weighted=True).damage
+    d_ex, d_sc, effect = damages(e, curve, opts)
     return json_safe({
         "point": point, "factor": factor, "method": METHOD,
         "range_edges_mpa": e.range_edges.tolist(), "mean_edges_mpa": e.mean_edges.tolist(),
@@ -47,7 +56,7 @@ def extrapolated(data_dir, assessment: dict, point: str, factor: float, range_bi
         "observed_max_range": e.observed_max_range,
         "expected_above_observed": e.expected_above_observed,
         "damage_extrapolated": d_ex, "damage_scaled": d_sc,
-        "extrapolation_effect": d_ex / d_sc if d_sc > 0 and math.isfinite(d_sc) else None,
+        "extrapolation_effect": effect,
         "curve": curve.name,
         "units": {"stress": "MPa", "cycles": "cycles", "damage": "-"},
         "cautions": [{k: v for k, v in c.items() if k != "points"}

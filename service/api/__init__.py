@@ -15,7 +15,7 @@ from flask import Flask, g
 
 from service.store import parquet, sqlite
 
-from . import problems
+from . import problems, uploads
 
 #: Environment variable naming the data directory.
 DATA_DIR_ENV = "CYCLELEDGER_DATA_DIR"
@@ -46,7 +46,7 @@ def create_app(test_config: dict | None = None) -> Flask:
     app.config.update(
         DATA_DIR=os.environ.get(DATA_DIR_ENV, DEFAULT_DATA_DIR),
         MAX_UPLOAD_MB=512,
-        MEMORY_BODY_MB=256,
+        MEMORY_BODY_MB=uploads.MEMORY_BODY_MB,
         ASYNC_SAMPLES=2_000_000,
         JOB_WORKERS=1,
         MAX_CHANNELS=256,

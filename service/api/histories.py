@@ -99,25 +99,35 @@ def receive_body(folder, digest=None) -> bytearray | Path:
     a body too large to hold goes through a file. ``digest`` as in
     :func:`spool_body`; :func:`discard` removes a spooled file.
     """
-    from .problems import MalformedBody
-
     expected = request.content_length
     if expected is None or expected > uploads.memory_body_limit():
         return spool_body(folder, digest)
     # One buffer of the declared length, filled as the body arrives: the
     # chunks are transient, so the body's bytes land in new memory once.
     buf, got = bytearray(expected), 0
-    while got < expected:
-        chunk = request.stream.read(min(1 << 22, expected - got))
+    for chunk in _chunks(digest):
+        buf[got:got + len(chunk)] = chunk
+        got += len(chunk)
+    return buf
+
+
+def _chunks(digest=None):
+    """The request body in blocks of up to 4 MiB as they arrive, ``digest``
+    fed on the way; a body shorter than its declared length is a 400."""
+    from .problems import MalformedBody
+
+    expected = request.content_length
+    got = 0
+    while True:
+        chunk = request.stream.read(1 << 22)
         if not chunk:
             break
-        buf[got:got + len(chunk)] = chunk
         if digest is not None:
             digest.update(chunk)
         got += len(chunk)
-    if got < expected:
+        yield chunk
+    if expected is not None and got < expected:
         raise MalformedBody(f"the body ended after {got} of {expected} bytes")
-    return buf
 
 
 def discard(body) -> None:
@@ -137,24 +147,12 @@ def spool_body(folder, digest=None) -> Path:
     """
     import uuid
 
-    from .problems import MalformedBody
-
     Path(folder).mkdir(parents=True, exist_ok=True)
     tmp = Path(folder) / f"{parquet.TMP_PREFIX}{uuid.uuid4().hex}.upload"
-    expected = request.content_length
-    got = 0
     try:
         with open(tmp, "wb") as f:
-            while True:
-                chunk = request.stream.read(1 << 22)
-                if not chunk:
-                    break
+            for chunk in _chunks(digest):
                 f.write(chunk)
-                if digest is not None:
-                    digest.update(chunk)
-                got += len(chunk)
-        if expected is not None and got < expected:
-            raise MalformedBody(f"the body ended after {got} of {expected} bytes")
     except BaseException:
         tmp.unlink(missing_ok=True)
         raise

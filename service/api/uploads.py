@@ -29,6 +29,8 @@ JSON_TYPES = ("application/json",)
 BINARY_TYPES = ("application/x-hdf5", "application/x-mdf", "application/gzip",
                 "application/octet-stream")
 UPLOAD_TYPES = CSV_TYPES + PARQUET_TYPES + ARROW_TYPES + JSON_TYPES + BINARY_TYPES
+#: Default of ``MEMORY_BODY_MB``: uploads up to this size are read in memory.
+MEMORY_BODY_MB = 256
 #: Query parameters that tell the reader how to read a file.
 READER_OPTIONS = ("delimiter", "decimal", "header_row", "channels", "group", "time_column")
 
@@ -98,7 +100,8 @@ def memory_body_limit() -> int:
     than written to a temporary file (``MEMORY_BODY_MB``)."""
     from flask import current_app, has_app_context
 
-    mb = current_app.config.get("MEMORY_BODY_MB", 256) if has_app_context() else 256
+    mb = (current_app.config.get("MEMORY_BODY_MB", MEMORY_BODY_MB) if has_app_context()
+          else MEMORY_BODY_MB)
     return int(float(mb) * 2**20)
 
 

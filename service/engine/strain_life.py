@@ -171,28 +171,27 @@ def _reserve(counted, material, input_kind, rule, mean_stress_method, damage,
     """The factor on the input that brings the damage to ``allowable_damage``:
     the root of log(D(s)/D_allow) in log s, bracketed by secant steps, then
     by inverse quadratic interpolation kept inside the bracket (bisection
-    when it strays or stalls), each trial the notch followed again (plasticity makes D(s) no
-    power law, but a smooth one). Returns ``(factor, limited_by)``:
+    when it strays or stalls), each trial the notch followed again
+    (plasticity makes D(s) no power law, but a smooth one). The stress-life
+    search (``_batch_kernels.reserve_step``) steps by Newton on the exact
+    slope each pass gives; a local analysis gives none (carrying one
+    through it was measured no faster), hence this derivative-free one. Returns ``(factor, limited_by)``:
     ``static_strength`` when the damage jumps past the allowable sum at a
     static overload (a trial beyond it has a loop with no life: Morrow's
     mean or SWT's peak past the strength), the factor then being that
     onset; ``(None, None)`` if no factor in [1e-4, 1e4] does it."""
-    known = {}
-
     def f(log_s):
-        if log_s not in known:
-            d = float(np.sum(counted.evaluate(material, input_kind, rule, mean_stress_method,
-                                              math.exp(log_s))[4]))
-            # An overload (inf) or no damage (0) at a trial: a large finite
-            # value of the right sign, so the interpolation stays defined.
-            known[log_s] = (_BIG if d == math.inf or np.isnan(d) else
-                            math.log(d / allowable_damage) if d > 0 else -_BIG)
-        return known[log_s]
+        d = float(np.sum(counted.evaluate(material, input_kind, rule, mean_stress_method,
+                                          math.exp(log_s))[4]))
+        # An overload (inf) or no damage (0) at a trial: a large finite
+        # value of the right sign, so the interpolation stays defined.
+        if d == math.inf or np.isnan(d):
+            return _BIG
+        return math.log(d / allowable_damage) if d > 0 else -_BIG
 
     a, fa = 0.0, math.log(damage / allowable_damage)
     if fa == 0.0:
         return 1.0, "fatigue"
-    known[a] = fa
     # A first guess as if damage went with the load to the power 5; until
     # the root is bracketed, secant steps from the last two trials (5 %
     # beyond, to bracket it), at most 3 in ln s a step.

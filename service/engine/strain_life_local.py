@@ -129,7 +129,8 @@ def _fill_table(rule, e_mod, k, inv_n, n, u0, h, out):
 @functools.lru_cache(maxsize=64)
 def inverse_table(rule: int, e_mod: float, k: float, n: float) -> np.ndarray:
     r"""The first-loading solution of a notch rule as a table over
-    :math:`u = \ln x`: row 0 holds ``(u0, 1/h, ln K')``, rows 1.. the
+    :math:`u = \ln x`: row 0 holds ``(u0, 1/h)`` (the first node and the nodes per unit of
+    u), rows 1.. the
     nodes ``(ln s, d ln s/d ln x)`` for cubic Hermite interpolation.
 
     With :data:`_TABLE_NODES` nodes over :data:`_TABLE_SPAN` the

