@@ -63,7 +63,7 @@ from .rainflow import astm_e1049, turning_points
 from .strain_life_local import (Memory, cyclic_strain, follow, local_states,
                                 masing_strain_range)
 # The material, its estimates and its life curve: one import path.
-from .strain_life_material import (ESTIMATES, STRAIN_MEAN_STRESS, StrainLifeMaterial,
+from .strain_life_material import (_TABLED_LOOPS, ESTIMATES, STRAIN_MEAN_STRESS, StrainLifeMaterial,
                                    estimate, reversals_to_failure)
 
 __all__ = ["INPUTS", "NOTCH_RULES", "STRAIN_MEAN_STRESS", "ESTIMATES", "StrainLifeMaterial",
@@ -379,9 +379,13 @@ def assess_strain_life(samples, material: StrainLifeMaterial, *, input_kind: str
 
 def warm_up() -> None:
     """Compile (or load from cache) the local analysis and life kernels:
-    one assessment with its reserve search, and a follow from a memory."""
+    one assessment with its reserve search, a follow from a memory, and
+    lives read from a table."""
     m = StrainLifeMaterial(206_000.0, 1150.0, 0.16, 1050.0, -0.085, 0.45, -0.6)
     x = np.array([0.0, 300.0, -200.0, 500.0, -450.0, 100.0, -50.0, 400.0] * 4)
     assess_strain_life(x, m, kt=2.0, mean_stress_method="morrow")
     _, _, memory = follow(x[:5], m, "glinka")
     follow(x[5:], m, "glinka", memory)
+    # Many loops read their lives from a table: its kernels too.
+    many = np.full(_TABLED_LOOPS, 0.004)
+    reversals_to_failure(many, m, mean_stress=many * 0.0, mean_stress_method="morrow")

@@ -20,6 +20,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ._hermite import empty_table, table_value
 from ._numba import kernel
 from .strain_life_material import StrainLifeMaterial
 
@@ -129,9 +130,8 @@ def _fill_table(rule, e_mod, k, inv_n, n, u0, h, out):
 @functools.lru_cache(maxsize=64)
 def inverse_table(rule: int, e_mod: float, k: float, n: float) -> np.ndarray:
     r"""The first-loading solution of a notch rule as a table over
-    :math:`u = \ln x`: row 0 holds ``(u0, 1/h)`` (the first node and the nodes per unit of
-    u), rows 1.. the
-    nodes ``(ln s, d ln s/d ln x)`` for cubic Hermite interpolation.
+    :math:`u = \ln x`, nodes ``(ln s, d ln s/d ln x)`` (layout and cubic
+    Hermite lookup in ``_hermite.py``).
 
     With :data:`_TABLE_NODES` nodes over :data:`_TABLE_SPAN` the
     interpolated stress is within ~1e-12 of the solved one (tested against
@@ -142,11 +142,8 @@ def inverse_table(rule: int, e_mod: float, k: float, n: float) -> np.ndarray:
     inv_n = 1.0 / n
     lo = _forward(_TABLE_SPAN[0] * k, rule, e_mod, k, inv_n, n)[0]
     hi = _forward(_TABLE_SPAN[1] * k, rule, e_mod, k, inv_n, n)[0]
-    u0, u1 = math.log(lo), math.log(hi)
-    h = (u1 - u0) / (_TABLE_NODES - 1)
-    out = np.empty((_TABLE_NODES + 1, 2))
-    _fill_table(rule, e_mod, k, inv_n, n, u0, h, out[1:])
-    out[0, 0], out[0, 1] = u0, 1.0 / h
+    out, h = empty_table(math.log(lo), math.log(hi), _TABLE_NODES)
+    _fill_table(rule, e_mod, k, inv_n, n, out[0, 0], h, out[1:])
     out.flags.writeable = False
     return out
 
@@ -158,22 +155,8 @@ def _stress_of(x, rule, e_mod, k, inv_n, n, tab):
     Hermite in ln x) within its span, else solved."""
     if x <= 0.0:
         return 0.0, 0.0
-    u0 = tab[0, 0]
-    inv_h = tab[0, 1]
-    t = (math.log(x) - u0) * inv_h
-    last = tab.shape[0] - 2
-    if t >= 0.0 and t < last:
-        i = int(t)
-        f = t - i
-        h = 1.0 / inv_h
-        v0 = tab[i + 1, 0]
-        v1 = tab[i + 2, 0]
-        d0 = tab[i + 1, 1] * h
-        d1 = tab[i + 2, 1] * h
-        f2 = f * f
-        f3 = f2 * f
-        v = ((2.0 * f3 - 3.0 * f2 + 1.0) * v0 + (f3 - 2.0 * f2 + f) * d0
-             + (-2.0 * f3 + 3.0 * f2) * v1 + (f3 - f2) * d1)
+    inside, v = table_value(tab, math.log(x))
+    if inside:
         return math.exp(v), math.exp(inv_n * (v - math.log(k)))
     s = _first_loading(x, rule, e_mod, k, inv_n, n)
     return s, (s / k) ** inv_n

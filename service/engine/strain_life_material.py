@@ -21,11 +21,13 @@ References
 
 from __future__ import annotations
 
+import functools
 import math
 from dataclasses import asdict, dataclass
 
 import numpy as np
 
+from ._hermite import empty_table, table_value
 from ._numba import kernel
 from .errors import InvalidParameter, unknown
 
@@ -209,7 +211,9 @@ def reversals_to_failure(strain_amplitude, material: StrainLifeMaterial, *,
     Fract. Eng. Mater. Struct.*, vol. 32, pp. 1004-1019, 2009; inf where
     :math:`\sigma_{max} \le 0`); ``none``: no mean term.
     Solved for :math:`\log 2N` by Halley's method (the right side falls
-    monotonically with life; :func:`_solve_lives`).
+    monotonically with life; :func:`_solve_life`); for many loops read from
+    one table of the equation's reduced form (:func:`life_table`), which
+    gives the solved lives to ~1e-10.
     """
     m = material
     ea = np.asarray(strain_amplitude, dtype=np.float64)
@@ -244,25 +248,55 @@ def reversals_to_failure(strain_amplitude, material: StrainLifeMaterial, *,
         a1 = (sf - sm) / E
         target, e1, a2, e2 = ea, b, ef, c
     out = np.full(ea.size, np.inf)
-    _solve_lives(np.ascontiguousarray(np.broadcast_to(target, ea.shape), np.float64).ravel(),
-                 np.ascontiguousarray(np.broadcast_to(a1, ea.shape), np.float64).ravel(),
-                 float(e1), float(a2), float(e2), out)
+    args = (np.ascontiguousarray(np.broadcast_to(target, ea.shape), np.float64).ravel(),
+            np.ascontiguousarray(np.broadcast_to(a1, ea.shape), np.float64).ravel(),
+            float(e1), float(a2), float(e2))
+    if ea.size >= _TABLED_LOOPS:
+        _lives_tabled(*args, life_table(float(e1), float(e2)), out)
+    else:
+        _solve_lives(*args, out)
     return out.reshape(ea.shape)
+
+
+@kernel
+def _solve_life(t, a, e1, a2, e2):
+    """2N solving ``a (2N)^e1 + a2 (2N)^e2 = t`` (both exponents negative,
+    ``t``, ``a``, ``a2`` > 0).
+
+    Halley's method in y = ln 2N from the later of the two terms' own
+    solutions (both lie left of the root): f(y) = a e^{e1 y} + a2 e^{e2 y} - t
+    is convex and falling, and Halley's step (cubic convergence; the
+    exponentials serve f and both its derivatives; Newton's where Halley's
+    is not to be trusted) needs about four steps where Newton's alone took
+    eight. Stopped once a step is below 1e-9 of max(1, |y|): the error left
+    is of the order of its cube, far below round-off.
+    """
+    # Each term alone reaches the target left of the root (the other
+    # is still positive there): start from the later of the two.
+    y = max(math.log(t / a) / e1, math.log(t / a2) / e2)
+    for _ in range(100):
+        p1 = a * math.exp(e1 * y)
+        p2 = a2 * math.exp(e2 * y)
+        f = p1 + p2 - t
+        d1 = e1 * p1 + e2 * p2
+        d2 = e1 * e1 * p1 + e2 * e2 * p2
+        newton = f / d1
+        # Halley's step is Newton's over (1 - L); far from the root
+        # (L >= 1/2) it is not to be trusted, and Newton's step, which
+        # never overshoots on this convex falling curve, is taken.
+        lean = 0.5 * f * d2 / (d1 * d1)
+        step = newton / (1.0 - lean) if abs(lean) < 0.5 else newton
+        y -= step
+        if abs(step) < 1e-9 * max(1.0, abs(y)):
+            break
+    return math.exp(y)
 
 
 @kernel
 def _solve_lives(target, a1, e1, a2, e2, out):
     """``out[i]`` = 2N solving ``a1[i] (2N)^e1 + a2 (2N)^e2 = target[i]``
-    (both exponents negative); 0 where ``a1[i] <= 0`` (the mean or peak has
-    reached sigma_f'), left as it is where there is nothing to solve.
-
-    Halley's method in y = ln 2N from the later of the two terms' own
-    solutions (both lie left of the root): f(y) = a1 e^{e1 y} + a2 e^{e2 y} - target is convex and
-    falling, and Halley's step (cubic convergence; the exponentials serve
-    f and both its derivatives; Newton's where Halley's is not to be
-    trusted) needs about four steps where Newton's alone took eight. Stopped once a step is below 1e-9 of max(1, |y|): the error left
-    is of the order of its cube, far below round-off.
-    """
+    (:func:`_solve_life`); 0 where ``a1[i] <= 0`` (the mean or peak has
+    reached sigma_f'), left as it is where there is nothing to solve."""
     for i in range(target.shape[0]):
         t, a = target[i], a1[i]
         if not t > 0.0:
@@ -270,22 +304,68 @@ def _solve_lives(target, a1, e1, a2, e2, out):
         if a <= 0.0:
             out[i] = 0.0
             continue
-        # Each term alone reaches the target left of the root (the other
-        # is still positive there): start from the later of the two.
-        y = max(math.log(t / a) / e1, math.log(t / a2) / e2)
-        for _ in range(100):
-            p1 = a * math.exp(e1 * y)
-            p2 = a2 * math.exp(e2 * y)
-            f = p1 + p2 - t
-            d1 = e1 * p1 + e2 * p2
-            d2 = e1 * e1 * p1 + e2 * e2 * p2
-            newton = f / d1
-            # Halley's step is Newton's over (1 - L); far from the root
-            # (L >= 1/2) it is not to be trusted, and Newton's step, which
-            # never overshoots on this convex falling curve, is taken.
-            lean = 0.5 * f * d2 / (d1 * d1)
-            step = newton / (1.0 - lean) if abs(lean) < 0.5 else newton
-            y -= step
-            if abs(step) < 1e-9 * max(1.0, abs(y)):
-                break
-        out[i] = math.exp(y)
+        out[i] = _solve_life(t, a, e1, a2, e2)
+
+
+#: Loops from which lives are read from :func:`life_table` (building one
+#: solves its 32768 nodes once; a reserve search then reads it at each
+#: trial), its nodes, and its span in v = ln z either side of 0 (lives from
+#: 4e-18 to 2e17 times the scale lambda, itself near the transition life;
+#: beyond it lives are solved).
+_TABLED_LOOPS = 8192
+_LIFE_NODES = 32768
+_LIFE_SPAN = 40.0
+
+
+@functools.lru_cache(maxsize=32)
+def life_table(e1: float, e2: float) -> np.ndarray:
+    r"""The solution of :math:`z^{e_1} + z^{e_2} = e^u` as a table of
+    :math:`v = \ln z` over :math:`u` (``_hermite.py``), for exponents
+    :math:`e_1 > e_2` (both negative).
+
+    Every loop's equation :math:`a (2N)^{e_1} + a_2 (2N)^{e_2} = t` comes to
+    this one by :math:`2N = \lambda z` with :math:`\lambda =
+    (a_2/a)^{1/(e_1 - e_2)}`, which makes both coefficients
+    :math:`C = a\lambda^{e_1}`: :math:`u = \ln(t/C)`. So one table per
+    material and mean-stress form serves every loop (Morrow's mean changes
+    only :math:`a`). Cached: a reserve search asks for the same lives again
+    at each trial.
+    """
+    span = _LIFE_SPAN
+    u_lo = math.log(math.exp(e1 * span) + math.exp(e2 * span))
+    u_hi = math.log(math.exp(-e1 * span) + math.exp(-e2 * span))
+    out, h = empty_table(u_lo, u_hi, _LIFE_NODES)
+    _fill_life_table(e1, e2, u_lo, h, out[1:])
+    out.flags.writeable = False
+    return out
+
+
+@kernel
+def _fill_life_table(e1, e2, u0, h, out):
+    """Nodes ``u0 + i h``: ``out[i] = (v, dv/du)`` with v = ln z solving
+    ``z^e1 + z^e2 = e^u``."""
+    for i in range(out.shape[0]):
+        v = math.log(_solve_life(math.exp(u0 + i * h), 1.0, e1, 1.0, e2))
+        p1 = math.exp(e1 * v)
+        p2 = math.exp(e2 * v)
+        out[i, 0] = v
+        out[i, 1] = (p1 + p2) / (e1 * p1 + e2 * p2)
+
+
+@kernel
+def _lives_tabled(target, a1, e1, a2, e2, tab, out):
+    """:func:`_solve_lives` through :func:`life_table` (solved outside its
+    span): ln 2N = ln lambda + v(ln t - ln C)."""
+    d = e1 - e2
+    la2 = math.log(a2)
+    for i in range(target.shape[0]):
+        t, a = target[i], a1[i]
+        if not t > 0.0:
+            continue
+        if a <= 0.0:
+            out[i] = 0.0
+            continue
+        la = math.log(a)
+        ll = (la2 - la) / d
+        inside, v = table_value(tab, math.log(t) - la - e1 * ll)
+        out[i] = math.exp(ll + v) if inside else _solve_life(t, a, e1, a2, e2)

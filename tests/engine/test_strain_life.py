@@ -282,6 +282,45 @@ def test_lives_solved_from_any_start_including_a_mean_near_the_strength():
         np.testing.assert_allclose(got, two_n, rtol=1e-9)
 
 
+def test_lives_read_from_the_reduced_table_equal_the_chosen_ones():
+    # Many loops read their lives from one table of z^e1 + z^e2 = e^u (every
+    # loop's equation scaled to it). Inverted by hand as above, with enough
+    # loops to take the table, lives from 0.01 to 1e14 reversals (some
+    # outside the table's span, solved there) and Morrow means near sigma_f'.
+    from service.engine import strain_life_material as slm
+
+    rng = np.random.default_rng(21)
+    n = slm._TABLED_LOOPS + 500
+    for _ in range(12):
+        m = sl.StrainLifeMaterial(rng.uniform(5e4, 2.2e5), 1000.0, 0.15,
+                                  rng.uniform(300, 2500), rng.uniform(-0.15, -0.04),
+                                  rng.uniform(0.05, 2.5), rng.uniform(-1.3, -0.4))
+        E, sf, b, ef, c = (m.youngs_modulus, m.fatigue_strength_coefficient,
+                           m.fatigue_strength_exponent, m.fatigue_ductility_coefficient,
+                           m.fatigue_ductility_exponent)
+        two_n = 10 ** rng.uniform(-2.0, 14.0, n)
+        sm = sf * np.where(rng.random(n) < 0.2, 1.0 - 10 ** rng.uniform(-9, -3, n),
+                           rng.uniform(-1.0, 0.9, n))
+        ea = (sf - sm) / E * two_n ** b + ef * two_n ** c
+        got = sl.reversals_to_failure(ea, m, mean_stress=sm, mean_stress_method="morrow")
+        np.testing.assert_allclose(got, two_n, rtol=1e-9)
+        smax = rng.uniform(10.0, 2.0 * sf, n)
+        ea = (sf * sf / E * two_n ** (2 * b) + sf * ef * two_n ** (b + c)) / smax
+        got = sl.reversals_to_failure(ea, m, mean_stress=smax / 2, max_stress=smax,
+                                      mean_stress_method="smith_watson_topper")
+        np.testing.assert_allclose(got, two_n, rtol=1e-9)
+        # No life where the mean has reached the strength, no damage where
+        # the SWT peak is not tensile: as the solver says.
+        sm[:3] = sf * np.array([1.0, 1.5, 3.0])
+        got = sl.reversals_to_failure(np.full(n, 0.004), m, mean_stress=sm,
+                                      mean_stress_method="morrow")
+        assert np.all(got[:3] == 0.0) and np.all(got[3:] > 0.0)
+        smax[:3] = [0.0, -5.0, -300.0]
+        got = sl.reversals_to_failure(np.full(n, 0.004), m, mean_stress=smax / 2,
+                                      max_stress=smax, mean_stress_method="smith_watson_topper")
+        assert np.all(np.isinf(got[:3])) and np.all(np.isfinite(got[3:]))
+
+
 def test_the_reserve_search_lands_on_the_allowable_sum_over_seeded_cases():
     # The factor must bring the damage (each trial a full local analysis) to
     # the allowable sum, from far below or far above it, with Morrow, SWT

@@ -14,12 +14,13 @@ from numba.core.registry import CPUDispatcher
 from service.engine import _batch_kernels, _counting_kernels, _damage_kernels
 from service.engine import _multiaxial_kernels, damage, multiaxial, rainflow
 from service.engine import _mean_stress_kernels, _screening_kernels, screening, strain_life
-from service.engine import strain_life_local, strain_life_material
+from service.engine import _hermite, strain_life_local, strain_life_material
 from service.engine.damage import AssessmentOptions, assess_history, assess_many
 from service.engine.sn_catalogue import catalogue_curve
 
 MODULES = (_batch_kernels, _counting_kernels, _damage_kernels, _multiaxial_kernels,
-           _mean_stress_kernels, _screening_kernels, strain_life_local, strain_life_material)
+           _mean_stress_kernels, _screening_kernels, strain_life_local, strain_life_material,
+           _hermite)
 
 def signatures():
     return {f"{m.__name__}.{name}": len(obj.signatures)
