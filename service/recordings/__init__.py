@@ -58,8 +58,63 @@ def in_memory(source) -> bool:
 
 
 def binary(source):
-    """``source`` opened as a binary file object (a file, or a view of the bytes)."""
-    return io.BytesIO(source) if in_memory(source) else open(source, "rb")
+    """``source`` opened as a binary file object: the file, or a reader over
+    the bytes in memory that does not copy them (:class:`BytesReader`)."""
+    return BytesReader(source) if in_memory(source) else open(source, "rb")
+
+
+class BytesReader(io.BufferedIOBase):
+    """A read-only, seekable binary file over bytes held in memory.
+
+    ``io.BytesIO`` copies a ``bytearray`` (an upload's body) whole before the
+    first read: 150 MB of new memory for a CSV whose head alone is read,
+    measured at 0.27 s of a 0.44 s parse. This reads through a view of the
+    bytes, copying only what each read returns.
+    """
+
+    def __init__(self, data):
+        super().__init__()
+        self._view = memoryview(data).cast("B")
+        self._pos = 0
+
+    def readable(self) -> bool:
+        return True
+
+    def seekable(self) -> bool:
+        return True
+
+    def tell(self) -> int:
+        return self._pos
+
+    def seek(self, offset: int, whence: int = io.SEEK_SET) -> int:
+        base = {io.SEEK_SET: 0, io.SEEK_CUR: self._pos, io.SEEK_END: len(self._view)}[whence]
+        if base + offset < 0:
+            raise ValueError("negative seek position")
+        self._pos = base + offset
+        return self._pos
+
+    def read(self, size: int | None = -1) -> bytes:
+        end = len(self._view) if size is None or size < 0 else min(self._pos + size,
+                                                                     len(self._view))
+        out = self._view[self._pos:end].tobytes() if end > self._pos else b""
+        self._pos = max(self._pos, end)
+        return out
+
+    read1 = read
+
+    def readinto(self, buffer) -> int:
+        target = memoryview(buffer).cast("B")
+        n = max(0, min(len(target), len(self._view) - self._pos))
+        target[:n] = self._view[self._pos:self._pos + n]
+        self._pos += n
+        return n
+
+    readinto1 = readinto
+
+    def close(self) -> None:
+        if not self.closed:
+            self._view.release()
+        super().close()
 
 
 def arrow_input(source, *, memory_map: bool = False):
@@ -214,12 +269,11 @@ def _read_csv(source, options: dict) -> Recording:
 
     from . import csv_dialect
 
-    start = head(source, 4096)
+    start = head(source, csv_dialect.SNIFF_BYTES + 1)
     if start.startswith((b"\xff\xfe", b"\xfe\xff")) or b"\x00" in start:
         raise UnreadableRecording("the CSV must be UTF-8 (or ASCII) text; this looks like UTF-16 "
                              "or binary: save it as UTF-8 CSV")
-    with binary(source) as f:
-        text, complete = csv_dialect.head_text(f)
+    text, complete = csv_dialect.head_text(io.BytesIO(start))
     delimiter, decimal, header_row = _csv_options(options)
     try:
         dialect = csv_dialect.sniff(text, delimiter=delimiter, decimal=decimal,
