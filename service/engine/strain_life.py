@@ -60,11 +60,12 @@ import numpy as np
 from .errors import InvalidParameter, unknown
 from .rainflow import astm_e1049, turning_points
 # The notch root's stress and strain: one import path.
-from .strain_life_local import (Memory, cyclic_strain, follow, local_states,
+from .strain_life_local import (Memory, cyclic_strain, follow, local_states, loop_states,
                                 masing_strain_range)
 # The material, its estimates and its life curve: one import path.
-from .strain_life_material import (_TABLED_LOOPS, ESTIMATES, STRAIN_MEAN_STRESS, StrainLifeMaterial,
-                                   estimate, reversals_to_failure)
+from .strain_life_material import (_TABLED_LOOPS, ESTIMATES, STRAIN_MEAN_STRESS,
+                                   StrainLifeMaterial, estimate, loop_lives,
+                                   reversals_to_failure)
 
 __all__ = ["INPUTS", "NOTCH_RULES", "STRAIN_MEAN_STRESS", "ESTIMATES", "StrainLifeMaterial",
            "estimate", "reversals_to_failure", "validity_cautions", "cyclic_strain", "masing_strain_range",
@@ -155,14 +156,14 @@ class _Counted:
         """Per-loop local values and damage at ``scale`` times the input."""
         code = "strain" if input_kind == "local_strain" else rule
         sig, eps = local_states(self.points * scale, material, code)
-        sa, sb = sig[self.pos_a], sig[self.pos_b]
-        strain_amp = 0.5 * np.abs(eps[self.pos_a] - eps[self.pos_b])
-        mean = 0.5 * (sa + sb)
-        smax = np.maximum(sa, sb)
-        nf = 0.5 * reversals_to_failure(strain_amp, material, mean_stress=mean,
-                                        max_stress=smax, mean_stress_method=mean_stress_method)
+        n = self.pos_a.shape[0]
+        strain_amp, mean, smax, nf = np.empty(n), np.empty(n), np.empty(n), np.empty(n)
+        loop_states(sig, eps, self.pos_a, self.pos_b, strain_amp, mean, smax)
+        loop_lives(strain_amp, mean, smax, material, mean_stress_method, nf)
+        nf *= 0.5
+        # No life (a static overload): infinite damage; infinite life: none.
         with np.errstate(divide="ignore"):
-            dmg = np.where(np.isinf(nf), 0.0, self.table.count / nf)
+            dmg = self.table.count / nf
         return strain_amp, mean, smax, nf, dmg
 
 

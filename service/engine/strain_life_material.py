@@ -216,46 +216,99 @@ def reversals_to_failure(strain_amplitude, material: StrainLifeMaterial, *,
     gives the solved lives to ~1e-10.
     """
     m = material
-    ea = np.asarray(strain_amplitude, dtype=np.float64)
-    E, sf, b, ef, c = (m.youngs_modulus, m.fatigue_strength_coefficient,
-                       m.fatigue_strength_exponent, m.fatigue_ductility_coefficient,
-                       m.fatigue_ductility_exponent)
     if mean_stress_method not in STRAIN_MEAN_STRESS:
         raise unknown("mean_stress_method", mean_stress_method, STRAIN_MEAN_STRESS)
-    if mean_stress_method == "walker":
-        gamma = m.walker_exponent
-        if gamma is None:
-            raise InvalidParameter("the walker form needs the material's walker_exponent "
-                                   "(gamma, from tests at several R ratios)",
-                                   field="walker_exponent")
-        smax = np.asarray(max_stress, dtype=np.float64)
-        sa = smax - np.asarray(mean_stress, dtype=np.float64)
-        base = reversals_to_failure(ea, m, mean_stress_method="none")
-        out = np.full(ea.shape, np.inf)
-        live = (smax > 0.0) & (sa > 0.0)
-        # The fully reversed life shifted: 2N = 2N_0 / ((1 - R)/2)^((1 - gamma)/b).
-        shift = np.power(sa[live] / smax[live], (1.0 - gamma) / b)
-        out[live] = base[live] / shift
-        return out
-    if mean_stress_method == "smith_watson_topper":
-        smax = np.asarray(max_stress, dtype=np.float64)
-        target = np.where(smax > 0.0, smax * ea, 0.0)
-        a1, e1, a2, e2 = sf * sf / E, 2 * b, sf * ef, b + c
-        a1 = np.full_like(ea, a1)
-    else:
-        sm = (np.zeros_like(ea) if mean_stress_method == "none"
-              else np.asarray(mean_stress, dtype=np.float64))
-        a1 = (sf - sm) / E
-        target, e1, a2, e2 = ea, b, ef, c
-    out = np.full(ea.size, np.inf)
-    args = (np.ascontiguousarray(np.broadcast_to(target, ea.shape), np.float64).ravel(),
-            np.ascontiguousarray(np.broadcast_to(a1, ea.shape), np.float64).ravel(),
-            float(e1), float(a2), float(e2))
-    if ea.size >= _TABLED_LOOPS:
-        _lives_tabled(*args, life_table(float(e1), float(e2)), out)
-    else:
-        _solve_lives(*args, out)
+    ea = np.asarray(strain_amplitude, dtype=np.float64)
+
+    def loops(v):
+        # Contiguous and writeable (one compiled signature): broadcast views
+        # are read-only, so they are copied.
+        return np.require(np.broadcast_to(0.0 if v is None else v, ea.shape), np.float64,
+                          ["C", "W"]).ravel()
+
+    out = np.empty(ea.size)
+    loop_lives(loops(ea), loops(mean_stress), loops(max_stress), m, mean_stress_method, out)
     return out.reshape(ea.shape)
+
+
+#: Codes of the mean-stress forms inside the kernels.
+FORM_CODES = {"none": 0, "morrow": 1, "smith_watson_topper": 2, "walker": 3}
+
+
+def loop_lives(strain_amplitude, mean_stress, max_stress, material: StrainLifeMaterial,
+               mean_stress_method: str, out) -> np.ndarray:
+    """:func:`reversals_to_failure` into ``out`` for contiguous float64
+    arrays of the loops (the local analysis's own path: no copies)."""
+    m = material
+    form = FORM_CODES[mean_stress_method]
+    gamma = m.walker_exponent
+    if form == 3 and gamma is None:
+        raise InvalidParameter("the walker form needs the material's walker_exponent "
+                               "(gamma, from tests at several R ratios)",
+                               field="walker_exponent")
+    b, c = m.fatigue_strength_exponent, m.fatigue_ductility_exponent
+    e1, e2 = (2.0 * b, b + c) if form == 2 else (b, c)
+    tabled = out.shape[0] >= _TABLED_LOOPS
+    _loop_lives(strain_amplitude, mean_stress, max_stress, form, float(m.youngs_modulus),
+                float(m.fatigue_strength_coefficient), float(b),
+                float(m.fatigue_ductility_coefficient), float(c),
+                1.0 if gamma is None else float(gamma),
+                life_table(float(e1), float(e2)) if tabled else _NO_TABLE, tabled, out)
+    return out
+
+
+@kernel
+def _loop_lives(ea, sm, smax, form, e_mod, sf, b, ef, c, gamma, tab, tabled, out):
+    """``out[i]`` = 2N of loop i under ``form`` (:data:`FORM_CODES`): the
+    root of ``a (2N)^e1 + a2 (2N)^e2 = t`` (Morrow: t = ea, a = (sf - sm)/E;
+    SWT: t = smax ea, a = sf^2/E, exponents 2b and b + c; none and Walker:
+    t = ea, a = sf/E, Walker's life then shifted); inf (no damage) where
+    there is nothing to solve (no strain, an SWT or Walker peak not
+    tensile), 0 where Morrow's mean has reached sigma_f'. From
+    :func:`life_table` when ``tabled`` (solved outside its span), else by
+    :func:`_solve_life`."""
+    if form == 2:
+        e1, e2, a2, a_fixed = 2.0 * b, b + c, sf * ef, sf * sf / e_mod
+    else:
+        e1, e2, a2, a_fixed = b, c, ef, sf / e_mod
+    d = e1 - e2
+    la2 = math.log(a2)
+    # Where a is the same for every loop (all but Morrow), so are lambda and C.
+    la_fixed = math.log(a_fixed)
+    ll_fixed = (la2 - la_fixed) / d
+    walker = (1.0 - gamma) / b
+    for i in range(ea.shape[0]):
+        shift = 1.0
+        a, la, ll = a_fixed, la_fixed, ll_fixed
+        if form == 2:
+            t = smax[i] * ea[i] if smax[i] > 0.0 else 0.0
+        else:
+            t = ea[i]
+            if form == 1:
+                a = (sf - sm[i]) / e_mod
+            elif form == 3:
+                sa = smax[i] - sm[i]
+                if not (smax[i] > 0.0 and sa > 0.0):
+                    t = 0.0
+                else:
+                    # The fully reversed life shifted: 2N = 2N_0 / ((1 - R)/2)^((1 - gamma)/b).
+                    shift = (sa / smax[i]) ** walker
+        if not t > 0.0:
+            out[i] = math.inf
+            continue
+        if a <= 0.0:
+            out[i] = 0.0
+            continue
+        if tabled:
+            # 2N = lambda z, lambda = (a2/a)^(1/d), z from the reduced equation.
+            if form == 1:
+                la = math.log(a)
+                ll = (la2 - la) / d
+            inside, v = table_value(tab, math.log(t) - la - e1 * ll)
+            life = math.exp(ll + v) if inside else _solve_life(t, a, e1, a2, e2)
+        else:
+            life = _solve_life(t, a, e1, a2, e2)
+        out[i] = life / shift
 
 
 @kernel
@@ -292,21 +345,6 @@ def _solve_life(t, a, e1, a2, e2):
     return math.exp(y)
 
 
-@kernel
-def _solve_lives(target, a1, e1, a2, e2, out):
-    """``out[i]`` = 2N solving ``a1[i] (2N)^e1 + a2 (2N)^e2 = target[i]``
-    (:func:`_solve_life`); 0 where ``a1[i] <= 0`` (the mean or peak has
-    reached sigma_f'), left as it is where there is nothing to solve."""
-    for i in range(target.shape[0]):
-        t, a = target[i], a1[i]
-        if not t > 0.0:
-            continue
-        if a <= 0.0:
-            out[i] = 0.0
-            continue
-        out[i] = _solve_life(t, a, e1, a2, e2)
-
-
 #: Loops from which lives are read from :func:`life_table` (building one
 #: solves its 32768 nodes once; a reserve search then reads it at each
 #: trial), its nodes, and its span in v = ln z either side of 0 (lives from
@@ -315,6 +353,8 @@ def _solve_lives(target, a1, e1, a2, e2, out):
 _TABLED_LOOPS = 8192
 _LIFE_NODES = 32768
 _LIFE_SPAN = 40.0
+_NO_TABLE = np.zeros((3, 2))
+_NO_TABLE.flags.writeable = False      # typed as the cached tables are
 
 
 @functools.lru_cache(maxsize=32)
@@ -350,22 +390,3 @@ def _fill_life_table(e1, e2, u0, h, out):
         p2 = math.exp(e2 * v)
         out[i, 0] = v
         out[i, 1] = (p1 + p2) / (e1 * p1 + e2 * p2)
-
-
-@kernel
-def _lives_tabled(target, a1, e1, a2, e2, tab, out):
-    """:func:`_solve_lives` through :func:`life_table` (solved outside its
-    span): ln 2N = ln lambda + v(ln t - ln C)."""
-    d = e1 - e2
-    la2 = math.log(a2)
-    for i in range(target.shape[0]):
-        t, a = target[i], a1[i]
-        if not t > 0.0:
-            continue
-        if a <= 0.0:
-            out[i] = 0.0
-            continue
-        la = math.log(a)
-        ll = (la2 - la) / d
-        inside, v = table_value(tab, math.log(t) - la - e1 * ll)
-        out[i] = math.exp(ll + v) if inside else _solve_life(t, a, e1, a2, e2)
