@@ -236,6 +236,7 @@ def test_the_interpolated_first_loading_equals_the_solved_one(material):
     # ln x (cubic Hermite with exact slopes); it must give the solver's
     # stress and plastic strain, and go back to the solver outside the span.
     from service.engine import strain_life_local as local
+    from service.engine._hermite import table_values
 
     e_mod, k, n = material
     for code in (0, 1, 2):
@@ -251,6 +252,20 @@ def test_the_interpolated_first_loading_equals_the_solved_one(material):
         x = math.exp(0.5 * (u0 + u1))
         s, _ = local._stress_of(x, code, e_mod, k, 1.0 / n, n, tab)
         assert local._forward(s, code, e_mod, k, 1.0 / n, n)[0] == pytest.approx(x, rel=1e-9)
+        # The follow's table over x itself (read without a log) at its
+        # widest: the same stress and strain; outside it the caller solves.
+        lin = local.state_table_for(code, e_mod, k, n, math.inf)
+        x0 = lin[0, 0]
+        top = x0 + (lin.shape[0] - 2) / lin[0, 1]
+        assert top >= 16.0 * local.knee_input(code, e_mod, k, n) and x0 == top / 256
+        for x in np.random.default_rng(code + 10).uniform(x0, top, 4000):
+            inside, s, plast = table_values(lin, x)
+            solved = local._first_loading(x, code, e_mod, k, 1.0 / n, n)
+            assert inside
+            assert s == pytest.approx(solved, rel=1e-9)
+            assert s / e_mod + plast == pytest.approx(
+                solved / e_mod + (solved / k) ** (1.0 / n), rel=1e-9)
+        assert not table_values(lin, top * 1.001)[0] and not table_values(lin, 0.99 * x0)[0]
 
 
 def test_lives_solved_from_any_start_including_a_mean_near_the_strength():
