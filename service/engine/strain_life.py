@@ -60,8 +60,8 @@ import numpy as np
 from .errors import InvalidParameter, unknown
 from .rainflow import astm_e1049, turning_points
 # The notch root's stress and strain: one import path.
-from .strain_life_local import (Memory, cyclic_strain, follow, local_states, loop_states,
-                                masing_strain_range)
+from .strain_life_local import (Memory, Notch, cyclic_strain, follow, local_states,
+                                loop_states, masing_strain_range, origins)
 # The material, its estimates and its life curve: one import path.
 from .strain_life_material import (_TABLED_LOOPS, ESTIMATES, STRAIN_MEAN_STRESS,
                                    StrainLifeMaterial, estimate, loop_lives,
@@ -133,8 +133,10 @@ class StrainLifeAssessment:
 
 class _Counted:
     """The cycles and turning points of an input history, counted once: they
-    do not change when the history is scaled (the gate scaled with it), so
-    the reserve search only follows the notch again at each trial scale."""
+    do not change when the history is scaled (the gate scaled with it), nor
+    does the material's memory (which branch each turning point lies on),
+    so the reserve search only reads the local states again at each trial
+    scale."""
 
     def __init__(self, samples, input_kind, kt, residue, gate):
         x = np.asarray(samples, dtype=np.float64)
@@ -151,11 +153,16 @@ class _Counted:
         where[idx] = np.arange(idx.shape[0])
         self.pos_a = where[self.table.start_index]
         self.pos_b = where[self.table.end_index]
+        self.org = origins(self.points)[0]
+        self.every = np.arange(self.points.shape[0])
+        self.largest = float(np.max(np.abs(self.points), initial=0.0))
 
     def evaluate(self, material, input_kind, rule, mean_stress_method, scale=1.0):
         """Per-loop local values and damage at ``scale`` times the input."""
         code = "strain" if input_kind == "local_strain" else rule
-        sig, eps = local_states(self.points * scale, material, code)
+        sig, eps = np.empty(self.points.shape[0]), np.empty(self.points.shape[0])
+        Notch(material, code, self.largest * scale).states(self.points * scale, self.org,
+                                                           self.every, sig, eps)
         n = self.pos_a.shape[0]
         strain_amp, mean, smax, nf = np.empty(n), np.empty(n), np.empty(n), np.empty(n)
         loop_states(sig, eps, self.pos_a, self.pos_b, strain_amp, mean, smax)

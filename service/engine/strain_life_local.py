@@ -25,7 +25,8 @@ from ._numba import kernel
 from .strain_life_material import StrainLifeMaterial
 
 __all__ = ["RULE_CODES", "cyclic_strain", "masing_strain_range", "inverse_table",
-           "state_table", "loop_states", "Memory", "follow", "local_states"]
+           "state_table", "loop_states", "Memory", "origins", "Notch", "follow",
+           "local_states"]
 
 #: Codes inside the kernels: the notch rules and a strain input.
 RULE_CODES = {"neuber": 0, "glinka": 1, "strain": 2}
@@ -225,30 +226,48 @@ def state_table(rule: int, e_mod: float, k: float, n: float, top: float) -> np.n
 
 
 @kernel
-def _follow(x, rule, e_mod, k, inv_n, n, tab, lin, sig, eps, st_x, st_s, st_e, sp):
-    """Local stress and strain at each turning point ``x`` (pseudo stress or
-    strain), following the material's memory: the stack ``st_x, st_s,
-    st_e`` (``sp`` entries; room for ``sp + len(x)``) holds the open
-    reversal points and is left as it stands after the last point (so a
-    history can be followed block by block). ``tab`` is the rule's
-    :func:`inverse_table`, ``lin`` its :func:`state_table`. Returns the new
-    ``sp``."""
-    m = x.shape[0]
-    for j in range(m):
+def _origins(x, stack, sp, org):
+    """The material's memory over the points ``x`` (pseudo stress or
+    strain): ``org[j]`` is the index of the reversal point the branch to
+    ``x[j]`` starts from, -1 on the first-loading curve. The first ``sp``
+    points are the memory a history starts from (their ``org`` is not
+    set); ``stack`` (room for ``len(x)``) holds the open reversal points'
+    indices and is left as it stands after the last point (so a history can
+    be followed block by block). Only comparisons of the points: the same
+    for the points scaled by any positive factor. Returns the new ``sp``."""
+    for j in range(sp, x.shape[0]):
         v = x[j]
         while True:
             if sp >= 2:
-                if abs(v - st_x[sp - 1]) >= abs(st_x[sp - 2] - st_x[sp - 1]):
+                if abs(v - x[stack[sp - 1]]) >= abs(x[stack[sp - 2]] - x[stack[sp - 1]]):
                     sp -= 2  # the loop closes: the interrupted branch goes on
                     continue
             elif sp == 1:
-                r = st_x[0]
+                r = x[stack[0]]
                 # The first-loading curve is met again at the mirror of r.
                 if (v - r) * r < 0.0 and abs(v - r) >= 2.0 * abs(r):
                     sp = 0
                     continue
             break
-        if sp == 0:
+        org[j] = stack[sp - 1] if sp > 0 else -1
+        stack[sp] = j
+        sp += 1
+    return sp
+
+
+@kernel
+def _states(x, org, points, rule, e_mod, k, inv_n, n, tab, lin, sig, eps):
+    """Local stress and strain at the ``points`` (rising indices into ``x``)
+    from the branches :func:`_origins` found: on the first-loading curve,
+    or along the Masing branch (the first-loading curve doubled) from the
+    origin's state, which must be set already (an earlier point or the
+    memory). ``tab`` is the rule's :func:`inverse_table`, ``lin`` its
+    :func:`state_table`."""
+    for q in range(points.shape[0]):
+        j = points[q]
+        v = x[j]
+        o = org[j]
+        if o < 0:
             # Read from the table over x; solved past it. (Written out here:
             # through a helper taking the tables, each point paid for the
             # arrays' reference counts, tripling the follow's time.)
@@ -259,18 +278,13 @@ def _follow(x, rule, e_mod, k, inv_n, n, tab, lin, sig, eps, st_x, st_s, st_e, s
             sig[j] = sgn * s
             eps[j] = sgn * (s / e_mod + plast)
         else:
-            dv = abs(v - st_x[sp - 1])
+            dv = abs(v - x[o])
             inside, half, plast = table_values(lin, 0.5 * dv)
             if not inside:
                 half, plast = _stress_of(0.5 * dv, rule, e_mod, k, inv_n, n, tab)
-            sgn = 1.0 if v >= st_x[sp - 1] else -1.0
-            sig[j] = st_s[sp - 1] + sgn * 2.0 * half
-            eps[j] = st_e[sp - 1] + sgn * 2.0 * (half / e_mod + plast)
-        st_x[sp] = v
-        st_s[sp] = sig[j]
-        st_e[sp] = eps[j]
-        sp += 1
-    return sp
+            sgn = 1.0 if v >= x[o] else -1.0
+            sig[j] = sig[o] + sgn * 2.0 * half
+            eps[j] = eps[o] + sgn * 2.0 * (half / e_mod + plast)
 
 
 @kernel
@@ -307,31 +321,55 @@ class Memory:
         return cls(list(data["x"]), list(data["stress"]), list(data["strain"]))
 
 
+def origins(x, memory: Memory | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """``(org, open)`` over the points ``x`` after ``memory``'s: each
+    point's branch origin (:func:`_origins`; indices count the memory's
+    points first) and the open reversal points after the last."""
+    m0 = 0 if memory is None else len(memory.x)
+    xa = np.ascontiguousarray(x if memory is None or not m0 else np.concatenate(
+        [np.asarray(memory.x, dtype=np.float64), x]), dtype=np.float64)
+    org = np.empty(xa.shape[0], np.int64)
+    stack = np.arange(xa.shape[0], dtype=np.int64)
+    sp = _origins(xa, stack, m0, org)
+    return org, stack[:sp]
+
+
+class Notch:
+    """A material's notch rule with its tables, to read the local states of
+    many points (:meth:`states`)."""
+
+    def __init__(self, material: StrainLifeMaterial, rule: str, largest: float):
+        m = material
+        self.code = RULE_CODES[rule]
+        self.e_mod, self.k, self.n = (float(m.youngs_modulus),
+                                      float(m.cyclic_strength_coefficient),
+                                      float(m.cyclic_hardening_exponent))
+        self.tab = inverse_table(self.code, self.e_mod, self.k, self.n)
+        # First loading reaches |x|, a Masing branch half a range: neither
+        # goes past the largest |x|.
+        self.lin = state_table_for(self.code, self.e_mod, self.k, self.n, largest)
+
+    def states(self, x, org, points, sig, eps) -> None:
+        """Fill ``sig`` and ``eps`` at ``points`` (:func:`_states`)."""
+        _states(x, org, points, self.code, self.e_mod, self.k, 1.0 / self.n, self.n, self.tab,
+                self.lin, sig, eps)
+
+
 def follow(x, material: StrainLifeMaterial, rule: str, memory: Memory | None = None):
     """``(stress, strain, memory)``: the local state at each turning point
     ``x`` (in order) starting from ``memory`` (an unloaded start if None),
     and the memory after the last. [MPa], [-]"""
     x = np.ascontiguousarray(x, dtype=np.float64)
     memory = memory or Memory.empty()
-    sp = len(memory.x)
-    st_x = np.empty(sp + x.shape[0])
-    st_s = np.empty_like(st_x)
-    st_e = np.empty_like(st_x)
-    st_x[:sp], st_s[:sp], st_e[:sp] = memory.x, memory.stress, memory.strain
-    sig = np.empty_like(x)
-    eps = np.empty_like(x)
-    m = material
-    code = RULE_CODES[rule]
-    e_mod, k, n = (float(m.youngs_modulus), float(m.cyclic_strength_coefficient),
-                   float(m.cyclic_hardening_exponent))
-    # First loading reaches |x|, a Masing branch half a range: neither goes
-    # past the largest |x| (of the history and the memory it starts from).
-    top = max(float(np.max(np.abs(x), initial=0.0)),
-              max((abs(v) for v in memory.x), default=0.0))
-    tab = inverse_table(code, e_mod, k, n)
-    lin = state_table_for(code, e_mod, k, n, top)
-    sp = _follow(x, code, e_mod, k, 1.0 / n, n, tab, lin, sig, eps, st_x, st_s, st_e, sp)
-    return sig, eps, Memory(st_x[:sp].tolist(), st_s[:sp].tolist(), st_e[:sp].tolist())
+    m0 = len(memory.x)
+    org, open_ = origins(x, memory)
+    xa = np.concatenate([np.asarray(memory.x, dtype=np.float64), x]) if m0 else x
+    sig, eps = np.empty(xa.shape[0]), np.empty(xa.shape[0])
+    sig[:m0], eps[:m0] = memory.stress, memory.strain
+    notch = Notch(material, rule, float(np.max(np.abs(xa), initial=0.0)))
+    notch.states(xa, org, np.arange(m0, xa.shape[0]), sig, eps)
+    return sig[m0:], eps[m0:], Memory(xa[open_].tolist(), sig[open_].tolist(),
+                                      eps[open_].tolist())
 
 
 def local_states(x, material: StrainLifeMaterial, rule: str):
