@@ -88,7 +88,8 @@ def assess_strain_life(point, gate, gate_fraction, residue, duration_s):
         "strain_life_method", input=params["input_kind"].replace("_", " "),
         rule=("" if params["input_kind"] == "local_strain"
               else f", {params['rule'].capitalize()}'s rule with Kt = {params['kt']:g}"),
-        mean=params["mean_stress_method"].replace("_", "-"), source=material.source)]
+        mean=strain_life.MEAN_STRESS_NAMES[params["mean_stress_method"]],
+        source=material.source)]
     if material.source.startswith("estimate"):
         extra.append(cautions.caution("strain_life_estimate", source=material.source))
     if findings:
@@ -126,8 +127,11 @@ def assess_strain_life(point, gate, gate_fraction, residue, duration_s):
         "curve": {"name": "strain-life", "source": material.source,
                   "family": "strain_life"},
         "estimate": None,
+        # In the request's names (the engine's keywords differ).
         "options": {"allowable_damage": opts.allowable_damage, "residue": residue,
-                    "method": "strain_life", **params},
+                    "method": "strain_life", "input": params["input_kind"],
+                    "notch_rule": params["rule"], "kt": params["kt"],
+                    "mean_stress_method": params["mean_stress_method"]},
         "settings_used": point.settings,
         "cautions": [c.as_dict() for c in extra],
         "screening": runs._signal_block(policy, findings, cleaned),

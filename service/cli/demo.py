@@ -49,6 +49,35 @@ def _design_life(client, report: dict) -> tuple[dict, dict]:
     return duty, spectrum
 
 
+def _notch(client, report: dict) -> dict:
+    """The lug's hole by the local strain approach (the demo's ``notch``
+    settings) beside the gauge's own stress-life result. Printed and
+    returned."""
+    from service import demo
+    from service.engine.strain_life import MEAN_STRESS_NAMES
+
+    config = demo.points()
+    a = client.assess(history_id=report["history_id"], gate_fraction=config["gate_fraction"],
+                      points=config["notch"])
+    for name, p in a["points"].items():
+        sl = p["strain_life"]
+        m = p["options"]
+        gauge = report["points"][name]
+        print(f"\n{name}'s hole as a notch by the local strain approach (Kt = {m['kt']:g}, "
+              f"{m['notch_rule'].capitalize()}'s rule, "
+              f"{MEAN_STRESS_NAMES[m['mean_stress_method']]}; {sl['material']['source']}):")
+        print(f"  damage {formatting.number(p['damage'])}, life "
+              f"{formatting.number(p['life_hours'])} h (the gauge itself, by stress-life: "
+              f"{formatting.number(gauge['life_hours'])} h), reserve factor "
+              f"{formatting.number(p['reserve_factor'])} ({p['reserve_limited_by']})")
+        print(f"  largest local strain amplitude {formatting.number(sl['max_strain_amplitude'])}, "
+              f"peak local stress {formatting.number(sl['max_stress'])} MPa")
+        for c in p["cautions"]:
+            if c["code"].startswith("strain_life"):
+                print(f"  - [{c['code']}] {c['text']}")
+    return a
+
+
 def _cmd_demo(args) -> int:
     from service import demo
 
@@ -76,6 +105,7 @@ def _cmd_demo(args) -> int:
         print_report(report)
         a = report["assessment_id"]
         duty, spectrum = _design_life(client, report)
+        notch = _notch(client, report)
         from service.store import keys, sqlite
 
         con = sqlite.connect(app.config["DATA_DIR"])
@@ -91,7 +121,8 @@ def _cmd_demo(args) -> int:
                      f"/v1/assessments/{a}/points/pin_lug/cycles?format=csv",
                      f"/v1/assessments/{a}/points/pin_lug/range-mean",
                      f"/v1/duty-cycles/{duty['id']}/report",
-                     f"/v1/spectra/{spectrum['id']}/report", "/v1/curves",
+                     f"/v1/spectra/{spectrum['id']}/report",
+                     f"/v1/assessments/{notch['id']}/report", "/v1/curves",
                      "/openapi.yaml"):
             print(f"  {url}{path}")
         if args.no_wait:

@@ -121,8 +121,8 @@ CAUTION_TEXTS = {
                             "= {t_ref:g} mm, n = {n:g}; {source}).",
     # Strain-life (engine/strain_life.py).
     "strain_life_method": "Assessed by the local strain approach: {input} input{rule}, Masing "
-                          "branches with material memory, Coffin-Manson-Basquin with {mean} "
-                          "mean stress; material: {source}.",
+                          "branches with material memory, Coffin-Manson-Basquin with {mean}; "
+                          "material: {source}.",
     "strain_life_estimate": "The strain-life constants are an {source}: lives from such "
                             "estimates scatter by a factor of several; use test data for "
                             "decisions.",

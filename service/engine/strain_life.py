@@ -63,14 +63,15 @@ from .rainflow import astm_e1049, turning_points
 from .strain_life_local import (Memory, Notch, cyclic_strain, follow, local_states,
                                 loop_states, masing_strain_range, origins)
 # The material, its estimates and its life curve: one import path.
-from .strain_life_material import (_TABLED_LOOPS, ESTIMATES, STRAIN_MEAN_STRESS,
-                                   StrainLifeMaterial, estimate, loop_lives,
-                                   reversals_to_failure)
+from .strain_life_material import (_TABLED_LOOPS, ESTIMATES, MEAN_STRESS_NAMES,
+                                   STRAIN_MEAN_STRESS, StrainLifeMaterial, estimate,
+                                   loop_lives, reversals_to_failure)
 
-__all__ = ["INPUTS", "NOTCH_RULES", "STRAIN_MEAN_STRESS", "ESTIMATES", "StrainLifeMaterial",
-           "estimate", "reversals_to_failure", "validity_cautions", "cyclic_strain", "masing_strain_range",
-           "Memory", "follow", "local_states", "input_of_stored", "pseudo_of_stored",
-           "StrainLifeAssessment", "assess_strain_life", "warm_up"]
+__all__ = ["INPUTS", "NOTCH_RULES", "STRAIN_MEAN_STRESS", "MEAN_STRESS_NAMES", "ESTIMATES",
+           "StrainLifeMaterial", "estimate", "reversals_to_failure", "validity_cautions",
+           "cyclic_strain", "masing_strain_range", "Memory", "follow", "local_states",
+           "input_of_stored", "pseudo_of_stored", "StrainLifeAssessment", "assess_strain_life",
+           "warm_up"]
 
 #: How the history relates to the notch root.
 INPUTS = ("nominal", "local_elastic", "local_strain")

@@ -31,8 +31,11 @@ from ._hermite import empty_table, table_value
 from ._numba import kernel
 from .errors import InvalidParameter, unknown
 
-#: Mean-stress forms of the strain-life curve.
+#: Mean-stress forms of the strain-life curve, and how texts name them.
 STRAIN_MEAN_STRESS = ("none", "morrow", "smith_watson_topper", "walker")
+MEAN_STRESS_NAMES = {"none": "no mean-stress correction", "morrow": "Morrow's mean stress",
+                     "smith_watson_topper": "the Smith-Watson-Topper parameter",
+                     "walker": "Walker's mean stress"}
 
 
 @dataclass(frozen=True)

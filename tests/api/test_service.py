@@ -164,6 +164,10 @@ def test_demo_command_starts_posts_and_stops(tmp_path, capsys):
     # The design life and the vibration profile made from the same recording.
     assert "duty cycle loader arm rig test, 100 h" in out and "payload +10 %" in out
     assert "dirlik" in out and "/v1/duty-cycles/d_" in out and "/v1/spectra/s_" in out
+    # The lug's hole by the local strain approach, beside the gauge's stress-life.
+    assert "pin_lug's hole as a notch by the local strain approach (Kt = 2.4" in out
+    assert "the gauge itself, by stress-life" in out and "[strain_life_estimate]" in out
+    assert out.count("/v1/assessments/a_") >= 5      # the notch's report among the links
 
 
 def _demo_csv(tmp_path):
