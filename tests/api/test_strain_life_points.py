@@ -39,6 +39,13 @@ def test_a_notch_point_by_strain_life(client):
     assert p["reserve_factor"] == pytest.approx(ref.reserve_factor, rel=1e-9)
     assert p["life_hours"] == pytest.approx(ref.life_hours, rel=1e-12)
     assert p["strain_life"]["notch_rule"] == "glinka" and p["curve"]["name"] == "strain-life"
+    # The settings come back under the names they were sent with (one name
+    # per concept, issue 17), in the options and the strain_life block alike.
+    sent = {"input": "nominal", "kt": 2.8, "notch_rule": "glinka",
+            "mean_stress_method": "smith_watson_topper"}
+    assert {k: p["options"][k] for k in sent} == sent
+    assert {k: p["strain_life"][k] for k in sent} == sent
+    assert not {"input_kind", "rule"} & (set(p["options"]) | set(p["strain_life"]))
     # max_range is the largest counted range of the history as sent (as in
     # stress-life), not a step between samples.
     ranges = np.abs(x[ref.loops["start_index"]] - x[ref.loops["end_index"]])
