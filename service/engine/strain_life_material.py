@@ -221,6 +221,16 @@ def reversals_to_failure(strain_amplitude, material: StrainLifeMaterial, *,
     m = material
     if mean_stress_method not in STRAIN_MEAN_STRESS:
         raise unknown("mean_stress_method", mean_stress_method, STRAIN_MEAN_STRESS)
+    # A form's own inputs must be given: a peak left out would read as 0 (no
+    # damage under SWT and Walker), a mean left out as 0 (Morrow's benefit
+    # or penalty lost) without a word.
+    needs = {"morrow": ("mean_stress",), "smith_watson_topper": ("max_stress",),
+             "walker": ("mean_stress", "max_stress"), "none": ()}[mean_stress_method]
+    given = {"mean_stress": mean_stress, "max_stress": max_stress}
+    missing = [k for k in needs if given[k] is None]
+    if missing:
+        raise InvalidParameter(f"the {mean_stress_method} form needs {' and '.join(missing)} "
+                               "of each loop", field=missing[0])
     ea = np.asarray(strain_amplitude, dtype=np.float64)
 
     def loops(v):

@@ -93,6 +93,12 @@ def test_coffin_manson_basquin_morrow_and_swt_by_hand():
     assert math.isinf(sl.reversals_to_failure([0.002], m, max_stress=[-10.0],
                                               mean_stress_method="smith_watson_topper")[0])
     assert sl.reversals_to_failure([0.002], m, mean_stress=[1100.0])[0] == 0.0
+    # A form's own input left out is refused, not read as 0 (an SWT peak of
+    # 0 would mean no damage at all).
+    for form, given in (("smith_watson_topper", {"mean_stress": [50.0]}),
+                        ("morrow", {"max_stress": [300.0]}), ("walker", {"mean_stress": [0.0]})):
+        with pytest.raises(InvalidParameter, match="needs"):
+            sl.reversals_to_failure([0.002], m, mean_stress_method=form, **given)
 
 
 def test_walker_by_hand():
