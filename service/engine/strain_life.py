@@ -155,15 +155,14 @@ class _Counted:
         self.pos_a = where[self.table.start_index]
         self.pos_b = where[self.table.end_index]
         self.org = origins(self.points)[0]
-        self.every = np.arange(self.points.shape[0])
         self.largest = float(np.max(np.abs(self.points), initial=0.0))
 
     def evaluate(self, material, input_kind, rule, mean_stress_method, scale=1.0):
         """Per-loop local values and damage at ``scale`` times the input."""
         code = "strain" if input_kind == "local_strain" else rule
         sig, eps = np.empty(self.points.shape[0]), np.empty(self.points.shape[0])
-        Notch(material, code, self.largest * scale).states(self.points * scale, self.org,
-                                                           self.every, sig, eps)
+        Notch(material, code, self.largest * scale).states(self.points * scale, self.org, 0,
+                                                           sig, eps)
         n = self.pos_a.shape[0]
         strain_amp, mean, smax, nf = np.empty(n), np.empty(n), np.empty(n), np.empty(n)
         loop_states(sig, eps, self.pos_a, self.pos_b, strain_amp, mean, smax)

@@ -256,15 +256,14 @@ def _origins(x, stack, sp, org):
 
 
 @kernel
-def _states(x, org, points, rule, e_mod, k, inv_n, n, tab, lin, sig, eps):
-    """Local stress and strain at the ``points`` (rising indices into ``x``)
-    from the branches :func:`_origins` found: on the first-loading curve,
-    or along the Masing branch (the first-loading curve doubled) from the
-    origin's state, which must be set already (an earlier point or the
-    memory). ``tab`` is the rule's :func:`inverse_table`, ``lin`` its
+def _states(x, org, start, rule, e_mod, k, inv_n, n, tab, lin, sig, eps):
+    """Local stress and strain at the points ``x`` from ``start`` on, along
+    the branches :func:`_origins` found: on the first-loading curve, or
+    along the Masing branch (the first-loading curve doubled) from the
+    origin's state (an earlier point's, or the memory's before ``start``).
+    ``tab`` is the rule's :func:`inverse_table`, ``lin`` its
     :func:`state_table`."""
-    for q in range(points.shape[0]):
-        j = points[q]
+    for j in range(start, x.shape[0]):
         v = x[j]
         o = org[j]
         if o < 0:
@@ -321,16 +320,15 @@ class Memory:
         return cls(list(data["x"]), list(data["stress"]), list(data["strain"]))
 
 
-def origins(x, memory: Memory | None = None) -> tuple[np.ndarray, np.ndarray]:
-    """``(org, open)`` over the points ``x`` after ``memory``'s: each
-    point's branch origin (:func:`_origins`; indices count the memory's
-    points first) and the open reversal points after the last."""
-    m0 = 0 if memory is None else len(memory.x)
-    xa = np.ascontiguousarray(x if memory is None or not m0 else np.concatenate(
-        [np.asarray(memory.x, dtype=np.float64), x]), dtype=np.float64)
-    org = np.empty(xa.shape[0], np.int64)
-    stack = np.arange(xa.shape[0], dtype=np.int64)
-    sp = _origins(xa, stack, m0, org)
+def origins(x, start: int = 0) -> tuple[np.ndarray, np.ndarray]:
+    """``(org, open)`` over the points ``x`` from ``start`` on (the points
+    before it are the memory a history starts from, open in their order):
+    each point's branch origin (:func:`_origins`) and the indices of the
+    open reversal points after the last."""
+    x = np.ascontiguousarray(x, dtype=np.float64)
+    org = np.empty(x.shape[0], np.int64)
+    stack = np.arange(x.shape[0], dtype=np.int64)
+    sp = _origins(x, stack, start, org)
     return org, stack[:sp]
 
 
@@ -349,9 +347,9 @@ class Notch:
         # goes past the largest |x|.
         self.lin = state_table_for(self.code, self.e_mod, self.k, self.n, largest)
 
-    def states(self, x, org, points, sig, eps) -> None:
-        """Fill ``sig`` and ``eps`` at ``points`` (:func:`_states`)."""
-        _states(x, org, points, self.code, self.e_mod, self.k, 1.0 / self.n, self.n, self.tab,
+    def states(self, x, org, start, sig, eps) -> None:
+        """Fill ``sig`` and ``eps`` from ``start`` on (:func:`_states`)."""
+        _states(x, org, start, self.code, self.e_mod, self.k, 1.0 / self.n, self.n, self.tab,
                 self.lin, sig, eps)
 
 
@@ -359,15 +357,15 @@ def follow(x, material: StrainLifeMaterial, rule: str, memory: Memory | None = N
     """``(stress, strain, memory)``: the local state at each turning point
     ``x`` (in order) starting from ``memory`` (an unloaded start if None),
     and the memory after the last. [MPa], [-]"""
-    x = np.ascontiguousarray(x, dtype=np.float64)
     memory = memory or Memory.empty()
     m0 = len(memory.x)
-    org, open_ = origins(x, memory)
-    xa = np.concatenate([np.asarray(memory.x, dtype=np.float64), x]) if m0 else x
+    xa = np.concatenate([np.asarray(memory.x, dtype=np.float64),
+                         np.asarray(x, dtype=np.float64)])
+    org, open_ = origins(xa, m0)
     sig, eps = np.empty(xa.shape[0]), np.empty(xa.shape[0])
     sig[:m0], eps[:m0] = memory.stress, memory.strain
     notch = Notch(material, rule, float(np.max(np.abs(xa), initial=0.0)))
-    notch.states(xa, org, np.arange(m0, xa.shape[0]), sig, eps)
+    notch.states(xa, org, m0, sig, eps)
     return sig[m0:], eps[m0:], Memory(xa[open_].tolist(), sig[open_].tolist(),
                                       eps[open_].tolist())
 
