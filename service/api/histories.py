@@ -3,7 +3,11 @@
 from __future__ import annotations
 
 import hashlib
+import sys
+import threading
 from pathlib import Path
+
+import numpy as np
 
 from flask import Blueprint, jsonify, request, url_for
 
@@ -89,7 +93,7 @@ def delete(history_id: str):
     return "", 204
 
 
-def receive_body(folder, digest=None) -> bytearray | Path:
+def receive_body(folder, digest=None) -> memoryview | Path:
     """The request body: its bytes, held in memory, when its declared length
     is within ``MEMORY_BODY_MB``; else (larger, or sent without a length)
     spooled to a temporary file in ``folder`` (:func:`spool_body`).
@@ -97,18 +101,72 @@ def receive_body(folder, digest=None) -> bytearray | Path:
     Writing a body to disk and reading it back cost more than parsing it
     (bench_inputs: a 150 MB CSV spent longer spooled than parsed), so only
     a body too large to hold goes through a file. ``digest`` as in
-    :func:`spool_body`; :func:`discard` removes a spooled file.
+    :func:`spool_body`; :func:`discard` removes a spooled file and hands
+    the memory back for the next body (:class:`SpareBuffer`).
     """
     expected = request.content_length
     if expected is None or expected > uploads.memory_body_limit():
         return spool_body(folder, digest)
     # One buffer of the declared length, filled as the body arrives: the
-    # chunks are transient, so the body's bytes land in new memory once.
-    buf, got = bytearray(expected), 0
+    # chunks are transient, so the body's bytes land in the buffer once.
+    buf, got = SPARE.take(expected), 0
     for chunk in _chunks(digest):
         buf[got:got + len(chunk)] = chunk
         got += len(chunk)
     return buf
+
+
+class SpareBuffer:
+    """One large receive buffer kept from one body to the next.
+
+    On this machine the first touch of new memory costs more than the
+    bytes' transfer: a 150 MB CSV body took 60-430 ms to land in a new
+    buffer (page faults, and ``bytearray`` zero-filling it first), 25-70 ms
+    in one already touched. So the buffer of a body of at least
+    :data:`SMALLEST` bytes is kept once the request is done, if nothing
+    reads it any more (no view of it left: a reader's zero-copy arrays
+    would otherwise see the next body), and the next large body that fits
+    takes it. At most one, of at most ``MEMORY_BODY_MB``; a body arriving
+    while it is taken gets new memory.
+    """
+
+    SMALLEST = 1 << 20
+
+    def __init__(self):
+        self._lock = threading.Lock()
+        self._array: np.ndarray | None = None
+
+    def take(self, n: int) -> memoryview:
+        """A writable buffer of ``n`` bytes (not zeroed)."""
+        arr = None
+        if n >= self.SMALLEST:
+            with self._lock:
+                if self._array is not None and self._array.shape[0] >= n:
+                    arr, self._array = self._array, None
+        if arr is None:
+            arr = np.empty(n, np.uint8)
+        return memoryview(arr)[:n]
+
+    def give_back(self, view: memoryview, limit: int) -> bool:
+        """Release ``view`` (from :meth:`take`) and keep its memory if
+        nothing else refers to it. Returns whether it was kept."""
+        arr = view.obj
+        try:
+            view.release()
+        except BufferError:
+            return False        # exported still (a pyarrow buffer, np.frombuffer)
+        # Referred to by ``arr`` and getrefcount's argument alone: no array,
+        # memoryview or reader over it is left.
+        if sys.getrefcount(arr) > 2 or not self.SMALLEST <= arr.shape[0] <= limit:
+            return False
+        with self._lock:
+            if self._array is None or self._array.shape[0] < arr.shape[0]:
+                self._array = arr
+        return True
+
+
+#: The service's receive buffer kept between bodies.
+SPARE = SpareBuffer()
 
 
 def _chunks(digest=None):
@@ -131,9 +189,12 @@ def _chunks(digest=None):
 
 
 def discard(body) -> None:
-    """Remove a body spooled to a file (bytes in memory need nothing)."""
+    """Remove a body spooled to a file; hand a body held in memory back to
+    :data:`SPARE`."""
     if isinstance(body, Path):
         body.unlink(missing_ok=True)
+    elif isinstance(body, memoryview):
+        SPARE.give_back(body, uploads.memory_body_limit())
 
 
 def spool_body(folder, digest=None) -> Path:

@@ -65,8 +65,9 @@ SERVE_OPTIONS = {
     "threads": (int, 8, "request threads"),
     "job_workers": (int, 1, "threads running large assessments"),
     "max_upload_mb": (float, 512.0, "largest request body; larger ones get 413"),
-    "memory_body_mb": (float, 256.0, "uploads up to this size are read in memory, larger "
-                                     "ones through a temporary file"),
+    "memory_body_mb": (float, 256.0, "uploads up to this size are read in memory (the "
+                                     "largest buffer kept for the next), larger ones through "
+                                     "a temporary file"),
     "async_samples": (int, 2_000_000, "samples x points above which an assessment becomes "
                                       "a job"),
     "scheduler": (str, None, "Dask scheduler address: jobs' points run on that cluster "

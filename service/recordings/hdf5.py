@@ -60,11 +60,19 @@ def _rate(ds) -> float | None:
 
 def read_hdf5(source, options: dict) -> Recording:
     """The chosen datasets of an HDF5 file (module notes): ``source`` is its
-    path or its bytes."""
+    path or its bytes (read through a reader closed here: h5py leaves a
+    file object it was given open)."""
+    if in_memory(source):
+        with binary(source) as f:
+            return _read_hdf5(f, options)
+    return _read_hdf5(str(source), options)
+
+
+def _read_hdf5(source, options: dict) -> Recording:
     import h5py
 
     try:
-        f = h5py.File(binary(source) if in_memory(source) else str(source), "r")
+        f = h5py.File(source, "r")
     except OSError as exc:
         raise UnreadableRecording(f"the HDF5 file could not be read: {exc}") from None
     with f:

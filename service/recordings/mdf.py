@@ -32,11 +32,19 @@ def _groups(mdf) -> list[list[tuple[str, str]]]:
 
 def read_mdf(source, options: dict) -> Recording:
     """The channels of one channel group of an MDF 4 file (module notes):
-    ``source`` is its path or its bytes."""
+    ``source`` is its path or its bytes (read through a reader closed here:
+    asammdf leaves a file object it was given open)."""
+    if in_memory(source):
+        with binary(source) as f:
+            return _read_mdf(f, options)
+    return _read_mdf(str(source), options)
+
+
+def _read_mdf(source, options: dict) -> Recording:
     from asammdf import MDF
 
     try:
-        mdf = MDF(binary(source) if in_memory(source) else str(source))
+        mdf = MDF(source)
     except Exception as exc:  # asammdf raises many kinds on a damaged file
         raise UnreadableRecording(f"the MDF file could not be read: {exc}") from None
     try:

@@ -361,3 +361,92 @@ def test_gzip_in_memory_spills_to_a_file_beyond_the_limit(tmp_path):
     with pytest.raises(recordings.UnreadableRecording):
         recordings.unpacked(packed[:-9] + b"\0" * 9, folder=tmp_path, memory_limit=1 << 16)
     assert list(tmp_path.iterdir()) == []
+
+
+def _large_bodies(tmp_path, n, seed) -> list[tuple[str, bytes, str, str]]:
+    """Bodies over ``SpareBuffer.SMALLEST`` of each kind read from memory."""
+    import h5py
+    from asammdf import MDF, Signal
+
+    t, g1, g2 = signals(n=n, seed=seed)
+    csv = ("time_s,g1,g2\n" + "".join(f"{a:.4f},{b:.3f},{c:.3f}\n"
+                                      for a, b, c in zip(t, g1, g2))).encode()
+    mdf = MDF(version="4.10")
+    mdf.append([Signal(g1, t, name="g1", unit="MPa"), Signal(g2, t, name="g2", unit="MPa")])
+    mdf.save(tmp_path / f"m{seed}.mf4", overwrite=True)
+    mdf.close()
+    with h5py.File(tmp_path / f"h{seed}.h5", "w") as f:
+        f.attrs["sample_rate_hz"] = 500.0
+        f.create_dataset("g1", data=g1)
+        f.create_dataset("g2", data=g2)
+    return [("csv", csv, "text/csv", "unit=MPa"),
+            ("mdf4", (tmp_path / f"m{seed}.mf4").read_bytes(), "application/octet-stream",
+             "unit=MPa"),
+            ("hdf5", (tmp_path / f"h{seed}.h5").read_bytes(), "application/x-hdf5", "unit=MPa"),
+            ("parquet", parquet_bytes({"time_s": t, "g1": g1, "g2": g2}), PARQUET, "unit=MPa")]
+
+
+def test_a_kept_receive_buffer_never_shows_one_body_in_another(tmp_path):
+    # Large bodies land in one buffer kept from request to request (new
+    # memory costs more to touch than the bytes to receive). Each history
+    # must still be its own body's, as read through a file, whatever body
+    # the buffer held before (a longer one first, then shorter ones).
+    import weakref
+
+    from service.api import histories
+    from tests.api.conftest import make_app
+
+    sends = [b for n, seed in ((110_000, 5), (90_000, 6), (80_000, 7))
+             for b in _large_bodies(tmp_path, n, seed)]
+    assert min(len(b[1]) for b in sends) >= histories.SpareBuffer.SMALLEST
+    answers, kept = {}, []
+    for label, mb in (("memory", 256), ("file", 0)):
+        app = make_app(tmp_path / label, MEMORY_BODY_MB=mb)
+        try:
+            c = app.test_client()
+            got = []
+            for kind, body, ctype, q in sends:
+                r = c.post(f"/v1/histories?{q}", data=body, content_type=ctype)
+                assert r.status_code == 201, (kind, r.get_json())
+                j = r.get_json()
+                got.append((kind, j["sample_count"],
+                            [(x["name"], x["min_mpa"], x["max_mpa"]) for x in j["channels"]],
+                            stored(c, j["id"])))
+                if label == "memory":
+                    # Weakly: a strong reference would itself keep it from reuse.
+                    kept.append(weakref.ref(histories.SPARE._array))
+            answers[label] = got
+        finally:
+            app.extensions["cycleledger.jobs"].shutdown(wait=True)
+    assert answers["memory"] == answers["file"]
+    # Each body that fits the kept buffer was received in it.
+    largest = len(sends[0][1])
+    for i in range(1, len(sends)):
+        if len(sends[i][1]) <= largest:
+            assert kept[i]() is not None and kept[i]() is kept[i - 1](), sends[i][0]
+        largest = max(largest, len(sends[i][1]))
+
+
+def test_the_spare_buffer_is_kept_only_when_nothing_reads_it():
+    import weakref
+
+    from service.api.histories import SpareBuffer
+
+    spare, n = SpareBuffer(), SpareBuffer.SMALLEST
+    first = spare.take(2 * n)
+    base = weakref.ref(first.obj)        # a strong reference would itself keep it from reuse
+    assert spare.give_back(first, limit=4 * n)
+    again = spare.take(n + 10)                                     # fits: the same memory
+    assert again.obj is base() and len(again) == n + 10
+    view = np.frombuffer(again, np.uint8)                         # a reader's view, still alive
+    assert not spare.give_back(again, limit=4 * n)
+    del view
+    other = spare.take(n)
+    assert other.obj is not base()                                 # not kept: new memory
+    arrow = pa.py_buffer(other)
+    assert not spare.give_back(other, limit=4 * n)                 # exported: refused
+    del arrow
+    big = spare.take(8 * n)
+    assert not spare.give_back(big, limit=4 * n)                   # over the limit
+    small = spare.take(1000)
+    assert not spare.give_back(small, limit=4 * n)                 # too small to be worth it
