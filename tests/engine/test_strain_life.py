@@ -274,62 +274,54 @@ def test_the_interpolated_first_loading_equals_the_solved_one(material):
         assert not table_values(lin, top * 1.001)[0] and not table_values(lin, 0.99 * x0)[0]
 
 
+def _lives_come_back(rng, n, log_lives, c_low):
+    """Inverted by hand: ``n`` lives chosen for a random material, the strain
+    amplitude each answers computed from Coffin-Manson-Basquin with Morrow's
+    mean (30 % of them within 1e-9 to 1e-3 of sigma_f') or the SWT product,
+    and the lives asked for again (rel 1e-9). Returns ``(material, mean,
+    peak)`` for more checks."""
+    m = sl.StrainLifeMaterial(rng.uniform(5e4, 2.2e5), 1000.0, 0.15,
+                              rng.uniform(300, 2500), rng.uniform(-0.15, -0.04),
+                              rng.uniform(0.05, 2.5), rng.uniform(c_low, -0.4))
+    E, sf, b, ef, c = (m.youngs_modulus, m.fatigue_strength_coefficient,
+                       m.fatigue_strength_exponent, m.fatigue_ductility_coefficient,
+                       m.fatigue_ductility_exponent)
+    two_n = 10 ** rng.uniform(*log_lives, n)
+    sm = sf * np.where(rng.random(n) < 0.3, 1.0 - 10 ** rng.uniform(-9, -3, n),
+                       rng.uniform(-1.0, 0.9, n))
+    ea = (sf - sm) / E * two_n ** b + ef * two_n ** c
+    got = sl.reversals_to_failure(ea, m, mean_stress=sm, mean_stress_method="morrow")
+    np.testing.assert_allclose(got, two_n, rtol=1e-9)
+    smax = rng.uniform(10.0, 2.0 * sf, n)
+    ea = (sf * sf / E * two_n ** (2 * b) + sf * ef * two_n ** (b + c)) / smax
+    got = sl.reversals_to_failure(ea, m, mean_stress=smax / 2, max_stress=smax,
+                                  mean_stress_method="smith_watson_topper")
+    np.testing.assert_allclose(got, two_n, rtol=1e-9)
+    return m, sm, smax
+
+
 def test_lives_solved_from_any_start_including_a_mean_near_the_strength():
-    # Inverted by hand: a life chosen, the strain amplitude it answers
-    # computed from Coffin-Manson-Basquin with Morrow's mean (or the SWT
-    # product), and the solver asked for the life again. Means close to
-    # sigma_f' leave a tiny elastic term whose own solution lies hundreds of
-    # units of ln 2N left of the root; the earlier solver started there and
-    # stopped after 100 Newton steps far from it (life 6e-4 reversals for
-    # 17.4).
+    # Means close to sigma_f' leave a tiny elastic term whose own solution
+    # lies hundreds of units of ln 2N left of the root; the earlier solver
+    # started there and stopped after 100 Newton steps far from it (life
+    # 6e-4 reversals for 17.4). Few loops a call: solved one by one.
     rng = np.random.default_rng(20)
     for _ in range(300):
-        m = sl.StrainLifeMaterial(rng.uniform(5e4, 2.2e5), 1000.0, 0.15,
-                                  rng.uniform(300, 2500), rng.uniform(-0.15, -0.04),
-                                  rng.uniform(0.05, 2.5), rng.uniform(-0.9, -0.4))
-        E, sf, b, ef, c = (m.youngs_modulus, m.fatigue_strength_coefficient,
-                           m.fatigue_strength_exponent, m.fatigue_ductility_coefficient,
-                           m.fatigue_ductility_exponent)
-        two_n = 10 ** rng.uniform(0.5, 9.0, 50)
-        sm = sf * np.where(rng.random(50) < 0.3, 1.0 - 10 ** rng.uniform(-9, -3, 50),
-                           rng.uniform(-1.0, 0.9, 50))
-        ea = (sf - sm) / E * two_n ** b + ef * two_n ** c
-        got = sl.reversals_to_failure(ea, m, mean_stress=sm, mean_stress_method="morrow")
-        np.testing.assert_allclose(got, two_n, rtol=1e-9)
-        smax = rng.uniform(10.0, 2.0 * sf, 50)
-        ea = (sf * sf / E * two_n ** (2 * b) + sf * ef * two_n ** (b + c)) / smax
-        got = sl.reversals_to_failure(ea, m, mean_stress=smax / 2, max_stress=smax,
-                                      mean_stress_method="smith_watson_topper")
-        np.testing.assert_allclose(got, two_n, rtol=1e-9)
+        _lives_come_back(rng, 50, (0.5, 9.0), -0.9)
 
 
 def test_lives_read_from_the_reduced_table_equal_the_chosen_ones():
     # Many loops read their lives from one table of z^e1 + z^e2 = e^u (every
-    # loop's equation scaled to it). Inverted by hand as above, with enough
-    # loops to take the table, lives from 0.01 to 1e14 reversals (some
-    # outside the table's span, solved there) and Morrow means near sigma_f'.
+    # loop's equation scaled to it): enough loops to take the table, lives
+    # from 0.01 to 1e14 reversals (some outside the table's span, solved
+    # there).
     from service.engine import strain_life_material as slm
 
     rng = np.random.default_rng(21)
     n = slm._TABLED_LOOPS + 500
     for _ in range(12):
-        m = sl.StrainLifeMaterial(rng.uniform(5e4, 2.2e5), 1000.0, 0.15,
-                                  rng.uniform(300, 2500), rng.uniform(-0.15, -0.04),
-                                  rng.uniform(0.05, 2.5), rng.uniform(-1.3, -0.4))
-        E, sf, b, ef, c = (m.youngs_modulus, m.fatigue_strength_coefficient,
-                           m.fatigue_strength_exponent, m.fatigue_ductility_coefficient,
-                           m.fatigue_ductility_exponent)
-        two_n = 10 ** rng.uniform(-2.0, 14.0, n)
-        sm = sf * np.where(rng.random(n) < 0.2, 1.0 - 10 ** rng.uniform(-9, -3, n),
-                           rng.uniform(-1.0, 0.9, n))
-        ea = (sf - sm) / E * two_n ** b + ef * two_n ** c
-        got = sl.reversals_to_failure(ea, m, mean_stress=sm, mean_stress_method="morrow")
-        np.testing.assert_allclose(got, two_n, rtol=1e-9)
-        smax = rng.uniform(10.0, 2.0 * sf, n)
-        ea = (sf * sf / E * two_n ** (2 * b) + sf * ef * two_n ** (b + c)) / smax
-        got = sl.reversals_to_failure(ea, m, mean_stress=smax / 2, max_stress=smax,
-                                      mean_stress_method="smith_watson_topper")
-        np.testing.assert_allclose(got, two_n, rtol=1e-9)
+        m, sm, smax = _lives_come_back(rng, n, (-2.0, 14.0), -1.3)
+        sf = m.fatigue_strength_coefficient
         # No life where the mean has reached the strength, no damage where
         # the SWT peak is not tensile: as the solver says.
         sm[:3] = sf * np.array([1.0, 1.5, 3.0])
