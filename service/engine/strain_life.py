@@ -63,7 +63,7 @@ from .rainflow import astm_e1049, turning_points
 from .strain_life_local import (Memory, Notch, cyclic_strain, follow, local_states,
                                 loop_states, masing_strain_range, origins)
 # The material, its estimates and its life curve: one import path.
-from .strain_life_material import (_TABLED_LOOPS, ESTIMATES, MEAN_STRESS_NAMES,
+from .strain_life_material import (TABLED_LOOPS, ESTIMATES, MEAN_STRESS_NAMES,
                                    STRAIN_MEAN_STRESS, StrainLifeMaterial, estimate,
                                    loop_lives, reversals_to_failure)
 
@@ -408,5 +408,5 @@ def warm_up() -> None:
     _, _, memory = follow(x[:5], m, "glinka")
     follow(x[5:], m, "glinka", memory)
     # Many loops read their lives from a table: its kernels too.
-    many = np.full(_TABLED_LOOPS, 0.004)
+    many = np.full(TABLED_LOOPS, 0.004)
     reversals_to_failure(many, m, mean_stress=many * 0.0, mean_stress_method="morrow")

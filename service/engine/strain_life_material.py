@@ -261,7 +261,7 @@ def loop_lives(strain_amplitude, mean_stress, max_stress, material: StrainLifeMa
                                field="walker_exponent")
     b, c = m.fatigue_strength_exponent, m.fatigue_ductility_exponent
     e1, e2 = (2.0 * b, b + c) if form == 2 else (b, c)
-    tabled = out.shape[0] >= _TABLED_LOOPS
+    tabled = out.shape[0] >= TABLED_LOOPS
     _loop_lives(strain_amplitude, mean_stress, max_stress, form, float(m.youngs_modulus),
                 float(m.fatigue_strength_coefficient), float(b),
                 float(m.fatigue_ductility_coefficient), float(c),
@@ -363,7 +363,7 @@ def _solve_life(t, a, e1, a2, e2):
 #: trial), its nodes, and its span in v = ln z either side of 0 (lives from
 #: 4e-18 to 2e17 times the scale lambda, itself near the transition life;
 #: beyond it lives are solved).
-_TABLED_LOOPS = 8192
+TABLED_LOOPS = 8192
 _LIFE_NODES = 32768
 _LIFE_SPAN = 40.0
 _NO_TABLE = np.zeros((3, 2))

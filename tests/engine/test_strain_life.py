@@ -318,7 +318,7 @@ def test_lives_read_from_the_reduced_table_equal_the_chosen_ones():
     from service.engine import strain_life_material as slm
 
     rng = np.random.default_rng(21)
-    n = slm._TABLED_LOOPS + 500
+    n = slm.TABLED_LOOPS + 500
     for _ in range(12):
         m, sm, smax = _lives_come_back(rng, n, (-2.0, 14.0), -1.3)
         sf = m.fatigue_strength_coefficient
