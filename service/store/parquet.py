@@ -63,7 +63,8 @@ def read_table(data_dir: str | Path, rel: str, columns=None) -> pa.Table:
     return pq.read_table(Path(data_dir) / rel, columns=columns, memory_map=True)
 
 
-def adopt(data_dir: str | Path, folder: str, name: str, path: str | Path | bytes) -> str:
+def adopt(data_dir: str | Path, folder: str, name: str,
+          path: str | Path | bytes | memoryview) -> str:
     """Keep an already validated file (an upload spooled to disk) as
     ``<folder>/<name>.parquet``: fsync it, rename it into place, fsync the
     folder. Given the file's bytes (an upload held in memory), write them
