@@ -1,9 +1,8 @@
 """Compiled kernels behind :mod:`service.engine.screening`.
 
 Plain arrays in and out; the rules, their thresholds and the findings live in
-``screening.py``. A clean signal costs :func:`suspect_steps` (a vectorised
-count) and :func:`anchor_mask` (a vectorised hash test); :func:`signal_pass`
-runs only when a step is suspect.
+``screening.py``. A clean signal costs one streaming pass, :func:`survey`;
+:func:`signal_pass` runs only when a step is suspect.
 """
 
 from __future__ import annotations
@@ -69,38 +68,11 @@ def signal_pass(x, step_limit, spike_samples, spikes, runs, fill):
     return ns, nr, hi, lo
 
 
-@kernel
-def suspect_steps(x, step_limit):
-    """How many steps exceed ``step_limit`` or are exactly zero: the only
-    steps the rules of :func:`signal_pass` act on. A branch-free count (the
-    compiler vectorises it), so a clean signal costs one streaming read."""
-    c = 0
-    for i in range(x.shape[0] - 1):
-        d = x[i + 1] - x[i]
-        c += (d > step_limit) | (d < -step_limit) | (d == 0.0)
-    return c
-
-
 #: Low bits of the anchor hash that must be zero: one sample in 64 anchors.
 ANCHOR_BITS = np.uint64(63)
 _S29, _S17, _S45 = np.uint64(29), np.uint64(17), np.uint64(45)
 _FNV_OFFSET = np.uint64(0xCBF29CE484222325)
 _FNV_PRIME = np.uint64(0x100000001B3)
-
-
-@kernel
-def anchor_mask(bits, mask):
-    """Content-defined anchors for the repeated-block rule: ``mask[i]`` is
-    true where an xor-shift hash of samples ``i`` and ``i + 1`` (their IEEE
-    bit patterns ``bits``) has its low bits zero. The same content gives
-    the same anchors wherever it lies, so a copy of a stretch has its
-    anchors at the same places as the original (the idea of
-    content-defined chunking: A. Muthitacharoen, B. Chen, D. Mazieres,
-    "A low-bandwidth network file system," SOSP 2001)."""
-    for i in range(bits.shape[0] - 1):
-        b = bits[i]
-        h = b ^ (b >> _S29) ^ (bits[i + 1] >> _S17) ^ (b >> _S45)
-        mask[i] = (h & ANCHOR_BITS) == 0
 
 
 #: A 64-bit de Bruijn sequence B(2, 6) and the table that turns the top six
@@ -116,40 +88,151 @@ _S58 = np.uint64(58)
 
 
 @kernel
-def mask_positions(words, out):
-    """Positions of the true bytes of a boolean mask read as 64-bit words
-    (``mask.view(np.uint64)``): a word of eight false bytes is skipped at
-    once, and in the others each true byte is found from its lowest set bit
-    (de Bruijn indexing) rather than by testing all eight. Returns how many
-    were written, or -1 if ``out`` is too short."""
-    m = 0
-    cap = out.shape[0]
-    one = np.uint64(1)
-    for w in range(words.shape[0]):
-        v = words[w]
-        while v != 0:
-            low = v & (~v + one)
-            if m == cap:
-                return -1
-            out[m] = 8 * w + (_BIT_INDEX[(low * _DE_BRUIJN) >> _S58] >> 3)
-            m += 1
-            v ^= low
-    return m
+def moments(ys, ds, n, stride):
+    """``(trend change, sd of ys, sd of ds)`` of the samples ``ys``
+    (samples 0, stride, ... of a record of ``n``) and steps ``ds``: the rise
+    from start to end of the least-squares line through ``ys`` against
+    their sample numbers, and the standard deviations (over the count, as
+    numpy's ``std``). Two passes, the mean first."""
+    k = ys.shape[0]
+    mean = 0.0
+    for j in range(k):
+        mean += ys[j]
+    mean /= k
+    centre = (k - 1) * stride / 2.0  # the mean sample number
+    num = 0.0
+    den = 0.0
+    var = 0.0
+    for j in range(k):
+        c = j * stride - centre
+        dev = ys[j] - mean
+        num += c * dev
+        den += c * c
+        var += dev * dev
+    kd = ds.shape[0]
+    mean_d = 0.0
+    for j in range(kd):
+        mean_d += ds[j]
+    var_d = 0.0
+    if kd:
+        mean_d /= kd
+        for j in range(kd):
+            var_d += (ds[j] - mean_d) * (ds[j] - mean_d)
+        var_d /= kd
+    return (num / den * (n - 1) if den > 0 else 0.0), np.sqrt(var / k), np.sqrt(var_d)
+
+
+#: Samples per block of :func:`survey`: read once from memory, then from
+#: the first-level cache by each of its loops.
+_BLOCK = 2048
+_MAGNITUDE = np.uint64(0x7FFFFFFFFFFFFFFF)  # an IEEE double's bits but its sign
 
 
 @kernel
-def window_hashes(bits, anchors, window, out):
-    """FNV-1a hash of the ``window`` samples from each anchor into ``out``;
-    a window of one value throughout (a held run: its own rule) hashes to
-    0 and is skipped by the caller."""
-    for k in range(anchors.shape[0]):
-        i = anchors[k]
-        h = _FNV_OFFSET
-        same = True
-        for j in range(window):
-            h = (h ^ bits[i + j]) * _FNV_PRIME
-            same = same and bits[i + j] == bits[i]
-        out[k] = np.uint64(0) if same else h
+def survey(x, bits, stride, window, ys, ds, pos, hashes):
+    """One streaming pass over a channel, block by block, for everything a
+    clean signal needs; ``bits`` is ``x`` read as ``uint64``.
+
+    * The largest step, in magnitude, and how many steps are exactly zero:
+      a signal is scanned event by event (:func:`signal_pass`) only when a
+      step exceeds the spike limit or is zero. (The largest magnitude is
+      taken over the steps' IEEE bit patterns with the sign cleared, whose
+      order as unsigned integers is their order as numbers; an integer
+      maximum vectorises.)
+    * Every ``stride``-th sample into ``ys`` (samples 0, stride, ...) and
+      the step into every ``stride``-th sample into ``ds`` (samples
+      stride, 2 stride, ...), for the whole-record statistics, and their
+      :func:`moments`.
+    * With ``window`` > 0, the content-defined anchors of the repeated-block
+      rule: samples ``i`` where an xor-shift hash of samples ``i`` and
+      ``i + 1`` has its low bits zero, about one sample in 64. The same
+      content gives the same anchors wherever it lies, so a copy of a
+      stretch has its anchors at the same places as the original (the idea
+      of content-defined chunking: A. Muthitacharoen, B. Chen, D. Mazieres,
+      "A low-bandwidth network file system," SOSP 2001). Each anchor whose
+      ``window`` samples fit is written to ``pos`` with the FNV-1a hash of
+      those samples to ``hashes``, except a window of one value throughout
+      (a held run: its own rule). A block's anchor flags are read as 64-bit
+      words: a word of eight clear flags is skipped at once, and in the
+      others each anchor is found from its lowest set bit (de Bruijn
+      indexing) rather than by testing all eight.
+
+    Returns ``(largest step, zero steps, anchors written, moments)``;
+    anchors -1 when there are more anchors, held windows included, than ``pos`` holds
+    (far more than one in 64: the samples' low bits do not vary).
+    """
+    n = x.shape[0]
+    steps = np.empty(_BLOCK)
+    step_bits = steps.view(np.uint64)
+    flags = np.zeros(_BLOCK, np.uint8)
+    words = flags.view(np.uint64)
+    last = n - window  # the last sample a window can start at
+    cap = pos.shape[0]
+    one = np.uint64(1)
+    largest = np.uint64(0)
+    zeros = 0
+    found = 0
+    seen = 0
+    next_y, ky = 0, 0
+    next_d, kd = stride, 0
+    anchoring = window > 0
+    for a in range(0, n - 1, _BLOCK):
+        b = min(a + _BLOCK, n - 1)
+        # Views from 0, so the compiler sees no negative index (and vectorises).
+        xs = x[a:b + 1]
+        m = xs.shape[0] - 1
+        for i in range(m):
+            steps[i] = xs[i + 1] - xs[i]
+        for i in range(m):
+            u = step_bits[i] & _MAGNITUDE
+            largest = max(largest, u)
+            zeros += u == 0
+        while next_y <= b:
+            ys[ky] = x[next_y]
+            ky += 1
+            next_y += stride
+        while next_d <= b:
+            ds[kd] = x[next_d] - x[next_d - 1]
+            kd += 1
+            next_d += stride
+        if not anchoring:
+            continue
+        bs = bits[a:b + 1]
+        for i in range(m):
+            v = bs[i]
+            h = v ^ (v >> _S29) ^ (bs[i + 1] >> _S17) ^ (v >> _S45)
+            flags[i] = (h & ANCHOR_BITS) == 0
+        for k in range(m, _BLOCK):
+            flags[k] = 0
+        for w in range(_BLOCK // 8):
+            if not anchoring:
+                break
+            v = words[w]
+            while v != 0:
+                low = v & (~v + one)
+                v ^= low
+                i = a + 8 * w + (_BIT_INDEX[(low * _DE_BRUIJN) >> _S58] >> 3)
+                if i > last:
+                    break
+                first = bits[i]
+                h = _FNV_OFFSET
+                differ = np.uint64(0)
+                for j in range(window):
+                    u = bits[i + j]
+                    h = (h ^ u) * _FNV_PRIME
+                    differ |= u ^ first
+                seen += 1
+                if seen > cap:
+                    anchoring = False  # the rest of the pass still runs
+                    break
+                if differ != 0:
+                    pos[found] = i
+                    hashes[found] = h
+                    found += 1
+    if n == 1:
+        ys[0] = x[0]
+    step_bits[0] = largest
+    return steps[0], zeros, (found if seen <= cap else -1), moments(ys, ds, n, stride)
 
 
 @kernel

@@ -65,8 +65,7 @@ from dataclasses import asdict, dataclass, field
 
 import numpy as np
 
-from ._screening_kernels import (anchor_mask, extend_match, mask_positions, signal_pass,
-                                 suspect_steps, window_hashes)
+from ._screening_kernels import extend_match, signal_pass, survey
 from .errors import InvalidParameter
 
 #: Findings, in the order they are reported.
@@ -102,6 +101,9 @@ class Thresholds:
             raise InvalidParameter("flat_fraction must be below 1", field="flat_fraction")
 
 
+_DEFAULT = Thresholds()
+
+
 @dataclass
 class Finding:
     """One fault found in a channel.
@@ -128,13 +130,18 @@ class Finding:
         return asdict(self)
 
 
-def _scan(x, step_limit, spike_samples, held_min):
+def _scan(x, step_limit, spike_samples, held_min, suspect=None):
     """``(spikes (k, 3): first, last, height; clip_top, clip_bottom (runs, 2);
     held (runs, 3): first, last, value; max; min)`` of ``x``; max and min
-    are None when no step is suspect (nothing there needs them)."""
+    are None when no step is suspect (nothing there needs them).
+    ``suspect``: whether a step exceeds the limit or is zero, if already
+    known (:func:`_survey`)."""
     none3 = np.empty((0, 3))
     none2 = np.empty((0, 2), np.int64)
-    if suspect_steps(x, step_limit) == 0:
+    if suspect is None:
+        sv = _survey(x, 0)
+        suspect = sv.largest_step > step_limit or sv.zero_steps > 0
+    if not suspect:
         return none3, none2, none2, none3, None, None
     ns, nr, hi, lo = signal_pass(x, step_limit, spike_samples, none3, none3, False)
     spikes, runs = none3, none3
@@ -157,8 +164,8 @@ _SAMPLE = 10_000
 
 @dataclass(frozen=True)
 class _Stats:
-    """Statistics of a record from ~:data:`_SAMPLE` samples spread over it
-    (one gather, shared by the rules)."""
+    """Statistics of a record from ~:data:`_SAMPLE` samples spread evenly
+    over it (taken in the one pass, :func:`survey`; shared by the rules)."""
 
     step_scale: float     # robust sd of the first differences (MAD / 0.6745)
     trend_change: float   # rise of the least-squares line from start to end
@@ -168,61 +175,78 @@ class _Stats:
     sd_steps: float
 
 
+def _stride(n: int) -> int:
+    """Every how many samples the statistics take one. [samples]"""
+    return max(1, n // _SAMPLE)
+
+
 def _stats(x: np.ndarray) -> _Stats:
-    n = x.shape[0]
-    stride = max(1, n // _SAMPLE)
-    y = x[::stride]
-    d = x[stride::stride] - x[stride - 1:-1:stride] if stride > 1 else np.diff(x)
+    """:class:`_Stats` of a record (from the one pass, :func:`_survey`)."""
+    return _survey(x, 0).stats
+
+
+def _stats_of(y: np.ndarray, d: np.ndarray, trend_change: float, sd_y: float,
+              sd_d: float) -> _Stats:
+    """:class:`_Stats` from a record's samples ``y``, steps ``d`` and their
+    :func:`moments`. Order statistics by numpy's selection (np.partition),
+    not a sort: its vectorised partition costs a tenth of a compiled
+    quickselect, whose branches a fresh signal mispredicts."""
     scale = 0.0
     if d.shape[0]:
-        # Medians by selection (np.partition), not a sort: the upper median.
-        m = d.shape[0] // 2
+        m = d.shape[0] // 2  # the upper median
         med = np.partition(d, m)[m]
         scale = float(np.partition(np.abs(d - med), m)[m]) / 0.6745
     k = y.shape[0]
     lo_k, hi_k = int(round(0.01 * (k - 1))), int(round(0.99 * (k - 1)))
     part = np.partition(y, [lo_k, hi_k])
-    i = np.arange(0, n, stride, dtype=np.float64)[:k]
-    ic = i - i.mean()
-    denom = float(np.dot(ic, ic))
-    slope = float(np.dot(ic, y - y.mean()) / denom) if denom > 0 else 0.0
-    return _Stats(scale, slope * (n - 1), float(part[lo_k]), float(part[hi_k]),
-                  float(np.std(y)), float(np.std(d)) if d.shape[0] else 0.0)
+    return _Stats(scale, float(trend_change), float(part[lo_k]), float(part[hi_k]),
+                  float(sd_y), float(sd_d))
 
 
 #: Samples hashed from each anchor of the repeated-block rule.
 _WINDOW = 8
 
 
-def _repeats(x: np.ndarray, min_samples: int) -> np.ndarray:
+@dataclass(frozen=True)
+class _Survey:
+    """What one streaming pass over a record finds (:func:`survey`)."""
+
+    largest_step: float   # the largest step in magnitude
+    zero_steps: int       # steps of exactly zero
+    stats: _Stats         # whole-record statistics
+    anchors: np.ndarray | None  # anchors of the repeated-block rule, None when
+    hashes: np.ndarray | None   # it cannot sample the signal (low bits fixed)
+
+
+def _survey(x: np.ndarray, window: int) -> _Survey:
+    """One pass over ``x`` (:func:`survey`): its largest and zero steps, its
+    statistics and, with ``window`` > 0, the anchors and window hashes of
+    the repeated-block rule."""
+    n = x.shape[0]
+    stride = _stride(n)
+    ys, ds = np.empty((n - 1) // stride + 1), np.empty((n - 1) // stride)
+    cap = n // 8 if window > 0 else 0
+    anchors, hashes = np.empty(cap, np.int64), np.empty(cap, np.uint64)
+    largest, zeros, found, moments = survey(x, x.view(np.uint64), stride, window, ys, ds,
+                                            anchors, hashes)
+    return _Survey(float(largest), int(zeros), _stats_of(ys, ds, *moments),
+                   anchors[:found] if found >= 0 else None,
+                   hashes[:found] if found >= 0 else None)
+
+
+def _repeats(x: np.ndarray, min_samples: int, anchors, hashes) -> np.ndarray:
     """Stretches of at least ``min_samples`` samples that repeat an earlier
     stretch bit for bit: rows ``(first, last, source_first)`` of each copy,
-    in order. Anchors (:func:`anchor_mask`) with equal window hashes are
+    in order. Anchors (:func:`survey`) with equal window hashes are
     candidate pairs; each is checked and grown sample by sample
     (:func:`extend_match`), so a hash collision never makes a finding."""
-    n = x.shape[0]
-    window = int(min(_WINDOW, min_samples))
     none = np.empty((0, 3), np.int64)
-    if n < 2 * min_samples:
+    if anchors is None or anchors.shape[0] < 2:
         return none
-    bits = x.view(np.uint64)
-    mask = np.zeros(-(-n // 8) * 8, np.bool_)  # whole 64-bit words
-    anchor_mask(bits, mask)
-    mask[n - window + 1:] = False  # a window must fit
-    anchors = np.empty(n // 8, np.int64)
-    found = mask_positions(mask.view(np.uint64), anchors)
-    if found < 0:
-        # Far more anchors than one in 64: the samples' low bits do not vary
-        # (a coarse or integer signal); the rule cannot sample it fairly.
-        return none
-    anchors = anchors[:found]
-    hashes = np.empty(anchors.shape[0], np.uint64)
-    window_hashes(bits, anchors, window, hashes)
-    keep = hashes != 0
-    anchors, hashes = anchors[keep], hashes[keep]
     srt = np.sort(hashes)
     if not np.any(srt[1:] == srt[:-1]):
         return none  # no two windows alike: the common case, no pairing needed
+    bits = x.view(np.uint64)
     order = np.argsort(hashes, kind="stable")  # equal hashes in sample order
     h, pos = hashes[order], anchors[order]
     same = np.flatnonzero(h[1:] == h[:-1])
@@ -284,13 +308,15 @@ def screen(samples, sample_rate_hz: float | None = None,
     list of Finding
         In the order of :data:`FINDING_KINDS`; empty for a clean signal.
     """
-    th = thresholds or Thresholds()
+    th = thresholds or _DEFAULT
     x = np.ascontiguousarray(samples, dtype=np.float64)
     n = x.shape[0]
     out: list[Finding] = []
     if n < 3:
         return out
-    st = _stats(x)
+    min_repeat = int(th.repeat_samples)
+    sv = _survey(x, int(min(_WINDOW, min_repeat)) if n >= 2 * min_repeat else 0)
+    st = sv.stats
     scale = st.step_scale
     # A quantised signal can have a zero MAD of its steps; one quantum then.
     if scale == 0.0:
@@ -298,8 +324,9 @@ def screen(samples, sample_rate_hz: float | None = None,
         steps = steps[steps > 0]
         scale = float(steps.min()) if steps.size else 0.0
     limit = th.spike_sigma * scale if scale > 0 else math.inf
-    spikes, top, bottom, held, hi, lo = _scan(x, limit, int(th.spike_samples),
-                                              int(th.held_samples))
+    spikes, top, bottom, held, hi, lo = _scan(
+        x, limit, int(th.spike_samples), int(th.held_samples),
+        sv.largest_step > limit or sv.zero_steps > 0)
     if hi is not None and hi == lo:
         return [Finding("dead", 0, n - 1, 1, 0.0, f"every sample is {hi:g}: the channel is "
                         "dead or not connected")]
@@ -346,7 +373,7 @@ def screen(samples, sample_rate_hz: float | None = None,
                     + (" of exactly 0" if kind == "zeros" else "")
                     + ": a drop-out or a logger holding its last value",
                     [[int(a), int(b)] for a, b, _ in rows[:_MAX_LISTED]]))
-    rep = _repeats(x, int(th.repeat_samples))
+    rep = _repeats(x, min_repeat, sv.anchors, sv.hashes)
     if rep.shape[0]:
         length = rep[:, 1] - rep[:, 0] + 1
         k = int(np.argmax(length))
@@ -418,7 +445,7 @@ def clean(samples, findings: list[Finding],
             events = f.events if len(f.events) == f.count else None
             if events is None:
                 # More spikes than listed: find them all again on this signal.
-                th = thresholds or Thresholds()
+                th = thresholds or _DEFAULT
                 scale = _robust_step_scale(x)
                 spikes = _scan(x, th.spike_sigma * scale, th.spike_samples,
                                th.held_samples)[0]

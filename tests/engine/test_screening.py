@@ -197,3 +197,63 @@ def test_the_damage_share_of_a_repeated_buffer():
     r = assess_history(x, EN71)
     damage_shares(found, table.start_index, table.end_index, r.damage_per_cycle)
     assert 0.3 < found[0].damage_share < 0.7
+
+
+def _fnv1a(words):
+    """FNV-1a over 64-bit words (the published offset basis and prime)."""
+    h = 0xCBF29CE484222325
+    for w in words:
+        h = ((h ^ int(w)) * 0x100000001B3) % (1 << 64)
+    return h
+
+
+@pytest.mark.parametrize("n", [5, 2047, 2049, 4096 + 7, 30_011, 100_003])
+def test_the_one_pass_survey_equals_its_definitions(n):
+    # The single pass (engine/_screening_kernels.survey) against each thing
+    # it stands for, computed separately with numpy: the largest and zero
+    # steps, the statistics' samples, and the repeated-block rule's anchors
+    # and window hashes, over lengths that end inside, at and across its
+    # blocks of 2048 samples.
+    from service.engine.screening import _stats, _survey
+
+    x = narrow_band(n, seed=n)
+    x[n // 3: n // 3 + 40] = x[n // 3]             # a held window or several
+    x[n // 2] = x[n // 2 - 1]                      # a zero step
+    sv = _survey(x, 8)
+    steps = np.diff(x)
+    assert sv.largest_step == np.abs(steps).max()
+    assert sv.zero_steps == int(np.sum(steps == 0))
+    # The statistics, from every stride-th sample and the step into it.
+    stride = max(1, n // 10_000)
+    y, d = x[::stride], np.diff(x)[stride - 1::stride]
+    st = sv.stats
+    m = d.size // 2
+    assert st.step_scale == np.sort(np.abs(d - np.sort(d)[m]))[m] / 0.6745  # upper medians
+    k = y.size
+    assert st.p1 == np.sort(y)[round(0.01 * (k - 1))]
+    assert st.p99 == np.sort(y)[round(0.99 * (k - 1))]
+    slope = np.polyfit(np.arange(0, n, stride)[:k], y, 1)[0] if k > 1 else 0.0
+    assert st.trend_change == pytest.approx(slope * (n - 1), rel=1e-9, abs=1e-9)
+    assert st.sd_signal == pytest.approx(np.std(y), rel=1e-12)
+    assert st.sd_steps == pytest.approx(np.std(d), rel=1e-12)
+    assert st == _stats(x)
+    b = x.view(np.uint64)
+    h = b[:-1] ^ (b[:-1] >> np.uint64(29)) ^ (b[1:] >> np.uint64(17)) ^ (b[:-1] >> np.uint64(45))
+    flagged = np.flatnonzero((h & np.uint64(63)) == 0)
+    flagged = flagged[flagged <= n - 8]
+    expected = [i for i in flagged if not np.all(b[i:i + 8] == b[i])]
+    assert sv.anchors.tolist() == expected
+    assert sv.hashes.tolist() == [_fnv1a(b[i:i + 8]) for i in expected]
+
+
+def test_a_signal_the_repeat_rule_cannot_sample_is_still_screened_for_spikes():
+    # Coarse integer samples (a converter's counts, +-20) do not vary in
+    # their low bits, so the repeated-block rule's anchors overflow and it
+    # stands aside; the same pass must still see the spike.
+    x = np.round(narrow_band(20_000, seed=9) / 4)
+    x[5000] += 300.0
+    from service.engine.screening import _survey
+
+    assert _survey(x, 8).anchors is None
+    assert "spike" in kinds(screen(x, RATE))
+
