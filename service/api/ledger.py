@@ -18,7 +18,8 @@ from service.store import sqlite
 from . import created, data_dir, db, json_object, uploads
 from .access import project
 from .assessments import _csv, _format
-from .histories import discard, page_args, receive_body
+from .bodies import discard, receive_body
+from .histories import page_args
 from .library import NameTaken, _NAME
 from .problems import ApiProblem, NotFound
 

@@ -21,7 +21,8 @@ from service.store import parquet, sqlite
 from . import created, data_dir, db, json_object
 from .access import project
 from .assessments import JOB_INPUTS, _csv, _format, admit_job, job_resource
-from .histories import page_args, spool_body
+from .bodies import spool_body
+from .histories import page_args
 from .problems import ApiProblem, InvalidUpload, MalformedBody, NotFound
 
 bp = Blueprint("superpositions", __name__)

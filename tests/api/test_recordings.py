@@ -195,6 +195,37 @@ def test_unreadable_files_name_what_is_wrong_and_store_nothing(client, app, body
     assert after == before
 
 
+@pytest.mark.parametrize("key", [None, "retry-7"])
+def test_a_body_shorter_than_its_declared_length_is_malformed_and_stores_nothing(
+        tmp_path, key):
+    # Without an idempotency key a CSV is parsed as it arrives; with one it
+    # is received whole first. Either way a body that ends before its
+    # declared length is a 400 and nothing is kept. (The app without the
+    # contract check of the fixture, which reads the short body again.)
+    from service.api import create_app
+
+    app = create_app({"DATA_DIR": str(tmp_path / "data"), "TESTING": True})
+    client = app.test_client()
+    t, g1, g2 = signals(n=3000)
+    body = ("time_s,g1,g2\n" + "".join(f"{a},{b},{c}\n" for a, b, c in zip(t, g1, g2))
+            ).encode()
+    folder = Path(app.config["DATA_DIR"]) / "histories"
+    before = sorted(p.name for p in folder.iterdir()) if folder.exists() else []
+    headers = {"Idempotency-Key": key} if key else {}
+    r = client.post("/v1/histories?unit=MPa", data=body, content_type="text/csv",
+                    headers=headers,
+                    environ_overrides={"CONTENT_LENGTH": str(len(body) + 5000)})
+    assert_problem(r, 400, "malformed-body")
+    assert f"ended after {len(body)} of {len(body) + 5000} bytes" in r.get_json()["detail"]
+    after = sorted(p.name for p in folder.iterdir()) if folder.exists() else []
+    assert after == before
+    # The whole body, declared rightly, is stored.
+    r = client.post("/v1/histories?unit=MPa", data=body, content_type="text/csv",
+                    headers=headers)
+    assert r.status_code == 201 and r.get_json()["sample_count"] == 3000
+    app.extensions["cycleledger.jobs"].shutdown(wait=True)
+
+
 def _spiky(n=4000, seed=2):
     rng = np.random.default_rng(seed)
     x = 80 * np.sin(np.arange(n) / 40.0) + rng.normal(0, 0.5, n)
@@ -393,12 +424,12 @@ def test_a_kept_receive_buffer_never_shows_one_body_in_another(tmp_path):
     # the buffer held before (a longer one first, then shorter ones).
     import weakref
 
-    from service.api import histories
+    from service.api import bodies
     from tests.api.conftest import make_app
 
     sends = [b for n, seed in ((110_000, 5), (90_000, 6), (80_000, 7))
              for b in _large_bodies(tmp_path, n, seed)]
-    assert min(len(b[1]) for b in sends) >= histories.SpareBuffer.SMALLEST
+    assert min(len(b[1]) for b in sends) >= bodies.SpareBuffer.SMALLEST
     answers, kept = {}, []
     for label, mb in (("memory", 256), ("file", 0)):
         app = make_app(tmp_path / label, MEMORY_BODY_MB=mb)
@@ -414,7 +445,7 @@ def test_a_kept_receive_buffer_never_shows_one_body_in_another(tmp_path):
                             stored(c, j["id"])))
                 if label == "memory":
                     # Weakly: a strong reference would itself keep it from reuse.
-                    kept.append(weakref.ref(histories.SPARE._array))
+                    kept.append(weakref.ref(bodies.SPARE._array))
             answers[label] = got
         finally:
             app.extensions["cycleledger.jobs"].shutdown(wait=True)
@@ -430,7 +461,7 @@ def test_a_kept_receive_buffer_never_shows_one_body_in_another(tmp_path):
 def test_the_spare_buffer_is_kept_only_when_nothing_reads_it():
     import weakref
 
-    from service.api.histories import SpareBuffer
+    from service.api.bodies import SpareBuffer
 
     spare, n = SpareBuffer(), SpareBuffer.SMALLEST
     first = spare.take(2 * n)
