@@ -159,6 +159,29 @@ def test_retries_count_once_and_answer_the_same(client):
                    409, "sequence-conflict")
 
 
+def test_csv_block_retries_are_known_by_their_whole_content(client):
+    # A CSV block is parsed as it arrives; its content hash (a retry is the
+    # same bytes) must still cover every byte: the same CSV again answers
+    # the same, one that differs only in its last row conflicts.
+    setup_asset(client)
+    x = np.round(np.random.default_rng(2).standard_normal(40_000) * 80, 3)
+
+    def csv_post(seq, values):
+        body = ("a\n" + "\n".join(f"{v:.3f}" for v in values) + "\n").encode()
+        return client.post(f"/v1/assets/arm/blocks?seq={seq}&sample_rate_hz=100", data=body,
+                           content_type="text/csv")
+
+    first = csv_post(1, x)
+    assert first.status_code == 201, first.get_json()
+    again = csv_post(1, x)
+    assert again.status_code == 201 and again.get_json() == first.get_json()
+    last_differs = x.copy()
+    last_differs[-1] += 1.0
+    assert_problem(csv_post(1, last_differs), 409, "sequence-conflict")
+    p = client.get("/v1/assets/arm/points/a").get_json()
+    assert p["damage_if_ended"] == pytest.approx(whole(x).damage, rel=1e-12)
+
+
 def test_gaps_and_late_blocks_need_consent(client):
     setup_asset(client)
     rng = np.random.default_rng(2)
