@@ -185,24 +185,6 @@ def _stats(x: np.ndarray) -> _Stats:
     return _survey(x, 0).stats
 
 
-def _stats_of(y: np.ndarray, d: np.ndarray, trend_change: float, sd_y: float,
-              sd_d: float) -> _Stats:
-    """:class:`_Stats` from a record's samples ``y``, steps ``d`` and their
-    :func:`moments`. Order statistics by numpy's selection (np.partition),
-    not a sort: its vectorised partition costs a tenth of a compiled
-    quickselect, whose branches a fresh signal mispredicts."""
-    scale = 0.0
-    if d.shape[0]:
-        m = d.shape[0] // 2  # the upper median
-        med = np.partition(d, m)[m]
-        scale = float(np.partition(np.abs(d - med), m)[m]) / 0.6745
-    k = y.shape[0]
-    lo_k, hi_k = int(round(0.01 * (k - 1))), int(round(0.99 * (k - 1)))
-    part = np.partition(y, [lo_k, hi_k])
-    return _Stats(scale, float(trend_change), float(part[lo_k]), float(part[hi_k]),
-                  float(sd_y), float(sd_d))
-
-
 #: Samples hashed from each anchor of the repeated-block rule.
 _WINDOW = 8
 
@@ -227,9 +209,11 @@ def _survey(x: np.ndarray, window: int) -> _Survey:
     ys, ds = np.empty((n - 1) // stride + 1), np.empty((n - 1) // stride)
     cap = n // 8 if window > 0 else 0
     anchors, hashes = np.empty(cap, np.int64), np.empty(cap, np.uint64)
-    largest, zeros, found, moments = survey(x, x.view(np.uint64), stride, window, ys, ds,
-                                            anchors, hashes)
-    return _Survey(float(largest), int(zeros), _stats_of(ys, ds, *moments),
+    k = ys.shape[0]
+    largest, zeros, found, stats = survey(
+        x, x.view(np.uint64), stride, window, ys, ds, int(round(0.01 * (k - 1))),
+        int(round(0.99 * (k - 1))), anchors, hashes)
+    return _Survey(float(largest), int(zeros), _Stats(*stats),
                    anchors[:found] if found >= 0 else None,
                    hashes[:found] if found >= 0 else None)
 

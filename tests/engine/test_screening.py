@@ -257,3 +257,26 @@ def test_a_signal_the_repeat_rule_cannot_sample_is_still_screened_for_spikes():
     assert _survey(x, 8).anchors is None
     assert "spike" in kinds(screen(x, RATE))
 
+
+
+@pytest.mark.parametrize("case", ["normal", "quantised", "constant", "two_values", "wide",
+                                  "narrow", "sorted", "tiny"])
+def test_order_statistics_are_the_sorted_values(case):
+    # The histogram selection behind the statistics (engine/_screening_kernels
+    # .order_statistics) against numpy's sort, on the value sets that trouble
+    # a histogram: one bin for all, a range that overflows, a range of a few
+    # ulps, heavy ties.
+    from service.engine._screening_kernels import order_statistics
+
+    rng = np.random.default_rng(11)
+    n = 10_001
+    a = {"normal": rng.normal(20, 40, n), "quantised": np.round(rng.normal(0, 3, n)),
+         "constant": np.full(n, -7.25), "two_values": rng.integers(0, 2, n) * 1e-300,
+         "wide": rng.choice([-1.7e308, 1.7e308, 0.0, 1.0], n),
+         "narrow": 1.0 + rng.integers(0, 5, n) * np.finfo(float).eps,
+         "sorted": np.arange(n, dtype=float), "tiny": rng.normal(0, 1, 3)}[case]
+    ranks = sorted({0, 1, a.size // 100, a.size // 2, a.size - 1 - a.size // 100,
+                    a.size - 1})
+    out = np.empty(len(ranks))
+    order_statistics(a.copy(), np.array(ranks), out)
+    assert out.tolist() == np.sort(a)[ranks].tolist()
