@@ -10,7 +10,7 @@ from service.store import parquet, sqlite
 
 from . import created, data_dir, db, idempotency, uploads
 from .access import project
-from .bodies import discard, receive_body, whole
+from .bodies import discard, receive_body
 from .problems import NotFound
 
 bp = Blueprint("histories", __name__)
@@ -38,10 +38,8 @@ def upload():
     idem_key = idempotency.key()
     folder = data_dir() / parquet.HISTORIES
     # The body's hash only serves a retry with a key: none is taken without.
-    # Without one, the body is read as it arrives (a CSV parsed meanwhile);
-    # with one, its hash must be known before anything is parsed.
     digest = hashlib.sha256() if idem_key is not None else None
-    body = receive_body(folder, digest, arriving=idem_key is None)
+    body = receive_body(folder, digest)
     try:
         request_hash = idempotency.request_hash(digest.hexdigest()) if digest else ""
         again = idempotency.replay(idem_key, request_hash)
@@ -50,7 +48,7 @@ def upload():
         up = uploads.parse(body, request.content_type, request.args.to_dict())
         hid = sqlite.new_id("h")
         if up.stored_as_sent:
-            rel = parquet.adopt(data_dir(), parquet.HISTORIES, hid, whole(body))
+            rel = parquet.adopt(data_dir(), parquet.HISTORIES, hid, body)
         else:
             rel = parquet.write_columns(data_dir(), parquet.HISTORIES, hid, up.channels)
     finally:

@@ -18,7 +18,7 @@ from service.store import sqlite
 from . import created, data_dir, db, json_object, uploads
 from .access import project
 from .assessments import _csv, _format
-from .bodies import discard, receive_body, whole
+from .bodies import discard, receive_body
 from .histories import page_args
 from .library import NameTaken, _NAME
 from .problems import ApiProblem, NotFound
@@ -199,18 +199,15 @@ def post_block(asset: str):
     con = db()
     registered = ledger.registered_channels(sql.list_points(con, project(), asset_id))
     # The content hash (a retry carries the same bytes) is taken while the
-    # body is received (a CSV is parsed meanwhile), so it costs no second
-    # pass over the bytes.
+    # body is received, so it costs no second pass over the bytes.
     digest = hashlib.sha256()  # hardware-accelerated here: faster than blake2b
     t0 = time.perf_counter()
-    body = receive_body(data_dir() / ledger.BLOCKS, digest, arriving=True)
+    body = receive_body(data_dir() / ledger.BLOCKS, digest)
     t1 = time.perf_counter()
     try:
         params = {k: v for k, v in request.args.items()
                   if k not in ("seq", "recorded_at", "allow_gap", "allow_late")}
         up = uploads.parse(body, request.content_type, params, registered)
-        # A CSV was parsed as it arrived: all of it is in, and hashed, now.
-        data = whole(body)
         ledger.check_block(con, asset, up, {n: {"unit": u} for n, (u, _) in registered.items()})
         t2 = time.perf_counter()
 
@@ -219,7 +216,7 @@ def post_block(asset: str):
 
         try:
             answer, _replayed = ledger.post_block(
-                con, data_dir(), asset_id, seq, up, data, recorded_at=recorded_at,
+                con, data_dir(), asset_id, seq, up, body, recorded_at=recorded_at,
                 idempotency_key=key, content_hash=digest.hexdigest(), allow_gap=allow_gap,
                 allow_late=allow_late, respond=respond)
         except ledger.LedgerConflict as exc:

@@ -46,10 +46,8 @@ def check_media_type(content_type: str | None) -> str:
 
 
 def parse(body, content_type: str, params: dict, registered: dict | None = None) -> Upload:
-    """Parse and validate an upload: ``body`` is its bytes (held in memory),
-    the body still arriving (:class:`~service.recordings.Arriving`: a CSV
-    is parsed as it arrives) or the file it was spooled to; ``params`` are
-    the query parameters. The
+    """Parse and validate an upload: ``body`` is its bytes (held in memory)
+    or the file it was spooled to; ``params`` are the query parameters. The
     format comes from the first bytes (a gzip body is unpacked first, into
     memory while it stays within the memory limit); Parquet and Arrow files
     are memory-mapped."""
@@ -60,8 +58,6 @@ def parse(body, content_type: str, params: dict, registered: dict | None = None)
         raise InvalidUpload("the upload is empty", field="body")
     params = dict(params)
     fmt = recordings.detect(recordings.head(body), mime)
-    if fmt != "csv" and isinstance(body, recordings.Arriving):
-        body = body.whole()  # only a CSV is read as it arrives
     source, unpacked = body, None
     try:
         if fmt == "gzip":
@@ -96,9 +92,7 @@ def _size(body) -> int:
 
     from service import recordings
 
-    if recordings.in_memory(body) or isinstance(body, recordings.Arriving):
-        return len(body)
-    return os.path.getsize(body)
+    return len(body) if recordings.in_memory(body) else os.path.getsize(body)
 
 
 def memory_body_limit() -> int:

@@ -8,13 +8,11 @@ of acquisition systems (``csv_dialect.py``), Parquet and Arrow IPC (pyarrow),
 ASAM MDF 4 (``mdf.py``, asammdf) and HDF5 (``hdf5.py``, h5py); a gzip file
 is unpacked (streamed, to a temporary file beside it) and recognised again.
 
-A recording is read from a file on disk (a :class:`~pathlib.Path`), from
+A recording is read from a file on disk (a :class:`~pathlib.Path`) or from
 bytes held in memory (a request body small enough to keep there: the
 service keeps bodies up to a limit in memory because writing them to disk
 and reading them back costs more than parsing them, see
-``tests/benchmarks/bench_inputs.py``), or from a body still arriving (a
-CSV is parsed as it arrives; any other format once it is all in):
-``sources.py``.
+``tests/benchmarks/bench_inputs.py``): ``sources.py``.
 
 A :class:`Recording` is columns of float64 samples with the unit each is
 spelt in (if the file says), the time column if there is one (in seconds)
@@ -40,7 +38,7 @@ from . import sources
 from .sources import arrow_input, head, in_memory
 
 # Where a recording is read from (sources.py), also reached from here.
-Arriving, BytesReader, binary = sources.Arriving, sources.BytesReader, sources.binary
+BytesReader, binary = sources.BytesReader, sources.binary
 
 #: Names a time column goes by when the request does not name one (the
 #: bracketed unit removed, compared without case).
@@ -167,11 +165,8 @@ def read(source, media_type: str | None = None, options: dict | None = None) -> 
     ``time_column``. A gzip file must be unpacked first (:func:`unpacked`).
     """
     options = options or {}
-    if not (in_memory(source) or isinstance(source, Arriving)):
-        source = Path(source)
+    source = source if in_memory(source) else Path(source)
     fmt = detect(head(source), media_type)
-    if fmt != "csv" and isinstance(source, Arriving):
-        source = source.whole()  # only a CSV is read as it arrives
     if fmt == "gzip":
         raise RecordingError("unpack gzip files first (recordings.unpacked)")
     if fmt == "csv":
@@ -217,8 +212,6 @@ def _read_csv(source, options: dict) -> Recording:
         raise UnreadableRecording("the CSV must be UTF-8 (or ASCII) text: save it as UTF-8 CSV"
                              ) from None
     except pa.ArrowInvalid as exc:
-        if isinstance(source, Arriving):
-            source = source.whole()  # read again, as text
         bad = _bad_cell(source, dialect) if "conversion error" in str(exc) else None
         if bad is not None:
             name, row, cell = bad

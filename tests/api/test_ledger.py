@@ -160,9 +160,9 @@ def test_retries_count_once_and_answer_the_same(client):
 
 
 def test_csv_block_retries_are_known_by_their_whole_content(client):
-    # A CSV block is parsed as it arrives; its content hash (a retry is the
-    # same bytes) must still cover every byte: the same CSV again answers
-    # the same, one that differs only in its last row conflicts.
+    # A CSV block's content hash (a retry is the same bytes, taken as the
+    # body arrives) covers every byte: the same CSV again answers the same,
+    # one that differs only in its last row conflicts.
     setup_asset(client)
     x = np.round(np.random.default_rng(2).standard_normal(40_000) * 80, 3)
 

@@ -198,10 +198,10 @@ def test_unreadable_files_name_what_is_wrong_and_store_nothing(client, app, body
 @pytest.mark.parametrize("key", [None, "retry-7"])
 def test_a_body_shorter_than_its_declared_length_is_malformed_and_stores_nothing(
         tmp_path, key):
-    # Without an idempotency key a CSV is parsed as it arrives; with one it
-    # is received whole first. Either way a body that ends before its
-    # declared length is a 400 and nothing is kept. (The app without the
-    # contract check of the fixture, which reads the short body again.)
+    # With or without an idempotency key (whose hash is taken as the body
+    # arrives), a body that ends before its declared length is a 400 that
+    # says so, and nothing is kept. (The app without the contract check of
+    # the fixture, which reads the short body again.)
     from service.api import create_app
 
     app = create_app({"DATA_DIR": str(tmp_path / "data"), "TESTING": True})
