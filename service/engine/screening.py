@@ -65,7 +65,7 @@ from dataclasses import asdict, dataclass, field
 
 import numpy as np
 
-from ._screening_kernels import extend_match, signal_pass, survey
+from ._screening_kernels import copies, signal_pass, survey
 from .errors import InvalidParameter
 
 #: Findings, in the order they are reported.
@@ -139,7 +139,7 @@ def _scan(x, step_limit, spike_samples, held_min, suspect=None):
     none3 = np.empty((0, 3))
     none2 = np.empty((0, 2), np.int64)
     if suspect is None:
-        sv = _survey(x, 0)
+        sv = _survey(x, False)
         suspect = sv.largest_step > step_limit or sv.zero_steps > 0
     if not suspect:
         return none3, none2, none2, none3, None, None
@@ -182,11 +182,7 @@ def _stride(n: int) -> int:
 
 def _stats(x: np.ndarray) -> _Stats:
     """:class:`_Stats` of a record (from the one pass, :func:`_survey`)."""
-    return _survey(x, 0).stats
-
-
-#: Samples hashed from each anchor of the repeated-block rule.
-_WINDOW = 8
+    return _survey(x, False).stats
 
 
 @dataclass(frozen=True)
@@ -196,55 +192,49 @@ class _Survey:
     largest_step: float   # the largest step in magnitude
     zero_steps: int       # steps of exactly zero
     stats: _Stats         # whole-record statistics
-    anchors: np.ndarray | None  # anchors of the repeated-block rule, None when
-    hashes: np.ndarray | None   # it cannot sample the signal (low bits fixed)
+    anchors: np.ndarray | None  # anchors of the repeated-block rule and their
+    keys: np.ndarray | None     # keys, None when it cannot sample the signal
 
 
-def _survey(x: np.ndarray, window: int) -> _Survey:
+def _survey(x: np.ndarray, anchoring: bool) -> _Survey:
     """One pass over ``x`` (:func:`survey`): its largest and zero steps, its
-    statistics and, with ``window`` > 0, the anchors and window hashes of
-    the repeated-block rule."""
+    statistics and, with ``anchoring``, the anchors and keys of the
+    repeated-block rule."""
     n = x.shape[0]
     stride = _stride(n)
     ys, ds = np.empty((n - 1) // stride + 1), np.empty((n - 1) // stride)
-    cap = n // 8 if window > 0 else 0
-    anchors, hashes = np.empty(cap, np.int64), np.empty(cap, np.uint64)
+    cap = n // 8 if anchoring else 0
+    anchors, keys = np.empty(cap, np.int64), np.empty(cap, np.uint64)
     k = ys.shape[0]
     largest, zeros, found, stats = survey(
-        x, x.view(np.uint64), stride, window, ys, ds, int(round(0.01 * (k - 1))),
-        int(round(0.99 * (k - 1))), anchors, hashes)
+        x, x.view(np.uint64), stride, anchoring, ys, ds, int(round(0.01 * (k - 1))),
+        int(round(0.99 * (k - 1))), anchors, keys)
     return _Survey(float(largest), int(zeros), _Stats(*stats),
                    anchors[:found] if found >= 0 else None,
-                   hashes[:found] if found >= 0 else None)
+                   keys[:found] if found >= 0 else None)
 
 
-def _repeats(x: np.ndarray, min_samples: int, anchors, hashes) -> np.ndarray:
+def _repeats(x: np.ndarray, min_samples: int, anchors, keys) -> np.ndarray:
     """Stretches of at least ``min_samples`` samples that repeat an earlier
     stretch bit for bit: rows ``(first, last, source_first)`` of each copy,
-    in order. Anchors (:func:`survey`) with equal window hashes are
-    candidate pairs; each is checked and grown sample by sample
-    (:func:`extend_match`), so a hash collision never makes a finding."""
+    in order. Anchors (:func:`survey`) with equal keys are candidate pairs,
+    each anchor against the one before it with its key (the later is the
+    copy); each pair is checked and grown sample by sample (:func:`copies`),
+    so equal keys by chance never make a finding."""
     none = np.empty((0, 3), np.int64)
     if anchors is None or anchors.shape[0] < 2:
         return none
-    srt = np.sort(hashes)
+    srt = np.sort(keys)
     if not np.any(srt[1:] == srt[:-1]):
-        return none  # no two windows alike: the common case, no pairing needed
-    bits = x.view(np.uint64)
-    order = np.argsort(hashes, kind="stable")  # equal hashes in sample order
-    h, pos = hashes[order], anchors[order]
-    same = np.flatnonzero(h[1:] == h[:-1])
-    # Each anchor against the previous one with its hash: the later is the copy.
-    pairs = sorted(zip(pos[same + 1].tolist(), pos[same].tolist()))
-    events, covered = [], -1
-    for b, a in pairs:
-        if b <= covered:
-            continue
-        back, fwd = extend_match(bits, a, b, covered + 1)
-        if back + fwd >= min_samples:
-            events.append((b - back, b + fwd - 1, a - back))
-            covered = b + fwd - 1
-    return np.array(events, np.int64).reshape(-1, 3)
+        return none  # no two anchors alike: the common case, no pairing needed
+    order = np.argsort(keys, kind="stable")  # equal keys in sample order
+    key, pos = keys[order], anchors[order]
+    same = np.flatnonzero(key[1:] == key[:-1])
+    later, earlier = pos[same + 1], pos[same]
+    by_later = np.lexsort((earlier, later))
+    out = np.empty((same.shape[0], 3), np.int64)
+    m = copies(x.view(np.uint64), later[by_later], earlier[by_later], int(min_samples), out)
+    return out[:m]
 
 
 def _samples_per_reversal(st: _Stats) -> float:
@@ -299,7 +289,7 @@ def screen(samples, sample_rate_hz: float | None = None,
     if n < 3:
         return out
     min_repeat = int(th.repeat_samples)
-    sv = _survey(x, int(min(_WINDOW, min_repeat)) if n >= 2 * min_repeat else 0)
+    sv = _survey(x, n >= 2 * min_repeat)
     st = sv.stats
     scale = st.step_scale
     # A quantised signal can have a zero MAD of its steps; one quantum then.
@@ -357,7 +347,7 @@ def screen(samples, sample_rate_hz: float | None = None,
                     + (" of exactly 0" if kind == "zeros" else "")
                     + ": a drop-out or a logger holding its last value",
                     [[int(a), int(b)] for a, b, _ in rows[:_MAX_LISTED]]))
-    rep = _repeats(x, min_repeat, sv.anchors, sv.hashes)
+    rep = _repeats(x, min_repeat, sv.anchors, sv.keys)
     if rep.shape[0]:
         length = rep[:, 1] - rep[:, 0] + 1
         k = int(np.argmax(length))

@@ -199,27 +199,19 @@ def test_the_damage_share_of_a_repeated_buffer():
     assert 0.3 < found[0].damage_share < 0.7
 
 
-def _fnv1a(words):
-    """FNV-1a over 64-bit words (the published offset basis and prime)."""
-    h = 0xCBF29CE484222325
-    for w in words:
-        h = ((h ^ int(w)) * 0x100000001B3) % (1 << 64)
-    return h
-
-
 @pytest.mark.parametrize("n", [5, 2047, 2049, 4096 + 7, 30_011, 100_003])
 def test_the_one_pass_survey_equals_its_definitions(n):
     # The single pass (engine/_screening_kernels.survey) against each thing
     # it stands for, computed separately with numpy: the largest and zero
-    # steps, the statistics' samples, and the repeated-block rule's anchors
-    # and window hashes, over lengths that end inside, at and across its
-    # blocks of 2048 samples.
+    # steps, the statistics, and the repeated-block rule's anchors and their
+    # keys, over lengths that end inside, at and across its blocks of 2048
+    # samples.
     from service.engine.screening import _stats, _survey
 
     x = narrow_band(n, seed=n)
     x[n // 3: n // 3 + 40] = x[n // 3]             # a held window or several
     x[n // 2] = x[n // 2 - 1]                      # a zero step
-    sv = _survey(x, 8)
+    sv = _survey(x, True)
     steps = np.diff(x)
     assert sv.largest_step == np.abs(steps).max()
     assert sv.zero_steps == int(np.sum(steps == 0))
@@ -240,10 +232,16 @@ def test_the_one_pass_survey_equals_its_definitions(n):
     b = x.view(np.uint64)
     h = b[:-1] ^ (b[:-1] >> np.uint64(29)) ^ (b[1:] >> np.uint64(17)) ^ (b[:-1] >> np.uint64(45))
     flagged = np.flatnonzero((h & np.uint64(63)) == 0)
-    flagged = flagged[flagged <= n - 8]
-    expected = [i for i in flagged if not np.all(b[i:i + 8] == b[i])]
+    expected = [i for i in flagged if b[i] != b[i + 1]]       # not on a held pair
     assert sv.anchors.tolist() == expected
-    assert sv.hashes.tolist() == [_fnv1a(b[i:i + 8]) for i in expected]
+    k1, k2, k3 = 0x9E3779B97F4A7C15, 0xC2B2AE3D27D4EB4F, 0x165667B19E3779F9
+
+    def key(i):
+        w = [int(v) for v in b[i:i + 4]]
+        out = w[0] ^ (w[1] * k1 % 2**64)
+        return out ^ (w[2] * k2 % 2**64) ^ (w[3] * k3 % 2**64) if len(w) == 4 else out
+
+    assert sv.keys.tolist() == [key(i) for i in expected]
 
 
 def test_a_signal_the_repeat_rule_cannot_sample_is_still_screened_for_spikes():
@@ -254,7 +252,7 @@ def test_a_signal_the_repeat_rule_cannot_sample_is_still_screened_for_spikes():
     x[5000] += 300.0
     from service.engine.screening import _survey
 
-    assert _survey(x, 8).anchors is None
+    assert _survey(x, True).anchors is None
     assert "spike" in kinds(screen(x, RATE))
 
 
