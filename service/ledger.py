@@ -24,7 +24,7 @@ from dataclasses import replace
 
 import numpy as np
 
-from service import declarations, runs
+from service import declarations, digests, runs
 from service.engine import hot_spot, screening
 from service.engine._threads import in_one_thread
 from service.engine.damage import AssessmentOptions, assess
@@ -258,13 +258,15 @@ def check_block(con, asset: str, up, points_rows: dict) -> None:
 
 
 def sequence_check(con, asset_id: str, seq: int, row: dict, content_hash: str,
-                   allow_gap: bool, allow_late: bool):
+                   allow_gap: bool, allow_late: bool, body=None):
     """``None`` to count the block, ``"late"`` to count it by recounting, or the
-    earlier block to replay when this is a retry of it. Raises LedgerConflict."""
+    earlier block to replay when this is a retry of it (the same bytes:
+    :func:`service.digests.same_body`, ``body`` serving a block stored before
+    fingerprints had a scheme). Raises LedgerConflict."""
     point = row["point"]
     held = sql.block_at(con, asset_id, point, seq)
     if held is not None:
-        if held["content_hash"] == content_hash:
+        if digests.same_body(held["content_hash"], content_hash, body):
             return held
         raise LedgerConflict(f"sequence number {seq} of point {point!r} already holds block "
                              f"{held['id']} with other content", point=point, seq=seq,
@@ -300,7 +302,8 @@ def post_block(con, data_dir, asset_id: str, seq: int, up, body, *, recorded_at=
     if idempotency_key is not None:
         held = sql.block_by_key(con, asset_id, idempotency_key)
         if held is not None:
-            if held["content_hash"] == content_hash and held["seq"] == seq:
+            if held["seq"] == seq and digests.same_body(held["content_hash"], content_hash,
+                                                        body):
                 return held["response"], True
             raise LedgerConflict(f"Idempotency-Key {idempotency_key!r} was used for block "
                                  f"{held['id']} with other content", block_id=held["id"])
@@ -308,7 +311,7 @@ def post_block(con, data_dir, asset_id: str, seq: int, up, body, *, recorded_at=
     with point_locks(data_dir, asset_id, names):
         rows = {n: sql.get_point(con, asset_id, n) for n in names}
         plans = {n: sequence_check(con, asset_id, seq, rows[n], content_hash, allow_gap,
-                                   allow_late) for n in names}
+                                   allow_late, body) for n in names}
         replays = [p for p in plans.values() if isinstance(p, dict)]
         if replays:
             if len(replays) == len(names) and len({b["id"] for b in replays}) == 1:

@@ -3,14 +3,13 @@
 from __future__ import annotations
 
 import csv
-import hashlib
 import io
 import re
 
 import numpy as np
 from flask import Blueprint, Response, current_app, jsonify, request, url_for
 
-from service import runs
+from service import digests, runs
 from service.extrapolation import extrapolated
 from service.store import parquet, sqlite
 
@@ -63,9 +62,9 @@ def create():
     """Assess a stored history (``history_id``) or inline ``samples``; 201 with results
     (or 202 with a job). An ``Idempotency-Key`` makes a retry answer as the first time."""
     idem_key = idempotency.key()
-    request_hash = idempotency.request_hash(
-        hashlib.sha256(request.get_data(cache=True)).hexdigest())
-    again = idempotency.replay(idem_key, request_hash)
+    body = request.get_data(cache=True)
+    request_hash = idempotency.request_hash(digests.Fingerprint(body).hexdigest())
+    again = idempotency.replay(idem_key, request_hash, body)
     if again is not None:
         return again
     return idempotency.remember(idem_key, request_hash, _create())

@@ -147,8 +147,8 @@ def spool_body(folder, digest=None) -> Path:
     Under gunicorn the body is read from the socket while this runs, so a
     large upload is on its way to disk before its last byte is in; the
     caller parses the file (memory-mapped) and either keeps it or removes it.
-    ``digest`` (a hashlib object) is fed the bytes on the way. Werkzeug's
-    stream enforces the upload limit (413).
+    ``digest`` (a :class:`~service.digests.Fingerprint`) is fed the bytes
+    on the way. Werkzeug's stream enforces the upload limit (413).
     """
     import uuid
 

@@ -2,10 +2,9 @@
 
 from __future__ import annotations
 
-import hashlib
-
 from flask import Blueprint, jsonify, request, url_for
 
+from service import digests
 from service.store import parquet, sqlite
 
 from . import created, data_dir, db, idempotency, uploads
@@ -38,11 +37,11 @@ def upload():
     idem_key = idempotency.key()
     folder = data_dir() / parquet.HISTORIES
     # The body's hash only serves a retry with a key: none is taken without.
-    digest = hashlib.sha256() if idem_key is not None else None
+    digest = digests.Fingerprint() if idem_key is not None else None
     body = receive_body(folder, digest)
     try:
         request_hash = idempotency.request_hash(digest.hexdigest()) if digest else ""
-        again = idempotency.replay(idem_key, request_hash)
+        again = idempotency.replay(idem_key, request_hash, body)
         if again is not None:
             return again
         up = uploads.parse(body, request.content_type, request.args.to_dict())

@@ -13,6 +13,7 @@ import hashlib
 
 from flask import Response, jsonify, request
 
+from service import digests
 from service.store import sqlite
 
 from . import db
@@ -39,14 +40,20 @@ def request_hash(body_digest: str) -> str:
     return hashlib.sha256(f"{request.path}?{query}\n{body_digest}".encode()).hexdigest()
 
 
-def replay(idem_key: str | None, digest: str) -> Response | None:
-    """The stored answer for a repeat, a 409 for a reused key, else None."""
+def replay(idem_key: str | None, digest: str, body=None) -> Response | None:
+    """The stored answer for a repeat, a 409 for a reused key, else None.
+
+    ``digest`` is :func:`request_hash` of the body's fingerprint; ``body``
+    (its bytes or spooled file) serves an answer stored before fingerprints
+    had a scheme, whose hash was of the body's SHA-256
+    (:func:`service.digests.same_body`)."""
     if idem_key is None:
         return None
     held = sqlite.idempotent_answer(db(), project(), request.url_rule.rule, idem_key)
     if held is None:
         return None
-    if held["request_hash"] != digest:
+    if held["request_hash"] != digest and not (
+            body is not None and held["request_hash"] == request_hash(digests.legacy(body))):
         raise IdempotencyConflict(f"Idempotency-Key {idem_key!r} was used for another request",
                                   field="Idempotency-Key")
     resp = jsonify(held["body"])

@@ -156,6 +156,39 @@ def test_a_data_directory_of_another_schema_is_refused(tmp_path):
         create_app({"DATA_DIR": str(d), "WARM_KERNELS": False})
 
 
+def test_a_retry_of_an_answer_kept_before_fingerprints_had_a_scheme_replays(client, app):
+    # Answers kept by an earlier version hash the body's SHA-256, not its
+    # XXH3-128 fingerprint: a retry across the upgrade still replays, and
+    # another body under the key is still a conflict.
+    import hashlib
+    import sqlite3
+
+    body = b"g1\n0\n100\n-50\n"
+    first = client.post("/v1/histories?unit=MPa", data=body, content_type="text/csv",
+                        headers={"Idempotency-Key": "rig3-run43"})
+    assert first.status_code == 201
+    with app.test_request_context("/v1/histories?unit=MPa", method="POST"):
+        from service.api.idempotency import request_hash
+
+        old = request_hash(hashlib.sha256(body).hexdigest())
+    from pathlib import Path
+
+    from service.store.sqlite import DB_NAME
+
+    con = sqlite3.connect(Path(app.config["DATA_DIR"]) / DB_NAME)
+    with con:
+        assert con.execute("UPDATE idempotency SET request_hash = ? WHERE key = ?",
+                           (old, "rig3-run43")).rowcount == 1
+    con.close()
+    again = client.post("/v1/histories?unit=MPa", data=body, content_type="text/csv",
+                        headers={"Idempotency-Key": "rig3-run43"})
+    assert again.status_code == 201 and again.headers["Idempotent-Replayed"] == "true"
+    assert again.get_json() == first.get_json()
+    other = client.post("/v1/histories?unit=MPa", data=b"g1\n0\n5\n", content_type="text/csv",
+                        headers={"Idempotency-Key": "rig3-run43"})
+    assert_problem(other, 409, "idempotency-conflict", field="Idempotency-Key")
+
+
 def test_idempotency_key_makes_a_retry_answer_as_the_first_time(client, app):
     # Issue 18: a pipeline that lost the answer posts again with the same
     # key: the same resource, nothing more stored; another request under the

@@ -182,6 +182,31 @@ def test_csv_block_retries_are_known_by_their_whole_content(client):
     assert p["damage_if_ended"] == pytest.approx(whole(x).damage, rel=1e-12)
 
 
+def test_a_retry_of_a_block_stored_before_fingerprints_had_a_scheme_replays(client, app):
+    # Blocks stored by an earlier version carry the SHA-256 of their bytes:
+    # the same block again (a pipeline resending after the service was
+    # upgraded) replays; other bytes at that number still conflict.
+    import hashlib
+    import sqlite3
+    from pathlib import Path
+
+    from service.store.sqlite import DB_NAME
+
+    setup_asset(client)
+    x = np.random.default_rng(4).standard_normal(3000) * 80
+    first = post(client, "arm", 1, {"a": x})
+    assert first.status_code == 201
+    con = sqlite3.connect(Path(app.config["DATA_DIR"]) / DB_NAME)
+    with con:
+        assert con.execute("UPDATE blocks SET content_hash = ? WHERE seq = 1", (
+            hashlib.sha256(pq_bytes({"a": x})).hexdigest(),)).rowcount == 1
+    con.close()
+    again = post(client, "arm", 1, {"a": x})
+    assert again.status_code == 201 and again.get_json() == first.get_json()
+    assert_problem(post(client, "arm", 1, {"a": x + 1}), 409, "sequence-conflict")
+    assert len(client.get("/v1/assets/arm/blocks").get_json()["items"]) == 1
+
+
 def test_gaps_and_late_blocks_need_consent(client):
     setup_asset(client)
     rng = np.random.default_rng(2)
