@@ -240,15 +240,15 @@ def survey(x, bits, stride, anchoring, ys, ds, lo_k, hi_k, pos, keys):
       signal's chance coincidences few (a 12-bit record of 1e6 samples:
       no two keys alike of 15.7k, against 6.7k alike with two samples)
       and cost less than an FNV-1a hash of eight (screening a clean 1e6
-      record: 0.80-0.84 ms against 0.90-0.95). A block's
-      anchor flags are read as 64-bit words: a word of eight clear flags
-      is skipped at once, and in the others each anchor is found from its
-      lowest set bit (de Bruijn indexing) rather than by testing all
-      eight.
+      record: 0.80-0.84 ms against 0.90-0.95). A block's anchor flags are
+      read as 64-bit words: a word of eight clear flags is skipped at once,
+      and in the others each anchor is found from its lowest set bit (de
+      Bruijn indexing) rather than by testing all eight.
 
     Returns ``(largest step, zero steps, anchors written, statistics)``;
-    anchors -1 when there are more anchors, held ones included, than ``pos`` holds
-    (far more than one in 64: the samples' low bits do not vary).
+    anchors -1 when there are more anchors, held ones included, than
+    ``pos`` holds (far more than one in 64: the samples' low bits do not
+    vary).
     """
     n = x.shape[0]
     steps = np.empty(_BLOCK)
