@@ -57,7 +57,7 @@ def legacy(body) -> str:
 def same_body(stored: str, fingerprint: str, body) -> bool:
     """Whether a stored fingerprint is of the same bytes as ``body`` (whose
     fingerprint is ``fingerprint``): directly, or for one stored before
-    :data:`SCHEME`, by ``body``'s SHA-256."""
+    :data:`SCHEME`, by ``body``'s SHA-256 (not without ``body``)."""
     if stored == fingerprint:
         return True
-    return not stored.startswith(SCHEME) and stored == legacy(body)
+    return body is not None and not stored.startswith(SCHEME) and stored == legacy(body)

@@ -43,3 +43,4 @@ def test_fingerprints_stored_before_the_scheme_are_recognised(tmp_path):
     other = digests.Fingerprint(body + b"1,2\n").hexdigest()
     assert not digests.same_body(other, new, body)          # a new fingerprint of other bytes
     assert not digests.same_body(hashlib.sha256(b"x").hexdigest(), new, body)
+    assert not digests.same_body(old, new, None)            # no bytes to take it from
