@@ -28,10 +28,10 @@ def receive_body(folder, digest=None) -> memoryview | Path:
     (bench_inputs: a 150 MB CSV spent longer spooled than parsed), so only
     a body too large to hold goes through a file. Parsing a CSV as it
     arrives (pyarrow pulling the body's blocks from its own thread) was
-    built and measured no faster here: the tenth session's A/B in one
-    service, 12 posts of 150 MB each way, gave a median 576 ms against
-    532 ms received whole (two cores: receiving and parsing compete for
-    them rather than overlap). ``digest`` as in :func:`spool_body`;
+    built and measured no faster here: an A/B in one service, 12 posts of
+    150 MB each way, gave a median 576 ms against 532 ms received whole
+    (two cores: receiving and parsing compete for them rather than
+    overlap). ``digest`` as in :func:`spool_body`;
     :func:`discard` removes a spooled file and hands the memory back for
     the next body (:class:`SpareBuffer`).
     """

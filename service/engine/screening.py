@@ -130,18 +130,26 @@ class Finding:
         return asdict(self)
 
 
-def _scan(x, step_limit, spike_samples, held_min, suspect=None):
+def _spike_limit(x: np.ndarray, st: "_Stats", th: Thresholds) -> float:
+    """The step beyond which a spike is suspected: ``spike_sigma`` robust
+    standard deviations of the steps, or of one quantum where a quantised
+    signal's steps have a zero MAD. [signal unit]"""
+    scale = st.step_scale
+    if scale == 0.0:
+        steps = np.abs(np.diff(x[: min(x.shape[0], 200_000)]))
+        steps = steps[steps > 0]
+        scale = float(steps.min()) if steps.size else 0.0
+    return th.spike_sigma * scale if scale > 0 else math.inf
+
+
+def _scan(x, sv: "_Survey", step_limit, spike_samples, held_min):
     """``(spikes (k, 3): first, last, height; clip_top, clip_bottom (runs, 2);
     held (runs, 3): first, last, value; max; min)`` of ``x``; max and min
-    are None when no step is suspect (nothing there needs them).
-    ``suspect``: whether a step exceeds the limit or is zero, if already
-    known (:func:`_survey`)."""
+    are None when no step is suspect (beyond the limit or zero, as the
+    pass ``sv`` over ``x`` tells: nothing there needs them)."""
     none3 = np.empty((0, 3))
     none2 = np.empty((0, 2), np.int64)
-    if suspect is None:
-        sv = _survey(x, False)
-        suspect = sv.largest_step > step_limit or sv.zero_steps > 0
-    if not suspect:
+    if not (sv.largest_step > step_limit or sv.zero_steps > 0):
         return none3, none2, none2, none3, None, None
     ns, nr, hi, lo = signal_pass(x, step_limit, spike_samples, none3, none3, False)
     spikes, runs = none3, none3
@@ -259,11 +267,6 @@ def _trend(x: np.ndarray) -> tuple[float, float, float]:
     return st.trend_change, st.p1, st.p99
 
 
-def _robust_step_scale(x: np.ndarray) -> float:
-    """Robust standard deviation of the first differences (MAD / 0.6745)."""
-    return _stats(x).step_scale
-
-
 def screen(samples, sample_rate_hz: float | None = None,
            thresholds: Thresholds | None = None) -> list[Finding]:
     """
@@ -291,16 +294,8 @@ def screen(samples, sample_rate_hz: float | None = None,
     min_repeat = int(th.repeat_samples)
     sv = _survey(x, n >= 2 * min_repeat)
     st = sv.stats
-    scale = st.step_scale
-    # A quantised signal can have a zero MAD of its steps; one quantum then.
-    if scale == 0.0:
-        steps = np.abs(np.diff(x[: min(n, 200_000)]))
-        steps = steps[steps > 0]
-        scale = float(steps.min()) if steps.size else 0.0
-    limit = th.spike_sigma * scale if scale > 0 else math.inf
     spikes, top, bottom, held, hi, lo = _scan(
-        x, limit, int(th.spike_samples), int(th.held_samples),
-        sv.largest_step > limit or sv.zero_steps > 0)
+        x, sv, _spike_limit(x, st, th), int(th.spike_samples), int(th.held_samples))
     if hi is not None and hi == lo:
         return [Finding("dead", 0, n - 1, 1, 0.0, f"every sample is {hi:g}: the channel is "
                         "dead or not connected")]
@@ -420,9 +415,9 @@ def clean(samples, findings: list[Finding],
             if events is None:
                 # More spikes than listed: find them all again on this signal.
                 th = thresholds or _DEFAULT
-                scale = _robust_step_scale(x)
-                spikes = _scan(x, th.spike_sigma * scale, th.spike_samples,
-                               th.held_samples)[0]
+                sv = _survey(x, False)
+                spikes = _scan(x, sv, _spike_limit(x, sv.stats, th), int(th.spike_samples),
+                               int(th.held_samples))[0]
                 events = [[int(a), int(b)] for a, b in spikes[:, :2]]
             for a, b in events:
                 left, right = max(a - 1, 0), min(b + 1, n - 1)

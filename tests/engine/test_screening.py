@@ -81,6 +81,24 @@ def test_spike_share_of_damage_and_cleaning():
     assert r.damage > 3 * d_clean
 
 
+def test_more_spikes_than_listed_are_all_cleaned():
+    # A finding lists its first 20 events; cleaning finds the rest again on
+    # the signal with the same limit screening used, so every planted spike
+    # goes, and nothing else is touched.
+    x0 = narrow_band(seed=8)
+    x = x0.copy()
+    planted = np.arange(600, 19_000, 600)               # 31 one-sample spikes
+    x[planted] += 700.0
+    found = screen(x, RATE)
+    assert kinds(found) == ["spike"] and found[0].count == planted.size
+    assert len(found[0].events) == 20
+    cleaned, done = clean(x, found)
+    assert done == [f"{planted.size} spike(s) replaced by linear interpolation"]
+    assert np.array_equal(np.flatnonzero(cleaned != x), planted)
+    assert np.abs(cleaned[planted] - x0[planted]).max() < 30.0
+    assert kinds(screen(cleaned, RATE)) == []
+
+
 def test_clipping_held_runs_zeros_flat_and_dead():
     x = narrow_band(seed=5)
     clipped = np.clip(x, -70.0, 70.0)
